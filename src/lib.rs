@@ -1,0 +1,20 @@
+//! stockfit — pick buildable parts for single-supply op-amp gain stages.
+//!
+//! Data flows one way: spec + stock → candidates per slot → search → exact analysis → ranked
+//! builds → reports. Nothing in this library does I/O: readers take `impl Read` or `&str`, and
+//! reports return strings; the binary (`src/main.rs`, `src/cli/`) reads files and prints.
+
+pub mod analysis;
+pub mod build;
+pub mod error;
+pub mod report;
+pub mod search;
+pub mod series;
+pub mod spec;
+pub mod stage;
+pub mod stock;
+pub mod value;
+
+pub use build::{Build, Part, Piece};
+pub use error::Error;
+pub use spec::Spec;

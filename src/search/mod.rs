@@ -1,0 +1,389 @@
+//! The exact search: the stock's candidates per slot → branch and bound over the stage's
+//! groups → the top N builds, each re-checked by the exact analysis.
+//!
+//! The objective is a sum of shares: each slot's own points (pieces, capacitance, cost), each
+//! group's stage terms (gain error, offset), and the distinct lines added. The groups are
+//! decided in the stage's order; within a group the candidates are sorted by a context-free
+//! lower bound, so a whole tail is cut once `so far + bound + best of the rest` reaches the
+//! N-th best build found. Stage filters are relaxations, and every build that reaches the end
+//! is judged by `analysis::evaluate`: the result is the exact top N (a property test compares
+//! it with brute force).
+
+pub mod brute;
+pub mod diagnose;
+
+use crate::analysis::{self, Evaluation};
+use crate::build::{Build, LineKey, Part};
+use crate::spec::Spec;
+use crate::stage::Stage;
+use crate::stock::Stock;
+use std::collections::HashMap;
+
+/// More tuples than this in one group would take too long to sort and too much memory.
+pub const MAX_GROUP_TUPLES: usize = 40_000_000;
+
+/// One ranked build.
+#[derive(Debug, Clone)]
+pub struct Ranked {
+    pub build: Build,
+    pub evaluation: Evaluation,
+}
+
+/// Search progress, for a bar in the binary.
+#[derive(Debug, Clone, Copy)]
+pub struct Progress {
+    /// First-group candidates tried so far and in all.
+    pub done: usize,
+    pub total: usize,
+}
+
+/// What a search did.
+#[derive(Debug, Clone, Default)]
+pub struct Stats {
+    pub candidates: Vec<usize>,
+    pub nodes: u64,
+    pub evaluated: u64,
+}
+
+#[derive(Debug, Clone)]
+pub struct Outcome {
+    pub builds: Vec<Ranked>,
+    pub stats: Stats,
+}
+
+#[derive(Debug, thiserror::Error, PartialEq)]
+pub enum SearchError {
+    #[error(
+        "the stock has no {kind} for slot `{slot}` within {range}; widen the range or add stock"
+    )]
+    NoCandidates {
+        slot: String,
+        kind: String,
+        range: String,
+    },
+    #[error("slot group {slots} would need {tuples} combinations, more than this release searches ({MAX_GROUP_TUPLES}); narrow `resistor_range`, use `combine = \"single\"`, or lock a slot")]
+    TooLarge { slots: String, tuples: usize },
+}
+
+/// A request: what to search and how many builds to keep.
+pub struct Request<'a> {
+    pub spec: &'a Spec,
+    pub stage: &'a dyn Stage,
+    pub stock: &'a Stock,
+    /// Parts fixed by the user, by slot index.
+    pub locks: &'a [(usize, Part)],
+    pub top: usize,
+}
+
+/// The candidates of every slot: the stock's realisations, or the locked part alone.
+pub fn slot_candidates(req: &Request) -> Result<Vec<Vec<Part>>, SearchError> {
+    let mut by_kind = HashMap::new();
+    req.stage
+        .slots()
+        .iter()
+        .enumerate()
+        .map(|(i, slot)| {
+            if let Some((_, part)) = req.locks.iter().find(|(s, _)| *s == i) {
+                return Ok(vec![part.clone()]);
+            }
+            let parts = by_kind
+                .entry(slot.kind)
+                .or_insert_with(|| req.stock.candidates(slot.kind))
+                .clone();
+            if parts.is_empty() {
+                let (lo, hi) = req.stock.range(slot.kind);
+                let unit = parts_unit(slot.kind);
+                return Err(SearchError::NoCandidates {
+                    slot: slot.name.to_string(),
+                    kind: format!("{:?}", slot.kind).to_lowercase(),
+                    range: format!(
+                        "{} … {}",
+                        crate::value::format(lo, unit),
+                        crate::value::format(hi, unit)
+                    ),
+                });
+            }
+            Ok(parts)
+        })
+        .collect()
+}
+
+fn parts_unit(kind: crate::stock::inventory::PartKind) -> crate::value::Unit {
+    match kind {
+        crate::stock::inventory::PartKind::Resistor => crate::value::Unit::Ohm,
+        crate::stock::inventory::PartKind::Capacitor => crate::value::Unit::Farad,
+    }
+}
+
+/// The best `top` builds, kept sorted; builds that look identical (same values, tolerances and
+/// arrangement per slot, e.g. two inventory lines of one value) count once, the better kept.
+pub(crate) struct TopN {
+    cap: usize,
+    items: Vec<(f64, Vec<u64>, Ranked)>,
+}
+
+impl TopN {
+    pub fn new(cap: usize) -> TopN {
+        TopN {
+            cap: cap.max(1),
+            items: Vec::new(),
+        }
+    }
+
+    /// Score a new build must beat to enter.
+    pub fn bound(&self) -> f64 {
+        if self.items.len() < self.cap {
+            f64::INFINITY
+        } else {
+            self.items.last().map_or(f64::INFINITY, |i| i.0)
+        }
+    }
+
+    pub fn offer(&mut self, ranked: Ranked) {
+        let score = ranked.evaluation.score;
+        let key = look_key(&ranked.build);
+        if let Some(pos) = self.items.iter().position(|i| i.1 == key) {
+            if self.items[pos].0 <= score {
+                return;
+            }
+            self.items.remove(pos);
+        }
+        if self.items.len() >= self.cap && score >= self.bound() {
+            return;
+        }
+        let at = self.items.partition_point(|i| i.0 <= score);
+        self.items.insert(at, (score, key, ranked));
+        self.items.truncate(self.cap);
+    }
+
+    pub fn into_vec(self) -> Vec<Ranked> {
+        self.items.into_iter().map(|i| i.2).collect()
+    }
+}
+
+/// What a person sees of a build: arrangement, value and tolerance of every piece.
+fn look_key(build: &Build) -> Vec<u64> {
+    let mut key = Vec::new();
+    for part in &build.parts {
+        key.push(part.arrangement as u64);
+        for p in &part.pieces {
+            key.push(p.value.to_bits());
+            key.push(p.tolerance.to_bits());
+        }
+    }
+    key
+}
+
+struct Group {
+    slots: &'static [usize],
+    /// (lower bound, candidate index per slot), ascending.
+    tuples: Vec<(f64, Vec<u32>)>,
+}
+
+struct Dfs<'a> {
+    req: &'a Request<'a>,
+    cands: &'a [Vec<Part>],
+    groups: Vec<Group>,
+    rest: Vec<f64>,
+    assigned: Vec<Option<&'a Part>>,
+    lines: HashMap<LineKey, u32>,
+    top: TopN,
+    stats: Stats,
+    progress: &'a mut dyn FnMut(Progress),
+}
+
+/// Run the exact search. `progress` is called now and then with how far the first group is.
+pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
+    let cands = slot_candidates(req)?;
+    let spec = req.spec;
+    let stage = req.stage;
+    let n = stage.slots().len();
+    let mut groups = Vec::new();
+    for &slots in stage.groups() {
+        let sizes: Vec<usize> = slots.iter().map(|&s| cands[s].len()).collect();
+        let total = sizes.iter().try_fold(1usize, |a, &b| a.checked_mul(b));
+        match total {
+            Some(t) if t <= MAX_GROUP_TUPLES => {}
+            _ => {
+                return Err(SearchError::TooLarge {
+                    slots: slots
+                        .iter()
+                        .map(|&s| stage.slots()[s].name)
+                        .collect::<Vec<_>>()
+                        .join("+"),
+                    tuples: total.unwrap_or(usize::MAX),
+                })
+            }
+        }
+        let mut tuples = Vec::new();
+        let mut idx = vec![0u32; slots.len()];
+        let mut parts: Vec<Option<&Part>> = vec![None; n];
+        'product: loop {
+            for (k, &s) in slots.iter().enumerate() {
+                parts[s] = Some(&cands[s][idx[k] as usize]);
+            }
+            let g = groups.len();
+            if let Some(base) = stage.group_base(spec, g, &parts) {
+                let own: f64 = slots
+                    .iter()
+                    .map(|&s| analysis::slot_points(spec, parts[s].unwrap_or(&cands[s][0])))
+                    .sum();
+                tuples.push((base + own, idx.clone()));
+            }
+            // Odometer over the group's slots.
+            for k in 0..slots.len() {
+                idx[k] += 1;
+                if (idx[k] as usize) < sizes[k] {
+                    continue 'product;
+                }
+                idx[k] = 0;
+            }
+            break;
+        }
+        tuples.sort_by(|a, b| a.0.total_cmp(&b.0));
+        groups.push(Group { slots, tuples });
+    }
+    let mut rest = vec![0.0; groups.len() + 1];
+    for g in (0..groups.len()).rev() {
+        let best = groups[g].tuples.first().map_or(f64::INFINITY, |t| t.0);
+        rest[g] = rest[g + 1] + best;
+    }
+    let mut dfs = Dfs {
+        req,
+        cands: &cands,
+        groups,
+        rest,
+        assigned: vec![None; n],
+        lines: HashMap::new(),
+        top: TopN::new(req.top),
+        stats: Stats {
+            candidates: cands.iter().map(Vec::len).collect(),
+            ..Stats::default()
+        },
+        progress,
+    };
+    if dfs.rest[0].is_finite() {
+        dfs.descend(0, 0.0);
+    }
+    Ok(Outcome {
+        stats: dfs.stats,
+        builds: dfs.top.into_vec(),
+    })
+}
+
+impl<'a> Dfs<'a> {
+    fn descend(&mut self, g: usize, acc: f64) {
+        let spec = self.req.spec;
+        let stage = self.req.stage;
+        if g == self.groups.len() {
+            self.leaf(acc);
+            return;
+        }
+        let slots = self.groups[g].slots;
+        let rest_after = self.rest[g + 1];
+        let count = self.groups[g].tuples.len();
+        for t in 0..count {
+            let base = self.groups[g].tuples[t].0;
+            if acc + base + rest_after >= self.top.bound() {
+                break;
+            }
+            if g == 0 && t % 256 == 0 {
+                (self.progress)(Progress {
+                    done: t,
+                    total: count,
+                });
+            }
+            self.stats.nodes += 1;
+            let cands = self.cands;
+            let idx = self.groups[g].tuples[t].1.clone();
+            for (k, &s) in slots.iter().enumerate() {
+                self.assigned[s] = Some(&cands[s][idx[k] as usize]);
+            }
+            let (fits, new_lines) = self.take(slots);
+            if fits {
+                if let Some(share) = stage.group_partial(spec, g, &self.assigned) {
+                    let own: f64 = slots
+                        .iter()
+                        .filter_map(|&s| self.assigned[s])
+                        .map(|p| analysis::slot_points(spec, p))
+                        .sum();
+                    let score = acc + share + own + spec.goals.bom_lines * new_lines as f64;
+                    if score + rest_after < self.top.bound() {
+                        self.descend(g + 1, score);
+                    }
+                }
+            }
+            self.give_back(slots);
+            for &s in slots {
+                self.assigned[s] = None;
+            }
+        }
+        if g == 0 {
+            (self.progress)(Progress {
+                done: count,
+                total: count,
+            });
+        }
+    }
+
+    /// Count the pieces of `slots` against the stock; returns whether they fit and how many
+    /// lines are new to the build.
+    fn take(&mut self, slots: &[usize]) -> (bool, usize) {
+        let mut fits = true;
+        let mut new_lines = 0;
+        for &s in slots {
+            let part = self.assigned[s].expect("assigned");
+            for piece in &part.pieces {
+                let key = LineKey::of(part.kind, piece);
+                let n = self.lines.entry(key).or_insert(0);
+                if *n == 0 {
+                    new_lines += 1;
+                }
+                *n += 1;
+                if !part.locked {
+                    if let Some(limit) = self.req.stock.quantity(key) {
+                        if *n > limit {
+                            fits = false;
+                        }
+                    }
+                }
+            }
+        }
+        (fits, new_lines)
+    }
+
+    fn give_back(&mut self, slots: &[usize]) {
+        for &s in slots {
+            let part = self.assigned[s].expect("assigned");
+            for piece in &part.pieces {
+                let key = LineKey::of(part.kind, piece);
+                if let Some(n) = self.lines.get_mut(&key) {
+                    *n -= 1;
+                    if *n == 0 {
+                        self.lines.remove(&key);
+                    }
+                }
+            }
+        }
+    }
+
+    fn leaf(&mut self, acc: f64) {
+        let parts: Vec<Part> = self
+            .assigned
+            .iter()
+            .map(|p| p.expect("every slot assigned").clone())
+            .collect();
+        let build = Build { parts };
+        self.stats.evaluated += 1;
+        let evaluation =
+            analysis::evaluate(self.req.spec, self.req.stage, &build, Some(self.req.stock));
+        debug_assert!(
+            (evaluation.score - acc).abs() <= 1e-9 * acc.abs().max(1.0),
+            "search shares {acc} != objective {}",
+            evaluation.score
+        );
+        if evaluation.pass {
+            self.top.offer(Ranked { build, evaluation });
+        }
+    }
+}

@@ -1,0 +1,1071 @@
+//! The requirement as typed values, validated once at load.
+//!
+//! A spec is TOML with the sections `[stage]`, `[amplifier]`, `[stock]`, `[goals]` and `[lock]`.
+//! Every value may be written as the trade writes it (`"9 V"`, `"4k7"`, `"20 Hz"`, `"1%"`) or as
+//! a plain number in SI base units. Every problem found is collected, each with its key and the
+//! line it is on, so that a hand-typed spec is fixed in one round.
+
+use crate::series::Series;
+use crate::value::{self, Unit};
+use std::fmt;
+use toml::Value;
+
+/// Which stage to design.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum StageKind {
+    Inverting,
+    NonInverting,
+}
+
+impl StageKind {
+    pub const ALL: [StageKind; 2] = [StageKind::Inverting, StageKind::NonInverting];
+
+    pub fn name(self) -> &'static str {
+        match self {
+            StageKind::Inverting => "inverting",
+            StageKind::NonInverting => "non-inverting",
+        }
+    }
+
+    pub fn parse(text: &str) -> Option<StageKind> {
+        let t = text.trim().to_ascii_lowercase().replace('_', "-");
+        StageKind::ALL.into_iter().find(|k| k.name() == t)
+    }
+}
+
+/// How requirements are judged.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum ToleranceMode {
+    /// Each part at the end of its tolerance that hurts (default).
+    Worst,
+    /// Nominal values only.
+    Nominal,
+}
+
+/// How a slot may be realised from stock.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Combine {
+    Single,
+    Series,
+    Parallel,
+    Both,
+}
+
+impl Combine {
+    fn parse(text: &str) -> Option<Combine> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "single" => Some(Combine::Single),
+            "series" => Some(Combine::Series),
+            "parallel" => Some(Combine::Parallel),
+            "both" => Some(Combine::Both),
+            _ => None,
+        }
+    }
+}
+
+/// Where the parts of one kind come from.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub enum SourceSpec {
+    Series(Series),
+    /// An inventory CSV, path as written (relative to the spec file's folder).
+    File(String),
+}
+
+impl SourceSpec {
+    /// A series name (`E24`) or else a CSV path.
+    pub fn parse(text: &str) -> SourceSpec {
+        match Series::parse(text) {
+            Some(s) => SourceSpec::Series(s),
+            None => SourceSpec::File(text.trim().to_string()),
+        }
+    }
+}
+
+/// The amplifier's figures, from its datasheet. Absent figures are ideal (zero error,
+/// infinite bandwidth).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Amplifier {
+    /// Gain-bandwidth product, Hz.
+    pub gbw: Option<f64>,
+    /// Input bias current magnitude, A (its sign is taken as unknown).
+    pub input_bias_current: f64,
+    /// Input offset current magnitude, A.
+    pub input_offset_current: f64,
+    /// Input offset voltage magnitude, V.
+    pub input_offset_voltage: f64,
+    /// Slew rate, V/s.
+    pub slew_rate: Option<f64>,
+}
+
+/// Weights of the ranking terms (points). See README "Goals".
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Goals {
+    /// Points per 1 % of nominal gain error.
+    pub gain_error: f64,
+    /// Points per 100 mV of nominal output DC error (bias point off its target, plus bias
+    /// current times the resistance mismatch between the inputs).
+    pub offset: f64,
+    /// Points per piece.
+    pub part_count: f64,
+    /// Points per distinct line (or value) to stock.
+    pub bom_lines: f64,
+    /// Points per decade of capacitance, summed over capacitors (log10 of C in pF).
+    pub capacitance: f64,
+    /// Points per unit of currency, where costs are known.
+    pub cost: f64,
+}
+
+impl Default for Goals {
+    fn default() -> Goals {
+        // Calibrated so that, with 1 % parts (a ±2 % gain spread), a nominal error well inside
+        // the spread does not buy an extra piece or line: 0.1 % of gain error costs as much as
+        // one more piece (common practice: nobody solders a trim pair to win 0.05 %).
+        Goals {
+            gain_error: 1.0,
+            offset: 0.5,
+            part_count: 0.1,
+            bom_lines: 0.1,
+            capacitance: 0.1,
+            cost: 1.0,
+        }
+    }
+}
+
+/// The parts source and the limits on what to take from it.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct StockSpec {
+    pub resistors: SourceSpec,
+    pub capacitors: SourceSpec,
+    pub resistor_range: (f64, f64),
+    pub capacitor_range: (f64, f64),
+    /// Tolerance of series resistors (inventories carry their own).
+    pub resistor_tolerance: f64,
+    /// Tolerance of series capacitors.
+    pub capacitor_tolerance: f64,
+    pub combine: Combine,
+}
+
+/// A slot fixed to a value (already on the board).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Lock {
+    pub slot: String,
+    pub value: f64,
+    /// `None`: the stock's tolerance for that kind.
+    pub tolerance: Option<f64>,
+}
+
+/// A validated requirement.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Spec {
+    pub stage: StageKind,
+    pub supply: f64,
+    pub gain: f64,
+    pub gain_tolerance: Option<f64>,
+    pub input_resistance_min: Option<f64>,
+    pub load: f64,
+    pub band: (f64, f64),
+    pub band_loss_max: Option<f64>,
+    pub corner_low_max: Option<f64>,
+    /// Headroom the output needs to the (low, high) rail.
+    pub headroom: (f64, f64),
+    pub source_dc: f64,
+    pub source_resistance: f64,
+    pub input_peak: Option<f64>,
+    pub output_peak: Option<f64>,
+    pub tolerance_mode: ToleranceMode,
+    pub amplifier: Amplifier,
+    pub stock: StockSpec,
+    pub goals: Goals,
+    pub locks: Vec<Lock>,
+}
+
+impl Spec {
+    /// The bias point that leaves the same swing to both rails' limits.
+    pub fn bias_target(&self) -> f64 {
+        (self.headroom.0 + self.supply - self.headroom.1) / 2.0
+    }
+
+    /// The output peak the spec asks for: `output_peak`, or `input_peak` × |gain|.
+    pub fn required_output_peak(&self) -> Option<f64> {
+        self.output_peak
+            .or(self.input_peak.map(|v| v * self.gain.abs()))
+    }
+
+    pub fn worst_case(&self) -> bool {
+        self.tolerance_mode == ToleranceMode::Worst
+    }
+}
+
+/// One problem in a spec, with its place.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SpecError {
+    /// `section.key`, or the section alone.
+    pub key: String,
+    /// 1-based line in the spec text, where it can be found.
+    pub line: Option<usize>,
+    pub message: String,
+}
+
+impl fmt::Display for SpecError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self.line {
+            Some(line) => write!(f, "line {line}, `{}`: {}", self.key, self.message),
+            None => write!(f, "`{}`: {}", self.key, self.message),
+        }
+    }
+}
+
+/// Every problem found in a spec.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub struct SpecErrors(pub Vec<SpecError>);
+
+impl fmt::Display for SpecErrors {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let n = self.0.len();
+        writeln!(
+            f,
+            "{n} problem{} in the spec:",
+            if n == 1 { "" } else { "s" }
+        )?;
+        for (i, e) in self.0.iter().enumerate() {
+            if i + 1 < n {
+                writeln!(f, "  {e}")?;
+            } else {
+                write!(f, "  {e}")?;
+            }
+        }
+        Ok(())
+    }
+}
+
+const STAGE_KEYS: &[&str] = &[
+    "kind",
+    "supply",
+    "gain",
+    "gain_tolerance",
+    "input_resistance_min",
+    "load",
+    "band",
+    "band_loss_max",
+    "corner_low_max",
+    "headroom",
+    "source_dc",
+    "source_resistance",
+    "input_peak",
+    "output_peak",
+    "tolerance_mode",
+];
+const AMPLIFIER_KEYS: &[&str] = &[
+    "gbw",
+    "input_bias_current",
+    "input_offset_current",
+    "input_offset_voltage",
+    "slew_rate",
+];
+const STOCK_KEYS: &[&str] = &[
+    "resistors",
+    "capacitors",
+    "resistor_range",
+    "capacitor_range",
+    "resistor_tolerance",
+    "capacitor_tolerance",
+    "combine",
+];
+const GOAL_KEYS: &[&str] = &[
+    "gain_error",
+    "offset",
+    "part_count",
+    "bom_lines",
+    "capacitance",
+    "cost",
+];
+const SECTIONS: &[&str] = &["stage", "amplifier", "stock", "goals", "lock"];
+
+/// Reads TOML fields, collecting errors with their lines.
+struct Reader<'a> {
+    text: &'a str,
+    errors: Vec<SpecError>,
+}
+
+impl<'a> Reader<'a> {
+    /// Line of `key` inside `[section]`: the first line after the header that assigns it.
+    /// TOML keys in our sections are bare words, so a textual search is exact for them.
+    fn line_of(&self, section: &str, key: Option<&str>) -> Option<usize> {
+        let mut in_section = false;
+        for (i, raw) in self.text.lines().enumerate() {
+            let line = raw.trim();
+            if line.starts_with('[') {
+                let name = line.trim_start_matches('[').split(']').next().unwrap_or("");
+                in_section = name.trim() == section;
+                if in_section && key.is_none() {
+                    return Some(i + 1);
+                }
+                continue;
+            }
+            if let (true, Some(key)) = (in_section, key) {
+                if let Some(rest) = line.strip_prefix(key) {
+                    if rest.trim_start().starts_with('=') {
+                        return Some(i + 1);
+                    }
+                }
+            }
+        }
+        None
+    }
+
+    fn error(&mut self, section: &str, key: Option<&str>, message: String) {
+        let line = self.line_of(section, key);
+        let key = match key {
+            Some(k) => format!("{section}.{k}"),
+            None => section.to_string(),
+        };
+        self.errors.push(SpecError { key, line, message });
+    }
+
+    /// Unknown keys are errors, with the nearest known key suggested.
+    fn check_keys(&mut self, section: &str, table: &toml::Table, known: &[&str]) {
+        for key in table.keys() {
+            if !known.contains(&key.as_str()) {
+                let hint = match nearest(key, known) {
+                    Some(k) => format!("; did you mean `{k}`?"),
+                    None => format!("; known keys: {}", known.join(", ")),
+                };
+                self.error(section, Some(key), format!("unknown key{hint}"));
+            }
+        }
+    }
+
+    fn quantity(
+        &mut self,
+        section: &str,
+        table: &toml::Table,
+        key: &str,
+        unit: Unit,
+    ) -> Option<f64> {
+        let v = table.get(key)?;
+        match scalar(v, unit) {
+            Ok(x) => Some(x),
+            Err(msg) => {
+                self.error(section, Some(key), msg);
+                None
+            }
+        }
+    }
+
+    fn required(
+        &mut self,
+        section: &str,
+        table: &toml::Table,
+        key: &str,
+        unit: Unit,
+    ) -> Option<f64> {
+        if !table.contains_key(key) {
+            self.error(
+                section,
+                None,
+                format!(
+                    "missing `{key}` ({} in {})",
+                    unit.quantity(),
+                    unit_hint(unit)
+                ),
+            );
+            return None;
+        }
+        self.quantity(section, table, key, unit)
+    }
+
+    fn positive(
+        &mut self,
+        section: &str,
+        table: &toml::Table,
+        key: &str,
+        unit: Unit,
+    ) -> Option<f64> {
+        let v = self.quantity(section, table, key, unit)?;
+        if v <= 0.0 {
+            self.error(
+                section,
+                Some(key),
+                format!("must be greater than zero, found {v}"),
+            );
+            return None;
+        }
+        Some(v)
+    }
+
+    /// A pair `[low, high]`, or one value used for both when `single_ok`.
+    fn pair(
+        &mut self,
+        section: &str,
+        table: &toml::Table,
+        key: &str,
+        unit: Unit,
+        single_ok: bool,
+    ) -> Option<(f64, f64)> {
+        let v = table.get(key)?;
+        match v {
+            Value::Array(items) if items.len() == 2 => {
+                let a = scalar(&items[0], unit);
+                let b = scalar(&items[1], unit);
+                match (a, b) {
+                    (Ok(a), Ok(b)) => Some((a, b)),
+                    (Err(m), _) | (_, Err(m)) => {
+                        self.error(section, Some(key), m);
+                        None
+                    }
+                }
+            }
+            Value::Array(_) => {
+                self.error(
+                    section,
+                    Some(key),
+                    "expected two values [low, high]".to_string(),
+                );
+                None
+            }
+            other if single_ok => match scalar(other, unit) {
+                Ok(x) => Some((x, x)),
+                Err(m) => {
+                    self.error(section, Some(key), m);
+                    None
+                }
+            },
+            _ => {
+                self.error(
+                    section,
+                    Some(key),
+                    format!("expected a pair [low, high] of {}", unit_hint(unit)),
+                );
+                None
+            }
+        }
+    }
+
+    fn text(&mut self, section: &str, table: &toml::Table, key: &str) -> Option<String> {
+        match table.get(key)? {
+            Value::String(s) => Some(s.clone()),
+            _ => {
+                self.error(section, Some(key), "expected a quoted string".to_string());
+                None
+            }
+        }
+    }
+
+    fn number(&mut self, section: &str, table: &toml::Table, key: &str) -> Option<f64> {
+        let v = match table.get(key)? {
+            Value::Integer(i) => *i as f64,
+            Value::Float(f) => *f,
+            _ => {
+                self.error(section, Some(key), "expected a number".to_string());
+                return None;
+            }
+        };
+        if !v.is_finite() || v < 0.0 {
+            self.error(
+                section,
+                Some(key),
+                "expected a finite number ≥ 0".to_string(),
+            );
+            return None;
+        }
+        Some(v)
+    }
+}
+
+fn unit_hint(unit: Unit) -> &'static str {
+    match unit {
+        Unit::Ohm => "ohms, e.g. \"47k\" or \"4k7\"",
+        Unit::Farad => "farads, e.g. \"100 nF\" or \"4u7\"",
+        Unit::Volt => "volts, e.g. \"9 V\"",
+        Unit::Ampere => "amperes, e.g. \"10 nA\"",
+        Unit::Hertz => "hertz, e.g. \"20 Hz\" or \"1 MHz\"",
+        Unit::VoltPerSecond => "volts per second, e.g. \"0.5 V/us\"",
+        Unit::Watt => "watts, e.g. \"0.25 W\"",
+        Unit::Percent => "percent, e.g. \"1%\"",
+        Unit::Decibel => "decibels, e.g. \"0.5 dB\"",
+        Unit::VoltPerRootHz => "V/√Hz, e.g. \"10 nV/rtHz\"",
+        Unit::AmpPerRootHz => "A/√Hz, e.g. \"1 pA/rtHz\"",
+    }
+}
+
+/// A TOML value as a quantity: a string in engineering form, or a plain number.
+fn scalar(v: &Value, unit: Unit) -> Result<f64, String> {
+    match v {
+        Value::String(s) => value::parse(s, unit).map_err(|e| e.to_string()),
+        Value::Integer(i) => plain(*i as f64, unit),
+        Value::Float(f) => plain(*f, unit),
+        _ => Err(format!("expected {}", unit_hint(unit))),
+    }
+}
+
+fn plain(x: f64, unit: Unit) -> Result<f64, String> {
+    if !x.is_finite() {
+        return Err(format!("expected a finite number, {}", unit_hint(unit)));
+    }
+    // A bare number is in base units, except percent: `1` means 1 % (as `value::parse`).
+    Ok(if unit == Unit::Percent { x / 100.0 } else { x })
+}
+
+/// Nearest known key by edit distance, when it is close enough to be a typo.
+pub(crate) fn nearest<'k>(key: &str, known: &[&'k str]) -> Option<&'k str> {
+    known
+        .iter()
+        .map(|k| (levenshtein(key, k), *k))
+        .filter(|(d, k)| *d <= 3.max(k.len() / 3))
+        .min()
+        .map(|(_, k)| k)
+}
+
+/// Optimal-string-alignment distance: edits plus adjacent transpositions, so that the typo
+/// `laod` is one step from `load`.
+fn levenshtein(a: &str, b: &str) -> usize {
+    let a: Vec<char> = a.chars().collect();
+    let b: Vec<char> = b.chars().collect();
+    let mut d = vec![vec![0usize; b.len() + 1]; a.len() + 1];
+    for (i, row) in d.iter_mut().enumerate() {
+        row[0] = i;
+    }
+    for j in 0..=b.len() {
+        d[0][j] = j;
+    }
+    for i in 1..=a.len() {
+        for j in 1..=b.len() {
+            let cost = usize::from(a[i - 1] != b[j - 1]);
+            let mut best = (d[i - 1][j] + 1)
+                .min(d[i][j - 1] + 1)
+                .min(d[i - 1][j - 1] + cost);
+            if i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1] {
+                best = best.min(d[i - 2][j - 2] + 1);
+            }
+            d[i][j] = best;
+        }
+    }
+    d[a.len()][b.len()]
+}
+
+fn section<'t>(root: &'t toml::Table, name: &str, r: &mut Reader) -> Option<&'t toml::Table> {
+    match root.get(name) {
+        None => None,
+        Some(Value::Table(t)) => Some(t),
+        Some(_) => {
+            r.error(
+                name,
+                None,
+                "expected a table `[name]`".replace("name", name),
+            );
+            None
+        }
+    }
+}
+
+/// A lock entry `VALUE` or `VALUE/TOLERANCE` (e.g. `4k7`, `4k7/5%`).
+pub fn parse_lock_value(text: &str, unit: Unit) -> Result<(f64, Option<f64>), String> {
+    let (v, t) = match text.split_once('/') {
+        // `V/us` is a unit, not a tolerance; locks are resistances and capacitances only.
+        Some((v, t)) => (v, Some(t)),
+        None => (text, None),
+    };
+    let value = value::parse(v, unit).map_err(|e| e.to_string())?;
+    if value <= 0.0 {
+        return Err(format!("{} must be greater than zero", unit.quantity()));
+    }
+    let tol = match t {
+        Some(t) => Some(value::parse(t, Unit::Percent).map_err(|e| e.to_string())?),
+        None => None,
+    };
+    Ok((value, tol))
+}
+
+impl Spec {
+    /// Parse and validate a spec. Slot names in `[lock]` are checked against the stage later,
+    /// by the stage registry, since only the stage knows its slots.
+    pub fn from_toml(text: &str) -> Result<Spec, SpecErrors> {
+        let root: toml::Table = match text.parse() {
+            Ok(t) => t,
+            Err(e) => {
+                let e: toml::de::Error = e;
+                let line = e
+                    .span()
+                    .map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1);
+                return Err(SpecErrors(vec![SpecError {
+                    key: "toml".into(),
+                    line,
+                    message: format!("not valid TOML: {}", e.message()),
+                }]));
+            }
+        };
+        let mut r = Reader {
+            text,
+            errors: Vec::new(),
+        };
+        for key in root.keys() {
+            if !SECTIONS.contains(&key.as_str()) {
+                let hint = nearest(key, SECTIONS)
+                    .map(|k| format!("; did you mean `[{k}]`?"))
+                    .unwrap_or_else(|| format!("; sections are {}", SECTIONS.join(", ")));
+                r.error(key, None, format!("unknown section{hint}"));
+            }
+        }
+        let empty = toml::Table::new();
+        let stage_t = match section(&root, "stage", &mut r) {
+            Some(t) => t,
+            None => {
+                if !root.contains_key("stage") {
+                    r.error("stage", None, "missing the `[stage]` section".into());
+                }
+                &empty
+            }
+        };
+        r.check_keys("stage", stage_t, STAGE_KEYS);
+        let amp_t = section(&root, "amplifier", &mut r).unwrap_or(&empty);
+        r.check_keys("amplifier", amp_t, AMPLIFIER_KEYS);
+        let stock_t = section(&root, "stock", &mut r).unwrap_or(&empty);
+        r.check_keys("stock", stock_t, STOCK_KEYS);
+        let goals_t = section(&root, "goals", &mut r).unwrap_or(&empty);
+        r.check_keys("goals", goals_t, GOAL_KEYS);
+        let lock_t = section(&root, "lock", &mut r).unwrap_or(&empty);
+
+        let s = "stage";
+        let kind = match r.text(s, stage_t, "kind") {
+            Some(k) => match StageKind::parse(&k) {
+                Some(kind) => Some(kind),
+                None => {
+                    r.error(
+                        s,
+                        Some("kind"),
+                        format!("unknown stage {k:?}; expected \"inverting\" or \"non-inverting\""),
+                    );
+                    None
+                }
+            },
+            None => {
+                if !stage_t.contains_key("kind") {
+                    r.error(
+                        s,
+                        None,
+                        "missing `kind` (\"inverting\" or \"non-inverting\")".into(),
+                    );
+                }
+                None
+            }
+        };
+        let supply = r.required(s, stage_t, "supply", Unit::Volt);
+        let gain = match stage_t.get("gain") {
+            None => {
+                r.error(
+                    s,
+                    None,
+                    "missing `gain` (a number, negative for inverting)".into(),
+                );
+                None
+            }
+            Some(Value::Integer(i)) => Some(*i as f64),
+            Some(Value::Float(f)) if f.is_finite() => Some(*f),
+            Some(Value::String(t)) => match t.trim().parse::<f64>() {
+                Ok(g) if g.is_finite() => Some(g),
+                _ => {
+                    r.error(
+                        s,
+                        Some("gain"),
+                        format!("found {t:?}, expected a plain number such as -10 or 4.7 (V/V)"),
+                    );
+                    None
+                }
+            },
+            Some(_) => {
+                r.error(
+                    s,
+                    Some("gain"),
+                    "expected a plain number such as -10 or 4.7 (V/V)".into(),
+                );
+                None
+            }
+        };
+        let gain_tolerance = r.positive(s, stage_t, "gain_tolerance", Unit::Percent);
+        let input_resistance_min = r.positive(s, stage_t, "input_resistance_min", Unit::Ohm);
+        let load = r.required(s, stage_t, "load", Unit::Ohm);
+        let band = r.pair(s, stage_t, "band", Unit::Hertz, false);
+        if !stage_t.contains_key("band") {
+            r.error(
+                s,
+                None,
+                "missing `band` ([low, high] in hertz, e.g. [\"20 Hz\", \"20 kHz\"])".into(),
+            );
+        }
+        let band_loss_max = r.positive(s, stage_t, "band_loss_max", Unit::Decibel);
+        let corner_low_max = r.positive(s, stage_t, "corner_low_max", Unit::Hertz);
+        let headroom = r
+            .pair(s, stage_t, "headroom", Unit::Volt, true)
+            .unwrap_or((0.0, 0.0));
+        let source_dc = r
+            .quantity(s, stage_t, "source_dc", Unit::Volt)
+            .unwrap_or(0.0);
+        let source_resistance = r
+            .quantity(s, stage_t, "source_resistance", Unit::Ohm)
+            .unwrap_or(0.0);
+        let input_peak = r.positive(s, stage_t, "input_peak", Unit::Volt);
+        let output_peak = r.positive(s, stage_t, "output_peak", Unit::Volt);
+        let tolerance_mode = match r.text(s, stage_t, "tolerance_mode").as_deref() {
+            None => ToleranceMode::Worst,
+            Some("worst") | Some("worst-case") | Some("worst_case") => ToleranceMode::Worst,
+            Some("nominal") => ToleranceMode::Nominal,
+            Some(other) => {
+                r.error(
+                    s,
+                    Some("tolerance_mode"),
+                    format!("found {other:?}, expected \"worst\" or \"nominal\""),
+                );
+                ToleranceMode::Worst
+            }
+        };
+
+        let a = "amplifier";
+        let amplifier = Amplifier {
+            gbw: r.positive(a, amp_t, "gbw", Unit::Hertz),
+            input_bias_current: r
+                .quantity(a, amp_t, "input_bias_current", Unit::Ampere)
+                .map(f64::abs)
+                .unwrap_or(0.0),
+            input_offset_current: r
+                .quantity(a, amp_t, "input_offset_current", Unit::Ampere)
+                .map(f64::abs)
+                .unwrap_or(0.0),
+            input_offset_voltage: r
+                .quantity(a, amp_t, "input_offset_voltage", Unit::Volt)
+                .map(f64::abs)
+                .unwrap_or(0.0),
+            slew_rate: r.positive(a, amp_t, "slew_rate", Unit::VoltPerSecond),
+        };
+
+        let st = "stock";
+        let resistors = r
+            .text(st, stock_t, "resistors")
+            .map(|t| SourceSpec::parse(&t))
+            .unwrap_or(SourceSpec::Series(Series::E24));
+        let capacitors = r
+            .text(st, stock_t, "capacitors")
+            .map(|t| SourceSpec::parse(&t))
+            .unwrap_or(SourceSpec::Series(Series::E6));
+        let resistor_range = r
+            .pair(st, stock_t, "resistor_range", Unit::Ohm, false)
+            .unwrap_or(DEFAULT_RESISTOR_RANGE);
+        let capacitor_range = r
+            .pair(st, stock_t, "capacitor_range", Unit::Farad, false)
+            .unwrap_or(DEFAULT_CAPACITOR_RANGE);
+        for (key, (lo, hi)) in [
+            ("resistor_range", resistor_range),
+            ("capacitor_range", capacitor_range),
+        ] {
+            if !(lo > 0.0 && hi >= lo) {
+                r.error(st, Some(key), "expected 0 < low ≤ high".into());
+            }
+        }
+        let resistor_tolerance = r
+            .quantity(st, stock_t, "resistor_tolerance", Unit::Percent)
+            .unwrap_or(DEFAULT_RESISTOR_TOLERANCE);
+        let capacitor_tolerance = r
+            .quantity(st, stock_t, "capacitor_tolerance", Unit::Percent)
+            .unwrap_or_else(|| match &capacitors {
+                SourceSpec::Series(series) => series.tolerance().max(0.05),
+                SourceSpec::File(_) => 0.2,
+            });
+        for (key, t) in [
+            ("resistor_tolerance", resistor_tolerance),
+            ("capacitor_tolerance", capacitor_tolerance),
+        ] {
+            if !(0.0..1.0).contains(&t) {
+                r.error(
+                    st,
+                    Some(key),
+                    "expected a tolerance from 0 % to below 100 %".into(),
+                );
+            }
+        }
+        let combine = match r.text(st, stock_t, "combine") {
+            None => Combine::Single,
+            Some(c) => Combine::parse(&c).unwrap_or_else(|| {
+                r.error(
+                    st,
+                    Some("combine"),
+                    format!(
+                        "found {c:?}, expected \"single\", \"series\", \"parallel\" or \"both\""
+                    ),
+                );
+                Combine::Single
+            }),
+        };
+
+        let g = "goals";
+        let d = Goals::default();
+        let goals = Goals {
+            gain_error: r.number(g, goals_t, "gain_error").unwrap_or(d.gain_error),
+            offset: r.number(g, goals_t, "offset").unwrap_or(d.offset),
+            part_count: r.number(g, goals_t, "part_count").unwrap_or(d.part_count),
+            bom_lines: r.number(g, goals_t, "bom_lines").unwrap_or(d.bom_lines),
+            capacitance: r.number(g, goals_t, "capacitance").unwrap_or(d.capacitance),
+            cost: r.number(g, goals_t, "cost").unwrap_or(d.cost),
+        };
+
+        let mut locks = Vec::new();
+        for (slot, v) in lock_t {
+            let unit = if slot.starts_with("c_") {
+                Unit::Farad
+            } else {
+                Unit::Ohm
+            };
+            let parsed = match v {
+                Value::String(t) => parse_lock_value(t, unit),
+                Value::Integer(i) => Ok((*i as f64, None)),
+                Value::Float(f) => Ok((*f, None)),
+                _ => Err("expected a value such as \"47k\" or \"47k/5%\"".into()),
+            };
+            match parsed {
+                Ok((value, tolerance)) if value > 0.0 && value.is_finite() => locks.push(Lock {
+                    slot: slot.clone(),
+                    value,
+                    tolerance,
+                }),
+                Ok(_) => r.error("lock", Some(slot), "must be greater than zero".into()),
+                Err(m) => r.error("lock", Some(slot), m),
+            }
+        }
+
+        // Cross-field rules, once every field is read.
+        if let (Some(kind), Some(g)) = (kind, gain) {
+            match kind {
+                StageKind::Inverting if g >= 0.0 => r.error(
+                    s,
+                    Some("gain"),
+                    format!(
+                        "an inverting stage has a negative gain; found {g} (did you mean {}?)",
+                        -g
+                    ),
+                ),
+                StageKind::NonInverting if g < 1.0 => r.error(
+                    s,
+                    Some("gain"),
+                    format!("a non-inverting stage has a gain of at least 1; found {g}"),
+                ),
+                _ => {}
+            }
+        }
+        if let Some(v) = supply {
+            if v <= 0.0 {
+                r.error(
+                    s,
+                    Some("supply"),
+                    format!("a single supply must be positive, found {v} V"),
+                );
+            } else if headroom.0 < 0.0 || headroom.1 < 0.0 {
+                r.error(s, Some("headroom"), "headroom cannot be negative".into());
+            } else if headroom.0 + headroom.1 >= v {
+                r.error(
+                    s,
+                    Some("headroom"),
+                    format!(
+                        "headroom {} + {} leaves no output swing on a {} supply",
+                        value::format(headroom.0, Unit::Volt),
+                        value::format(headroom.1, Unit::Volt),
+                        value::format(v, Unit::Volt)
+                    ),
+                );
+            }
+        }
+        if let Some(l) = load {
+            if l <= 0.0 {
+                r.error(s, Some("load"), "must be greater than zero".into());
+            }
+        }
+        if let Some((lo, hi)) = band {
+            if !(lo > 0.0 && hi > lo) {
+                r.error(
+                    s,
+                    Some("band"),
+                    "expected [low, high] with 0 < low < high".into(),
+                );
+            }
+            if let Some(c) = corner_low_max {
+                if c > lo * 1000.0 {
+                    r.error(
+                        s,
+                        Some("corner_low_max"),
+                        "is far above the band's low edge; did you mean a lower corner?".into(),
+                    );
+                }
+            }
+        }
+        if source_resistance < 0.0 {
+            r.error(s, Some("source_resistance"), "cannot be negative".into());
+        }
+        if input_peak.is_some() && output_peak.is_some() {
+            r.error(
+                s,
+                Some("output_peak"),
+                "give `input_peak` or `output_peak`, not both".into(),
+            );
+        }
+
+        if !r.errors.is_empty() {
+            return Err(SpecErrors(r.errors));
+        }
+        // Every field read above is Some when no error was recorded.
+        let (Some(stage), Some(supply), Some(gain), Some(load), Some(band)) =
+            (kind, supply, gain, load, band)
+        else {
+            return Err(SpecErrors(vec![SpecError {
+                key: "stage".into(),
+                line: None,
+                message: "incomplete stage section".into(),
+            }]));
+        };
+        Ok(Spec {
+            stage,
+            supply,
+            gain,
+            gain_tolerance,
+            input_resistance_min,
+            load,
+            band,
+            band_loss_max,
+            corner_low_max,
+            headroom,
+            source_dc,
+            source_resistance,
+            input_peak,
+            output_peak,
+            tolerance_mode,
+            amplifier,
+            stock: StockSpec {
+                resistors,
+                capacitors,
+                resistor_range,
+                capacitor_range,
+                resistor_tolerance,
+                capacitor_tolerance,
+                combine,
+            },
+            goals,
+            locks,
+        })
+    }
+}
+
+/// Default resistor range: below ~100 Ω the feedback network loads the op-amp output, above
+/// 10 MΩ leakage and bias currents dominate (common practice).
+pub const DEFAULT_RESISTOR_RANGE: (f64, f64) = (100.0, 10e6);
+/// Default capacitor range: 1 nF to 1 mF.
+pub const DEFAULT_CAPACITOR_RANGE: (f64, f64) = (1e-9, 1e-3);
+/// Default tolerance of series resistors: 1 % metal film is the everyday part today (common
+/// practice), tighter than the 5 % IEC 60063 associates with E24.
+pub const DEFAULT_RESISTOR_TOLERANCE: f64 = 0.01;
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const MINIMAL: &str = r#"
+[stage]
+kind = "inverting"
+supply = "9 V"
+gain = -10
+load = "10k"
+band = ["20 Hz", "20 kHz"]
+"#;
+
+    #[test]
+    fn minimal_spec_gets_defaults() {
+        let spec = Spec::from_toml(MINIMAL).unwrap();
+        assert_eq!(spec.stage, StageKind::Inverting);
+        assert_eq!(spec.supply, 9.0);
+        assert_eq!(spec.load, 10e3);
+        assert_eq!(spec.band, (20.0, 20e3));
+        assert_eq!(spec.stock.resistors, SourceSpec::Series(Series::E24));
+        assert_eq!(spec.headroom, (0.0, 0.0));
+        assert_eq!(spec.tolerance_mode, ToleranceMode::Worst);
+        // Equal headroom: the best bias point is mid-supply.
+        assert_eq!(spec.bias_target(), 4.5);
+    }
+
+    #[test]
+    fn asymmetric_headroom_moves_the_bias_target() {
+        let text = MINIMAL.replace("band =", "headroom = [\"0.2 V\", \"1.4 V\"]\nband =");
+        let spec = Spec::from_toml(&text).unwrap();
+        // Output may span 0.2 V … 7.6 V; centre 3.9 V (common practice).
+        assert!((spec.bias_target() - 3.9).abs() < 1e-12);
+    }
+
+    #[test]
+    fn wrong_sign_gain_is_explained() {
+        let text = MINIMAL.replace("gain = -10", "gain = 10");
+        let err = Spec::from_toml(&text).unwrap_err();
+        assert_eq!(err.0.len(), 1);
+        assert_eq!(err.0[0].key, "stage.gain");
+        assert_eq!(err.0[0].line, Some(5));
+        assert!(err.0[0].message.contains("negative"), "{}", err);
+    }
+
+    #[test]
+    fn non_inverting_gain_below_one_is_an_error() {
+        let text = MINIMAL
+            .replace("\"inverting\"", "\"non-inverting\"")
+            .replace("gain = -10", "gain = 0.5");
+        let err = Spec::from_toml(&text).unwrap_err();
+        assert!(err.to_string().contains("at least 1"), "{err}");
+    }
+
+    #[test]
+    fn headroom_that_leaves_no_swing() {
+        let text = MINIMAL.replace("band =", "headroom = \"5 V\"\nband =");
+        let err = Spec::from_toml(&text).unwrap_err();
+        assert!(err.to_string().contains("no output swing"), "{err}");
+    }
+
+    #[test]
+    fn unknown_keys_suggest_the_nearest() {
+        let text = MINIMAL.replace("load =", "laod =");
+        let err = Spec::from_toml(&text).unwrap_err();
+        let msg = err.to_string();
+        assert!(msg.contains("did you mean `load`"), "{msg}");
+        assert!(msg.contains("missing `load`"), "{msg}");
+    }
+
+    #[test]
+    fn errors_are_collected() {
+        let text = MINIMAL
+            .replace("\"9 V\"", "\"9 Hz\"")
+            .replace("\"10k\"", "\"10 uF\"");
+        let err = Spec::from_toml(&text).unwrap_err();
+        assert_eq!(err.0.len(), 2, "{err}");
+        assert_eq!(err.0[0].line, Some(4));
+        assert_eq!(err.0[1].line, Some(6));
+    }
+
+    #[test]
+    fn locks_parse_value_and_tolerance() {
+        let text = format!("{MINIMAL}\n[lock]\nr_in = \"4k7/5%\"\nc_out = \"10u\"\n");
+        let spec = Spec::from_toml(&text).unwrap();
+        assert_eq!(spec.locks.len(), 2);
+        let r_in = spec.locks.iter().find(|l| l.slot == "r_in").unwrap();
+        assert_eq!(r_in.value, 4700.0);
+        assert_eq!(r_in.tolerance, Some(0.05));
+    }
+
+    #[test]
+    fn syntax_errors_have_a_line() {
+        let err = Spec::from_toml("[stage]\nkind = \n").unwrap_err();
+        assert_eq!(err.0[0].line, Some(2));
+    }
+
+    #[test]
+    fn nearest_key() {
+        assert_eq!(
+            nearest("gain_tolerence", STAGE_KEYS),
+            Some("gain_tolerance")
+        );
+        assert_eq!(nearest("suply", STAGE_KEYS), Some("supply"));
+        assert_eq!(nearest("zzzzzzzzzzzz", &["a", "b"]), None);
+    }
+}

@@ -1,0 +1,301 @@
+//! Single-supply inverting stage.
+//!
+//! ```text
+//!            c_in     r_in            r_fb
+//!   in ──┬──||────/\/\/──┬──────/\/\/────┬── amp_out ──||── out ──┐
+//!        │ (source)      └──── (−) U1 ───┘            c_out       R_load
+//!   vcc ─ r_bias_hi ─┬─ (+)                                       │
+//!                    r_bias_lo                                    ⏚
+//!                    ⏚
+//! ```
+//! Mid-band gain −R_fb/(R_s + R_in); the input resistance is R_in (virtual ground). At DC c_in is
+//! open, so the amplifier follows its + input: the output sits on the divider's voltage, and
+//! bias-current compensation asks R_bias_hi ∥ R_bias_lo = R_fb (the DC resistance at −).
+
+use super::common::{self, end, SLACK};
+use super::{CapBias, DcErrors, DcPoint, Group, Network, OpAmp, SlotDef, Stage};
+use crate::build::Part;
+use crate::spec::{Spec, StageKind};
+use crate::stock::inventory::PartKind;
+use num_complex::Complex64;
+
+pub struct Inverting;
+
+pub const R_IN: usize = 0;
+pub const R_FB: usize = 1;
+pub const R_BIAS_HI: usize = 2;
+pub const R_BIAS_LO: usize = 3;
+pub const C_IN: usize = 4;
+pub const C_OUT: usize = 5;
+
+const SLOTS: &[SlotDef] = &[
+    SlotDef {
+        name: "r_in",
+        kind: PartKind::Resistor,
+        role: "input resistor: sets the input resistance and, with r_fb, the gain",
+    },
+    SlotDef {
+        name: "r_fb",
+        kind: PartKind::Resistor,
+        role: "feedback resistor: gain = −r_fb / r_in",
+    },
+    SlotDef {
+        name: "r_bias_hi",
+        kind: PartKind::Resistor,
+        role: "bias divider, supply to + input",
+    },
+    SlotDef {
+        name: "r_bias_lo",
+        kind: PartKind::Resistor,
+        role: "bias divider, + input to ground",
+    },
+    SlotDef {
+        name: "c_in",
+        kind: PartKind::Capacitor,
+        role: "input coupling capacitor (corner with r_in)",
+    },
+    SlotDef {
+        name: "c_out",
+        kind: PartKind::Capacitor,
+        role: "output coupling capacitor (corner with the load)",
+    },
+];
+
+const GROUPS: &[Group] = &[&[R_IN, R_FB], &[R_BIAS_HI, R_BIAS_LO], &[C_IN], &[C_OUT]];
+
+fn get<'a>(parts: &[Option<&'a Part>], i: usize) -> Option<&'a Part> {
+    parts.get(i).copied().flatten()
+}
+
+impl Inverting {
+    /// Worst-case gain magnitude range of the gain pair: |G| = R_fb / (R_s + R_in).
+    fn gain_range(spec: &Spec, r_in: &Part, r_fb: &Part) -> (f64, f64) {
+        let rs = spec.source_resistance;
+        (
+            end(spec, r_fb, false) / (rs + end(spec, r_in, true)),
+            end(spec, r_fb, true) / (rs + end(spec, r_in, false)),
+        )
+    }
+
+    fn input_network_ok(spec: &Spec, r_in: &Part, c_in: &Part) -> Option<f64> {
+        let r = spec.source_resistance + end(spec, r_in, false);
+        let c = end(spec, c_in, false);
+        let corner = 1.0 / (2.0 * std::f64::consts::PI * r * c);
+        let loss = common::high_pass_loss_db(r, c, spec.band.0);
+        common::network_ok(spec, corner, loss).then_some(loss)
+    }
+
+    fn output_network_ok(spec: &Spec, c_out: &Part) -> Option<f64> {
+        let c = end(spec, c_out, false);
+        let corner = 1.0 / (2.0 * std::f64::consts::PI * spec.load * c);
+        let loss = common::high_pass_loss_db(spec.load, c, spec.band.0);
+        common::network_ok(spec, corner, loss).then_some(loss)
+    }
+}
+
+impl Stage for Inverting {
+    fn kind(&self) -> StageKind {
+        StageKind::Inverting
+    }
+
+    fn slots(&self) -> &'static [SlotDef] {
+        SLOTS
+    }
+
+    fn topology(&self) -> &'static str {
+        "single-supply inverting amplifier: AC-coupled input through r_in, feedback r_fb, + input on a bias divider, AC-coupled output"
+    }
+
+    fn mid_gain(&self, spec: &Spec, v: &[f64]) -> f64 {
+        -v[R_FB] / (spec.source_resistance + v[R_IN])
+    }
+
+    fn noise_gain(&self, spec: &Spec, v: &[f64]) -> f64 {
+        1.0 + v[R_FB] / (spec.source_resistance + v[R_IN])
+    }
+
+    fn input_resistance(&self, _spec: &Spec, v: &[f64]) -> f64 {
+        v[R_IN]
+    }
+
+    /// V_out/V_s = −(Z_f/Z_i) · 1/(1 + 1/(aβ)) · H_out with Z_i = R_s + R_in + 1/(jωC_in),
+    /// β = Z_i/(Z_i + Z_f) (inverting amplifier with finite gain, any op-amp text).
+    fn response(&self, spec: &Spec, v: &[f64], opamp: &OpAmp, f: f64) -> Complex64 {
+        let w = 2.0 * std::f64::consts::PI * f;
+        let zi = Complex64::new(spec.source_resistance + v[R_IN], -1.0 / (w * v[C_IN]));
+        let zf = Complex64::new(v[R_FB], 0.0);
+        let beta = zi / (zi + zf);
+        let h_amp = -(zf / zi) * opamp.loop_factor(f, beta);
+        h_amp * common::high_pass(spec.load, v[C_OUT], f)
+    }
+
+    fn networks(&self, spec: &Spec, v: &[f64]) -> Vec<Network> {
+        vec![
+            Network {
+                name: "input",
+                cap_slot: C_IN,
+                resistance: spec.source_resistance + v[R_IN],
+                capacitance: v[C_IN],
+            },
+            Network {
+                name: "output",
+                cap_slot: C_OUT,
+                resistance: spec.load,
+                capacitance: v[C_OUT],
+            },
+        ]
+    }
+
+    fn network_loss_db(&self, spec: &Spec, v: &[f64], network: usize, f: f64) -> f64 {
+        let n = self.networks(spec, v)[network];
+        common::high_pass_loss_db(n.resistance, n.capacitance, f)
+    }
+
+    fn dc(&self, spec: &Spec, v: &[f64], e: &DcErrors) -> DcPoint {
+        common::dc_point(spec, v[R_BIAS_HI], v[R_BIAS_LO], v[R_FB], e)
+    }
+
+    fn divider_voltage(&self, spec: &Spec, v: &[f64]) -> f64 {
+        spec.supply * v[R_BIAS_LO] / (v[R_BIAS_HI] + v[R_BIAS_LO])
+    }
+
+    fn offset_error(&self, spec: &Spec, v: &[f64]) -> f64 {
+        common::offset_error(spec, v[R_BIAS_HI], v[R_BIAS_LO], v[R_FB])
+    }
+
+    fn cap_bias(&self, spec: &Spec, _v: &[f64], dc: &DcPoint) -> Vec<CapBias> {
+        // No DC flows through r_in (c_in blocks it), so the r_in side of c_in sits at V−.
+        vec![
+            CapBias {
+                slot: C_IN,
+                volts: dc.v_minus - spec.source_dc,
+                a_node: "r_in side",
+                b_node: "source side",
+            },
+            CapBias {
+                slot: C_OUT,
+                volts: dc.v_out,
+                a_node: "op-amp side",
+                b_node: "load side",
+            },
+        ]
+    }
+
+    fn resistor_power(
+        &self,
+        spec: &Spec,
+        v: &[f64],
+        dc: &DcPoint,
+        out_peak: f64,
+    ) -> Vec<(usize, f64)> {
+        let i = dc.divider_current;
+        let gain = self.mid_gain(spec, v).abs();
+        // Sine power: V_peak² / (2R); the feedback resistor carries the output swing, the input
+        // resistor the input swing (virtual ground), the divider its DC current.
+        vec![
+            (R_IN, (out_peak / gain).powi(2) / (2.0 * v[R_IN])),
+            (R_FB, out_peak.powi(2) / (2.0 * v[R_FB])),
+            (R_BIAS_HI, i * i * v[R_BIAS_HI]),
+            (R_BIAS_LO, i * i * v[R_BIAS_LO]),
+        ]
+    }
+
+    fn ideal(&self, spec: &Spec) -> Vec<Option<f64>> {
+        let r_in = spec.input_resistance_min.unwrap_or(10e3);
+        let r_fb = spec.gain.abs() * (r_in + spec.source_resistance);
+        let k = spec.bias_target() / spec.supply;
+        // Compensation: R_hi ∥ R_lo = R_fb with R_lo/(R_hi + R_lo) = k.
+        let (hi, lo) = (r_fb / k, r_fb / (1.0 - k));
+        let fc = super::common_corner_target(spec, 2);
+        let c = |r: f64| fc.map(|fc| 1.0 / (2.0 * std::f64::consts::PI * r * fc));
+        vec![
+            Some(r_in),
+            Some(r_fb),
+            Some(hi),
+            Some(lo),
+            c(r_in + spec.source_resistance),
+            c(spec.load),
+        ]
+    }
+
+    fn groups(&self) -> &'static [Group] {
+        GROUPS
+    }
+
+    fn group_base(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
+        match g {
+            0 => {
+                let (r_in, r_fb) = (get(parts, R_IN)?, get(parts, R_FB)?);
+                if let Some(min) = spec.input_resistance_min {
+                    if end(spec, r_in, false) < min * (1.0 - SLACK) {
+                        return None;
+                    }
+                }
+                let (lo, hi) = Self::gain_range(spec, r_in, r_fb);
+                if !common::gain_window_ok(spec, lo, hi) {
+                    return None;
+                }
+                let v = [r_in.value, r_fb.value];
+                Some(common::gain_points(
+                    spec,
+                    -v[1] / (spec.source_resistance + v[0]),
+                ))
+            }
+            1 => {
+                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+                let (vmin, vmax) = common::divider_range(spec, hi, lo);
+                if spec.output_peak.is_some()
+                    && !common::swing_ok(spec, common::swing(spec, vmin, vmax), 1.0)
+                {
+                    return None;
+                }
+                let v_div = spec.supply * lo.value / (hi.value + lo.value);
+                Some(common::offset_points(
+                    spec,
+                    (v_div - spec.bias_target()).abs(),
+                ))
+            }
+            _ => Some(0.0),
+        }
+    }
+
+    fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
+        match g {
+            0 => self.group_base(spec, 0, parts),
+            1 => {
+                let (r_in, r_fb) = (get(parts, R_IN)?, get(parts, R_FB)?);
+                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+                let (vmin, vmax) = common::divider_range(spec, hi, lo);
+                let (_, g_max) = Self::gain_range(spec, r_in, r_fb);
+                if !common::swing_ok(spec, common::swing(spec, vmin, vmax), g_max) {
+                    return None;
+                }
+                let err = common::offset_error(spec, hi.value, lo.value, r_fb.value);
+                Some(common::offset_points(spec, err))
+            }
+            2 => {
+                let (r_in, c_in) = (get(parts, R_IN)?, get(parts, C_IN)?);
+                Self::input_network_ok(spec, r_in, c_in)?;
+                let v_div = spec.supply * get(parts, R_BIAS_LO)?.value
+                    / (get(parts, R_BIAS_HI)?.value + get(parts, R_BIAS_LO)?.value);
+                common::cap_ok(c_in, v_div - spec.source_dc).then_some(0.0)
+            }
+            3 => {
+                let (r_in, c_in, c_out) =
+                    (get(parts, R_IN)?, get(parts, C_IN)?, get(parts, C_OUT)?);
+                let out_loss = Self::output_network_ok(spec, c_out)?;
+                let in_loss = Self::input_network_ok(spec, r_in, c_in)?;
+                if let Some(max) = spec.band_loss_max {
+                    // The two networks are buffered by the op-amp: their losses add (in dB).
+                    if in_loss + out_loss > max * (1.0 + SLACK) + SLACK {
+                        return None;
+                    }
+                }
+                let v_div = spec.supply * get(parts, R_BIAS_LO)?.value
+                    / (get(parts, R_BIAS_HI)?.value + get(parts, R_BIAS_LO)?.value);
+                common::cap_ok(c_out, v_div).then_some(0.0)
+            }
+            _ => Some(0.0),
+        }
+    }
+}

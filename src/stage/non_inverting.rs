@@ -1,0 +1,391 @@
+//! Single-supply non-inverting stage.
+//!
+//! ```text
+//!          c_in            (+) U1 ── amp_out ──||── out ── R_load ── ⏚
+//!   in ────||────┬──────── (+)   │             c_out
+//!   vcc ─ r_bias_hi ─┤           │
+//!        r_bias_lo ──┘     (−) ──┴── r_fb ── amp_out
+//!                           └── r_g ──||── ⏚
+//!                                    c_g
+//! ```
+//! Mid-band gain (1 + R_fb/R_g)·R_p/(R_s + R_p), R_p = R_bias_hi ∥ R_bias_lo being the input
+//! resistance. c_g makes the DC gain 1, so the output sits on the divider's voltage; the DC
+//! resistance at − is R_fb, so compensation asks R_p = R_fb.
+
+use super::common::{self, end, SLACK};
+use super::{CapBias, DcErrors, DcPoint, Group, Network, OpAmp, SlotDef, Stage};
+use crate::build::Part;
+use crate::spec::{Spec, StageKind};
+use crate::stock::inventory::PartKind;
+use num_complex::Complex64;
+use std::f64::consts::PI;
+
+pub struct NonInverting;
+
+pub const C_IN: usize = 0;
+pub const R_BIAS_HI: usize = 1;
+pub const R_BIAS_LO: usize = 2;
+pub const R_FB: usize = 3;
+pub const R_G: usize = 4;
+pub const C_G: usize = 5;
+pub const C_OUT: usize = 6;
+
+const SLOTS: &[SlotDef] = &[
+    SlotDef {
+        name: "c_in",
+        kind: PartKind::Capacitor,
+        role: "input coupling capacitor (corner with the bias divider)",
+    },
+    SlotDef {
+        name: "r_bias_hi",
+        kind: PartKind::Resistor,
+        role: "bias divider, supply to + input (with r_bias_lo: the input resistance)",
+    },
+    SlotDef {
+        name: "r_bias_lo",
+        kind: PartKind::Resistor,
+        role: "bias divider, + input to ground",
+    },
+    SlotDef {
+        name: "r_fb",
+        kind: PartKind::Resistor,
+        role: "feedback resistor: gain = 1 + r_fb / r_g",
+    },
+    SlotDef {
+        name: "r_g",
+        kind: PartKind::Resistor,
+        role: "gain resistor, − input to ground through c_g",
+    },
+    SlotDef {
+        name: "c_g",
+        kind: PartKind::Capacitor,
+        role: "gain-leg capacitor: DC gain of 1 (corner with r_g)",
+    },
+    SlotDef {
+        name: "c_out",
+        kind: PartKind::Capacitor,
+        role: "output coupling capacitor (corner with the load)",
+    },
+];
+
+const GROUPS: &[Group] = &[
+    &[R_FB, R_G],
+    &[R_BIAS_HI, R_BIAS_LO],
+    &[C_IN],
+    &[C_G],
+    &[C_OUT],
+];
+
+fn get<'a>(parts: &[Option<&'a Part>], i: usize) -> Option<&'a Part> {
+    parts.get(i).copied().flatten()
+}
+
+/// Loss of the gain leg: G(f) = 1 + R_fb/(R_g + 1/(jωC_g)) against G_mid = 1 + R_fb/R_g.
+fn gain_leg_loss_db(r_fb: f64, r_g: f64, c_g: f64, f: f64) -> f64 {
+    let zg = Complex64::new(r_g, -1.0 / (2.0 * PI * f * c_g));
+    let g = Complex64::new(1.0, 0.0) + Complex64::new(r_fb, 0.0) / zg;
+    20.0 * ((1.0 + r_fb / r_g) / g.norm()).log10()
+}
+
+impl NonInverting {
+    fn rp(hi: f64, lo: f64) -> f64 {
+        common::parallel(hi, lo)
+    }
+
+    /// Worst-case gain range; with a source resistance the divider attenuates too.
+    fn gain_range(spec: &Spec, r_fb: &Part, r_g: &Part, div: Option<(&Part, &Part)>) -> (f64, f64) {
+        let amp_lo = 1.0 + end(spec, r_fb, false) / end(spec, r_g, true);
+        let amp_hi = 1.0 + end(spec, r_fb, true) / end(spec, r_g, false);
+        let rs = spec.source_resistance;
+        match div {
+            Some((hi, lo)) if rs > 0.0 => {
+                let rp_lo = Self::rp(end(spec, hi, false), end(spec, lo, false));
+                let rp_hi = Self::rp(end(spec, hi, true), end(spec, lo, true));
+                (amp_lo * rp_lo / (rs + rp_lo), amp_hi * rp_hi / (rs + rp_hi))
+            }
+            _ => (amp_lo, amp_hi),
+        }
+    }
+
+    fn input_network_loss(spec: &Spec, hi: &Part, lo: &Part, c_in: &Part) -> Option<f64> {
+        let r = spec.source_resistance + Self::rp(end(spec, hi, false), end(spec, lo, false));
+        let c = end(spec, c_in, false);
+        let corner = 1.0 / (2.0 * PI * r * c);
+        let loss = common::high_pass_loss_db(r, c, spec.band.0);
+        common::network_ok(spec, corner, loss).then_some(loss)
+    }
+
+    /// The gain leg's worst loss over its three parts' tolerance corners.
+    fn gain_network_loss(spec: &Spec, r_fb: &Part, r_g: &Part, c_g: &Part) -> Option<f64> {
+        let corner = 1.0 / (2.0 * PI * end(spec, r_g, false) * end(spec, c_g, false));
+        let loss = common::vertices(spec, &[r_fb, r_g, c_g])
+            .iter()
+            .map(|v| gain_leg_loss_db(v[0], v[1], v[2], spec.band.0))
+            .fold(f64::NEG_INFINITY, f64::max);
+        common::network_ok(spec, corner, loss).then_some(loss)
+    }
+
+    fn output_network_loss(spec: &Spec, c_out: &Part) -> Option<f64> {
+        let c = end(spec, c_out, false);
+        let corner = 1.0 / (2.0 * PI * spec.load * c);
+        let loss = common::high_pass_loss_db(spec.load, c, spec.band.0);
+        common::network_ok(spec, corner, loss).then_some(loss)
+    }
+
+    fn nominal_divider(spec: &Spec, parts: &[Option<&Part>]) -> Option<f64> {
+        let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+        Some(spec.supply * lo.value / (hi.value + lo.value))
+    }
+}
+
+impl Stage for NonInverting {
+    fn kind(&self) -> StageKind {
+        StageKind::NonInverting
+    }
+
+    fn slots(&self) -> &'static [SlotDef] {
+        SLOTS
+    }
+
+    fn topology(&self) -> &'static str {
+        "single-supply non-inverting amplifier: AC-coupled input onto the bias divider, feedback r_fb, gain leg r_g + c_g to ground, AC-coupled output"
+    }
+
+    fn mid_gain(&self, spec: &Spec, v: &[f64]) -> f64 {
+        let rp = Self::rp(v[R_BIAS_HI], v[R_BIAS_LO]);
+        (1.0 + v[R_FB] / v[R_G]) * rp / (spec.source_resistance + rp)
+    }
+
+    fn noise_gain(&self, _spec: &Spec, v: &[f64]) -> f64 {
+        1.0 + v[R_FB] / v[R_G]
+    }
+
+    fn input_resistance(&self, _spec: &Spec, v: &[f64]) -> f64 {
+        Self::rp(v[R_BIAS_HI], v[R_BIAS_LO])
+    }
+
+    /// V_out/V_s = H_in · (1/β) · 1/(1 + 1/(aβ)) · H_out, with H_in = R_p/(R_p + R_s + 1/(jωC_in))
+    /// and β = Z_g/(Z_g + R_fb), Z_g = R_g + 1/(jωC_g) (feedback theory).
+    fn response(&self, spec: &Spec, v: &[f64], opamp: &OpAmp, f: f64) -> Complex64 {
+        let w = 2.0 * PI * f;
+        let rp = Self::rp(v[R_BIAS_HI], v[R_BIAS_LO]);
+        let h_in = Complex64::new(rp, 0.0)
+            / Complex64::new(rp + spec.source_resistance, -1.0 / (w * v[C_IN]));
+        let zg = Complex64::new(v[R_G], -1.0 / (w * v[C_G]));
+        let beta = zg / (zg + v[R_FB]);
+        let h_amp = opamp.loop_factor(f, beta) / beta;
+        h_in * h_amp * common::high_pass(spec.load, v[C_OUT], f)
+    }
+
+    fn networks(&self, spec: &Spec, v: &[f64]) -> Vec<Network> {
+        vec![
+            Network {
+                name: "input",
+                cap_slot: C_IN,
+                resistance: spec.source_resistance + Self::rp(v[R_BIAS_HI], v[R_BIAS_LO]),
+                capacitance: v[C_IN],
+            },
+            Network {
+                name: "gain leg",
+                cap_slot: C_G,
+                resistance: v[R_G],
+                capacitance: v[C_G],
+            },
+            Network {
+                name: "output",
+                cap_slot: C_OUT,
+                resistance: spec.load,
+                capacitance: v[C_OUT],
+            },
+        ]
+    }
+
+    fn network_loss_db(&self, spec: &Spec, v: &[f64], network: usize, f: f64) -> f64 {
+        if network == 1 {
+            return gain_leg_loss_db(v[R_FB], v[R_G], v[C_G], f);
+        }
+        let n = self.networks(spec, v)[network];
+        common::high_pass_loss_db(n.resistance, n.capacitance, f)
+    }
+
+    fn dc(&self, spec: &Spec, v: &[f64], e: &DcErrors) -> DcPoint {
+        common::dc_point(spec, v[R_BIAS_HI], v[R_BIAS_LO], v[R_FB], e)
+    }
+
+    fn divider_voltage(&self, spec: &Spec, v: &[f64]) -> f64 {
+        spec.supply * v[R_BIAS_LO] / (v[R_BIAS_HI] + v[R_BIAS_LO])
+    }
+
+    fn offset_error(&self, spec: &Spec, v: &[f64]) -> f64 {
+        common::offset_error(spec, v[R_BIAS_HI], v[R_BIAS_LO], v[R_FB])
+    }
+
+    fn cap_bias(&self, spec: &Spec, _v: &[f64], dc: &DcPoint) -> Vec<CapBias> {
+        // No DC flows through r_g (c_g blocks it), so c_g sits between V− and ground.
+        vec![
+            CapBias {
+                slot: C_IN,
+                volts: dc.v_plus - spec.source_dc,
+                a_node: "+ input side",
+                b_node: "source side",
+            },
+            CapBias {
+                slot: C_G,
+                volts: dc.v_minus,
+                a_node: "r_g side",
+                b_node: "ground",
+            },
+            CapBias {
+                slot: C_OUT,
+                volts: dc.v_out,
+                a_node: "op-amp side",
+                b_node: "load side",
+            },
+        ]
+    }
+
+    fn resistor_power(
+        &self,
+        _spec: &Spec,
+        v: &[f64],
+        dc: &DcPoint,
+        out_peak: f64,
+    ) -> Vec<(usize, f64)> {
+        let i = dc.divider_current;
+        let (rf, rg) = (v[R_FB], v[R_G]);
+        // Mid-band the output sine divides across r_fb and r_g (c_g shorted): P = V_peak²/(2R).
+        let v_fb = out_peak * rf / (rf + rg);
+        let v_g = out_peak * rg / (rf + rg);
+        vec![
+            (R_BIAS_HI, i * i * v[R_BIAS_HI]),
+            (R_BIAS_LO, i * i * v[R_BIAS_LO]),
+            (R_FB, v_fb * v_fb / (2.0 * rf)),
+            (R_G, v_g * v_g / (2.0 * rg)),
+        ]
+    }
+
+    fn ideal(&self, spec: &Spec) -> Vec<Option<f64>> {
+        let rp = spec.input_resistance_min.unwrap_or(100e3);
+        let k = spec.bias_target() / spec.supply;
+        let (hi, lo) = (rp / k, rp / (1.0 - k));
+        // Compensation: R_fb = R_p; then R_g from the gain (infinite for a follower).
+        let r_fb = rp;
+        let r_g = (spec.gain > 1.0).then(|| r_fb / (spec.gain - 1.0));
+        let fc = super::common_corner_target(spec, 3);
+        let c = |r: Option<f64>| match (fc, r) {
+            (Some(fc), Some(r)) => Some(1.0 / (2.0 * PI * r * fc)),
+            _ => None,
+        };
+        vec![
+            c(Some(rp + spec.source_resistance)),
+            Some(hi),
+            Some(lo),
+            Some(r_fb),
+            r_g,
+            c(r_g),
+            c(Some(spec.load)),
+        ]
+    }
+
+    fn groups(&self) -> &'static [Group] {
+        GROUPS
+    }
+
+    fn group_base(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
+        match g {
+            0 => {
+                let (r_fb, r_g) = (get(parts, R_FB)?, get(parts, R_G)?);
+                if spec.source_resistance > 0.0 {
+                    // The divider attenuates the gain: judged once it is chosen (group 1).
+                    return Some(0.0);
+                }
+                let (lo, hi) = Self::gain_range(spec, r_fb, r_g, None);
+                if !common::gain_window_ok(spec, lo, hi) {
+                    return None;
+                }
+                Some(common::gain_points(spec, 1.0 + r_fb.value / r_g.value))
+            }
+            1 => {
+                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+                if let Some(min) = spec.input_resistance_min {
+                    let rp = Self::rp(end(spec, hi, false), end(spec, lo, false));
+                    if rp < min * (1.0 - SLACK) {
+                        return None;
+                    }
+                }
+                let (vmin, vmax) = common::divider_range(spec, hi, lo);
+                if spec.output_peak.is_some()
+                    && !common::swing_ok(spec, common::swing(spec, vmin, vmax), 1.0)
+                {
+                    return None;
+                }
+                let v_div = spec.supply * lo.value / (hi.value + lo.value);
+                Some(common::offset_points(
+                    spec,
+                    (v_div - spec.bias_target()).abs(),
+                ))
+            }
+            _ => Some(0.0),
+        }
+    }
+
+    fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
+        match g {
+            0 => self.group_base(spec, 0, parts),
+            1 => {
+                let base = self.group_base(spec, 1, parts)?;
+                let (r_fb, r_g) = (get(parts, R_FB)?, get(parts, R_G)?);
+                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+                let (g_lo, g_hi) = Self::gain_range(spec, r_fb, r_g, Some((hi, lo)));
+                let (vmin, vmax) = common::divider_range(spec, hi, lo);
+                if !common::swing_ok(spec, common::swing(spec, vmin, vmax), g_hi) {
+                    return None;
+                }
+                let err = common::offset_error(spec, hi.value, lo.value, r_fb.value);
+                let mut points = common::offset_points(spec, err);
+                if spec.source_resistance > 0.0 {
+                    if !common::gain_window_ok(spec, g_lo, g_hi) {
+                        return None;
+                    }
+                    let v: Vec<f64> = parts.iter().map(|p| p.map_or(1.0, |p| p.value)).collect();
+                    points += common::gain_points(spec, self.mid_gain(spec, &v));
+                }
+                debug_assert!(points + 1e-12 >= base);
+                Some(points)
+            }
+            2 => {
+                let (hi, lo, c_in) = (
+                    get(parts, R_BIAS_HI)?,
+                    get(parts, R_BIAS_LO)?,
+                    get(parts, C_IN)?,
+                );
+                Self::input_network_loss(spec, hi, lo, c_in)?;
+                let v_div = Self::nominal_divider(spec, parts)?;
+                common::cap_ok(c_in, v_div - spec.source_dc).then_some(0.0)
+            }
+            3 => {
+                let (r_fb, r_g, c_g) = (get(parts, R_FB)?, get(parts, R_G)?, get(parts, C_G)?);
+                Self::gain_network_loss(spec, r_fb, r_g, c_g)?;
+                let v_div = Self::nominal_divider(spec, parts)?;
+                common::cap_ok(c_g, v_div).then_some(0.0)
+            }
+            4 => {
+                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+                let (r_fb, r_g) = (get(parts, R_FB)?, get(parts, R_G)?);
+                let (c_in, c_g, c_out) = (get(parts, C_IN)?, get(parts, C_G)?, get(parts, C_OUT)?);
+                let total = Self::input_network_loss(spec, hi, lo, c_in)?
+                    + Self::gain_network_loss(spec, r_fb, r_g, c_g)?
+                    + Self::output_network_loss(spec, c_out)?;
+                if let Some(max) = spec.band_loss_max {
+                    // Buffered networks: losses in dB add.
+                    if total > max * (1.0 + SLACK) + SLACK {
+                        return None;
+                    }
+                }
+                let v_div = Self::nominal_divider(spec, parts)?;
+                common::cap_ok(c_out, v_div).then_some(0.0)
+            }
+            _ => Some(0.0),
+        }
+    }
+}

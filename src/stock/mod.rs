@@ -1,0 +1,262 @@
+//! The parts source: a standard series or an inventory, and the realisations of a slot.
+//!
+//! A series offers every value in a range, in unlimited pieces at one tolerance; an inventory
+//! offers its lines with their quantities. Either way a slot's candidates are realisations: one
+//! piece, or (with `combine`) two pieces in series or in parallel.
+
+pub mod inventory;
+
+use crate::build::{Arrangement, LineKey, Part, Piece};
+use crate::series::Series;
+use crate::spec::{Combine, StockSpec};
+use inventory::{Inventory, Line, PartKind};
+use std::collections::HashMap;
+use std::sync::Arc;
+
+/// Where the parts of one kind come from.
+#[derive(Debug, Clone)]
+pub enum Source {
+    Series { series: Series, tolerance: f64 },
+    Inventory(Arc<Inventory>),
+}
+
+impl Source {
+    pub fn describe(&self) -> String {
+        match self {
+            Source::Series { series, tolerance } => format!(
+                "{} at {}",
+                series.name(),
+                crate::value::format(*tolerance, crate::value::Unit::Percent)
+            ),
+            Source::Inventory(inv) => format!("inventory ({} lines)", inv.lines.len()),
+        }
+    }
+}
+
+/// The stock a search draws from.
+#[derive(Debug, Clone)]
+pub struct Stock {
+    pub resistors: Source,
+    pub capacitors: Source,
+    pub resistor_range: (f64, f64),
+    pub capacitor_range: (f64, f64),
+    pub combine: Combine,
+    qty: HashMap<LineKey, u32>,
+}
+
+fn piece_of(line: &Line) -> Piece {
+    Piece {
+        value: line.value,
+        tolerance: line.tolerance,
+        line: Some(line.row),
+        voltage: line.voltage,
+        power: line.power,
+        polarized: line.polarized,
+        dielectric: line.dielectric.clone(),
+        unit_cost: line.unit_cost,
+    }
+}
+
+impl Stock {
+    pub fn new(resistors: Source, capacitors: Source, spec: &StockSpec) -> Stock {
+        let mut qty = HashMap::new();
+        for (kind, source) in [
+            (PartKind::Resistor, &resistors),
+            (PartKind::Capacitor, &capacitors),
+        ] {
+            if let Source::Inventory(inv) = source {
+                for line in inv.lines.iter().filter(|l| l.kind == kind) {
+                    qty.insert(LineKey::Row(kind, line.row), line.qty);
+                }
+            }
+        }
+        Stock {
+            resistors,
+            capacitors,
+            resistor_range: spec.resistor_range,
+            capacitor_range: spec.capacitor_range,
+            combine: spec.combine,
+            qty,
+        }
+    }
+
+    pub fn source(&self, kind: PartKind) -> &Source {
+        match kind {
+            PartKind::Resistor => &self.resistors,
+            PartKind::Capacitor => &self.capacitors,
+        }
+    }
+
+    pub fn range(&self, kind: PartKind) -> (f64, f64) {
+        match kind {
+            PartKind::Resistor => self.resistor_range,
+            PartKind::Capacitor => self.capacitor_range,
+        }
+    }
+
+    /// Pieces on hand of a line; `None` means unlimited (a series value).
+    pub fn quantity(&self, key: LineKey) -> Option<u32> {
+        match key {
+            LineKey::Row(..) => Some(self.qty.get(&key).copied().unwrap_or(0)),
+            LineKey::Value(..) => None,
+        }
+    }
+
+    /// Single pieces of one kind within the range, ascending by value. Inventory lines with
+    /// nothing on hand are left out.
+    pub fn pieces(&self, kind: PartKind) -> Vec<Piece> {
+        let (lo, hi) = self.range(kind);
+        let eps = 1e-9;
+        let mut pieces: Vec<Piece> = match self.source(kind) {
+            Source::Series { series, tolerance } => series
+                .values_in(lo, hi)
+                .into_iter()
+                .map(|v| Piece::plain(v, *tolerance))
+                .collect(),
+            Source::Inventory(inv) => inv
+                .lines
+                .iter()
+                .filter(|l| l.kind == kind && l.qty > 0)
+                .filter(|l| l.value >= lo * (1.0 - eps) && l.value <= hi * (1.0 + eps))
+                .map(piece_of)
+                .collect(),
+        };
+        pieces.sort_by(|a, b| a.value.total_cmp(&b.value));
+        pieces
+    }
+
+    /// Every realisation of a slot of this kind the `combine` setting allows, ascending by value.
+    /// A pair of pieces from one inventory line needs two on hand.
+    pub fn candidates(&self, kind: PartKind) -> Vec<Part> {
+        let pieces = self.pieces(kind);
+        let mut parts: Vec<Part> = pieces
+            .iter()
+            .map(|p| Part::single(kind, p.clone()))
+            .collect();
+        let arrangements: &[Arrangement] = match self.combine {
+            Combine::Single => &[],
+            Combine::Series => &[Arrangement::Series],
+            Combine::Parallel => &[Arrangement::Parallel],
+            Combine::Both => &[Arrangement::Series, Arrangement::Parallel],
+        };
+        let (lo, hi) = self.range(kind);
+        for &arrangement in arrangements {
+            for (i, a) in pieces.iter().enumerate() {
+                for b in &pieces[i..] {
+                    if a.line.is_some() && a.line == b.line {
+                        let on_hand = self.quantity(LineKey::of(kind, a)).unwrap_or(u32::MAX);
+                        if on_hand < 2 {
+                            continue;
+                        }
+                    }
+                    let part = Part::pair(kind, arrangement, a.clone(), b.clone());
+                    // The combination is a slot value like any other: keep it inside the range.
+                    if part.value >= lo * (1.0 - 1e-9) && part.value <= hi * (1.0 + 1e-9) {
+                        parts.push(part);
+                    }
+                }
+            }
+        }
+        parts.sort_by(|a, b| a.value.total_cmp(&b.value));
+        parts
+    }
+
+    /// The tolerance a lock gets when it gives none: the series tolerance, or for an inventory
+    /// the widest tolerance of that kind in it (the cautious choice).
+    pub fn default_tolerance(&self, kind: PartKind) -> f64 {
+        match self.source(kind) {
+            Source::Series { tolerance, .. } => *tolerance,
+            Source::Inventory(inv) => inv
+                .lines
+                .iter()
+                .filter(|l| l.kind == kind)
+                .map(|l| l.tolerance)
+                .fold(0.0, f64::max),
+        }
+    }
+
+    /// True when the pieces of all parts together fit the quantities on hand.
+    pub fn fits(&self, parts: &[&Part]) -> bool {
+        let mut used: HashMap<LineKey, u32> = HashMap::new();
+        for part in parts.iter().filter(|p| !p.locked) {
+            for piece in &part.pieces {
+                let key = LineKey::of(part.kind, piece);
+                if let Some(limit) = self.quantity(key) {
+                    let n = used.entry(key).or_insert(0);
+                    *n += 1;
+                    if *n > limit {
+                        return false;
+                    }
+                }
+            }
+        }
+        true
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::spec::DEFAULT_CAPACITOR_RANGE;
+
+    fn stock_spec(combine: Combine) -> StockSpec {
+        StockSpec {
+            resistors: crate::spec::SourceSpec::Series(Series::E12),
+            capacitors: crate::spec::SourceSpec::Series(Series::E6),
+            resistor_range: (1e3, 10e3),
+            capacitor_range: DEFAULT_CAPACITOR_RANGE,
+            resistor_tolerance: 0.01,
+            capacitor_tolerance: 0.2,
+            combine,
+        }
+    }
+
+    fn e12() -> Source {
+        Source::Series {
+            series: Series::E12,
+            tolerance: 0.01,
+        }
+    }
+
+    #[test]
+    fn series_candidates_cover_the_range() {
+        let stock = Stock::new(e12(), e12(), &stock_spec(Combine::Single));
+        let c = stock.candidates(PartKind::Resistor);
+        // IEC 60063 E12 over one decade inclusive of both ends: 12 + 1 values.
+        assert_eq!(c.len(), 13);
+        assert_eq!(c[0].value, 1e3);
+        assert_eq!(c[12].value, 10e3);
+    }
+
+    #[test]
+    fn pairs_stay_in_range_and_count() {
+        let stock = Stock::new(e12(), e12(), &stock_spec(Combine::Series));
+        let c = stock.candidates(PartKind::Resistor);
+        // Series pairs of 1k…10k that stay ≤ 10k: checked by brute force here.
+        let vals = Series::E12.values_in(1e3, 10e3);
+        let mut n = vals.len();
+        for i in 0..vals.len() {
+            for j in i..vals.len() {
+                if vals[i] + vals[j] <= 10e3 * (1.0 + 1e-9) {
+                    n += 1;
+                }
+            }
+        }
+        assert_eq!(c.len(), n);
+        assert!(c.windows(2).all(|w| w[0].value <= w[1].value));
+    }
+
+    #[test]
+    fn inventory_quantities_are_enforced() {
+        let csv = "kind,value,tolerance,qty\nresistor,10k,1%,1\nresistor,4k7,1%,0\n";
+        let inv = Arc::new(Inventory::parse_str(csv).unwrap());
+        let spec = stock_spec(Combine::Series);
+        let stock = Stock::new(Source::Inventory(inv.clone()), e12(), &spec);
+        let c = stock.candidates(PartKind::Resistor);
+        // 4k7 has none on hand; 10k + 10k needs two of a one-piece line.
+        assert_eq!(c.len(), 1);
+        let part = &c[0];
+        assert!(stock.fits(&[part]));
+        assert!(!stock.fits(&[part, part]));
+    }
+}
