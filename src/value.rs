@@ -679,7 +679,10 @@ pub fn format_sig(value: f64, unit: Unit, digits: usize) -> String {
         return format!("{sign}inf {symbol}");
     }
     let digits = digits.clamp(1, 17);
-    let value = if value == 0.0 { 0.0 } else { value }; // no "-0"
+    if value == 0.0 {
+        // Zero has no significant digits to place; also avoids "-0".
+        return format!("0 {symbol}");
+    }
     let sign = if value < 0.0 { "-" } else { "" };
 
     // Rust's `{:.*e}` rounds the exact binary value correctly, so the digits are exact and
@@ -777,6 +780,13 @@ mod tests {
 
     fn close(a: f64, b: f64) -> bool {
         (a - b).abs() <= 1e-12 * a.abs().max(b.abs())
+    }
+
+    #[test]
+    fn zero_formats_plainly_in_every_unit() {
+        assert_eq!(format(0.0, Unit::Percent), "0 %");
+        assert_eq!(format_sig(-0.0, Unit::Ohm, 2), "0 Ω");
+        assert_eq!(format(0.0, Unit::Decibel), "0 dB");
     }
 
     #[test]

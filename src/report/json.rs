@@ -1,1 +1,114 @@
+//! JSON output: the ranked builds with parts, metrics and checks, SI base units as plain
+//! numbers. The field names are a public contract (README, "JSON").
 
+use crate::analysis::{CapReport, Check, Metrics, PowerReport};
+use crate::build::{Arrangement, Piece};
+use crate::search::Ranked;
+use crate::spec::Spec;
+use crate::stage::Stage;
+use serde::Serialize;
+use std::collections::BTreeMap;
+
+#[derive(Serialize)]
+struct PartJson<'a> {
+    value: f64,
+    label: String,
+    arrangement: Arrangement,
+    tolerance: f64,
+    locked: bool,
+    pieces: &'a [Piece],
+}
+
+#[derive(Serialize)]
+struct BuildJson<'a> {
+    rank: usize,
+    score: f64,
+    pass: bool,
+    parts: BTreeMap<&'static str, PartJson<'a>>,
+    metrics: &'a Metrics,
+    checks: &'a [Check],
+    capacitors: &'a [CapReport],
+    power: &'a [PowerReport],
+}
+
+#[derive(Serialize)]
+struct Document<'a> {
+    stage: &'static str,
+    target_gain: f64,
+    bias_target_v: f64,
+    builds: Vec<BuildJson<'a>>,
+    cautions: &'static [&'static str],
+}
+
+/// The builds as a pretty-printed JSON document.
+pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked]) -> String {
+    let slots = stage.slots();
+    let builds = ranked
+        .iter()
+        .enumerate()
+        .map(|(i, r)| BuildJson {
+            rank: i + 1,
+            score: r.evaluation.score,
+            pass: r.evaluation.pass,
+            parts: r
+                .build
+                .parts
+                .iter()
+                .enumerate()
+                .map(|(k, p)| {
+                    (
+                        slots[k].name,
+                        PartJson {
+                            value: p.value,
+                            label: p.label(),
+                            arrangement: p.arrangement,
+                            tolerance: p.tolerance(),
+                            locked: p.locked,
+                            pieces: &p.pieces,
+                        },
+                    )
+                })
+                .collect(),
+            metrics: &r.evaluation.metrics,
+            checks: &r.evaluation.checks,
+            capacitors: &r.evaluation.caps,
+            power: &r.evaluation.power,
+        })
+        .collect();
+    let doc = Document {
+        stage: stage.kind().name(),
+        target_gain: spec.gain,
+        bias_target_v: spec.bias_target(),
+        builds,
+        cautions: crate::report::table::CAUTIONS,
+    };
+    // Serialising plain structs of numbers and strings cannot fail; NaN becomes null.
+    serde_json::to_string_pretty(&doc).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))
+}
+
+#[derive(Serialize)]
+struct DiagnosisJson<'a> {
+    stage: &'static str,
+    builds: [(); 0],
+    blockers: &'a [crate::search::diagnose::Blocker],
+    several_requirements: bool,
+    nearest: Option<serde_json::Value>,
+}
+
+/// JSON for a spec no build meets: no builds, the blockers, and the nearest build.
+pub fn diagnosis(spec: &Spec, stage: &dyn Stage, d: &crate::search::diagnose::Diagnosis) -> String {
+    let nearest = d.nearest.as_ref().and_then(|n| {
+        let text = builds(spec, stage, std::slice::from_ref(n));
+        serde_json::from_str::<serde_json::Value>(&text)
+            .ok()
+            .and_then(|v| v["builds"].get(0).cloned())
+    });
+    let doc = DiagnosisJson {
+        stage: stage.kind().name(),
+        builds: [],
+        blockers: &d.blockers,
+        several_requirements: d.several,
+        nearest,
+    };
+    serde_json::to_string_pretty(&doc).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))
+}

@@ -1,1 +1,435 @@
+//! The terminal report: ranked builds as two tables (parts, figures) that fit 100 columns, then
+//! the best build's checks, capacitor bias and cautions.
 
+use crate::analysis::{Bound, Check, Evaluation};
+use crate::build::Build;
+use crate::search::Ranked;
+use crate::spec::Spec;
+use crate::stage::Stage;
+use crate::value::{format, format_sig, Unit};
+use std::fmt::Write;
+
+/// Terminal styling: colour only when the binary says the terminal wants it.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Style {
+    pub color: bool,
+}
+
+impl Style {
+    fn paint(&self, code: &str, text: &str) -> String {
+        if self.color {
+            format!("\x1b[{code}m{text}\x1b[0m")
+        } else {
+            text.to_string()
+        }
+    }
+    fn pass(&self, pass: bool) -> String {
+        if pass {
+            self.paint("32", "pass")
+        } else {
+            self.paint("31;1", "FAIL")
+        }
+    }
+    fn bold(&self, text: &str) -> String {
+        self.paint("1", text)
+    }
+}
+
+/// The usual cautions, printed with every report.
+pub const CAUTIONS: &[&str] = &[
+    "Confirm every figure against the op-amp's datasheet: this analysis uses the figures in the spec, a single-pole amplifier and ideal rails.",
+    "A polarised (electrolytic or tantalum) capacitor fitted reversed, or run above its voltage rating, can fail violently: check the + marking against the polarity listed here before power is applied.",
+    "Resistor and capacitor ratings are checked only where the inventory gives them; confirm the rest against each part's datasheet.",
+    "For anything mains-powered, follow local codes and licensed practice; this tool does not assess mains safety.",
+];
+
+/// Pad or cut `text` to `width` display columns (all our symbols are one column wide).
+fn cell(text: &str, width: usize) -> String {
+    let n = text.chars().count();
+    if n >= width {
+        text.chars().take(width).collect()
+    } else {
+        format!("{text}{}", " ".repeat(width - n))
+    }
+}
+
+fn gain_text(g: f64) -> String {
+    // Gains are plain ratios; 4 significant digits show a 0.1 % error.
+    let s = format_sig(g.abs(), Unit::Decibel, 4).replace(" dB", "");
+    if g < 0.0 {
+        format!("−{s}")
+    } else {
+        s
+    }
+}
+
+fn opt_hz(v: Option<f64>) -> String {
+    v.map_or_else(|| "—".to_string(), |f| format(f, Unit::Hertz))
+}
+
+fn cost_text(c: Option<f64>) -> String {
+    c.map_or_else(|| "—".to_string(), |c| format!("{c:.2}"))
+}
+
+/// One-line heading for a report.
+pub fn heading(spec: &Spec, stage: &dyn Stage, stock_text: &str) -> String {
+    format!(
+        "{} stage · gain {} · {} supply · band {} – {} · stock: {}",
+        stage.kind().name(),
+        gain_text(spec.gain),
+        format(spec.supply, Unit::Volt),
+        format(spec.band.0, Unit::Hertz),
+        format(spec.band.1, Unit::Hertz),
+        stock_text
+    )
+}
+
+/// The ranked builds: a parts table, then a figures table.
+pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked], style: Style) -> String {
+    let mut out = String::new();
+    let slots = stage.slots();
+    let labels: Vec<Vec<String>> = ranked
+        .iter()
+        .map(|r| r.build.parts.iter().map(|p| p.label()).collect())
+        .collect();
+    // Column widths from the content, so two-part labels get the room they need.
+    let widths: Vec<usize> = (0..slots.len())
+        .map(|i| {
+            labels
+                .iter()
+                .map(|l| l[i].chars().count())
+                .chain(std::iter::once(slots[i].name.len()))
+                .max()
+                .unwrap_or(8)
+                + 2
+        })
+        .collect();
+    let _ = writeln!(out, "{}", style.bold("Parts"));
+    let mut head = cell("#", 4);
+    for (i, s) in slots.iter().enumerate() {
+        head.push_str(&cell(s.name, widths[i]));
+    }
+    let _ = writeln!(out, "{}", head.trim_end());
+    for (n, l) in labels.iter().enumerate() {
+        let mut row = cell(&(n + 1).to_string(), 4);
+        for (i, text) in l.iter().enumerate() {
+            let locked = ranked[n].build.parts[i].locked;
+            let t = if locked {
+                format!("{text}*")
+            } else {
+                text.clone()
+            };
+            row.push_str(&cell(&t, widths[i]));
+        }
+        let _ = writeln!(out, "{}", row.trim_end());
+    }
+    if ranked
+        .iter()
+        .any(|r| r.build.parts.iter().any(|p| p.locked))
+    {
+        let _ = writeln!(out, "    * locked (already on the board)");
+    }
+    let _ = writeln!(out);
+    let worst = if spec.worst_case() {
+        "worst"
+    } else {
+        "nominal"
+    };
+    let _ = writeln!(out, "{}", style.bold("Figures"));
+    let _ = writeln!(
+        out,
+        "{}",
+        format!(
+            "{}{}{}{}{}{}{}{}{}",
+            cell("#", 4),
+            cell("gain", 9),
+            cell("error", 9),
+            cell(&format!("{worst} |gain|"), 18),
+            cell("low −3 dB", 11),
+            cell(&format!("{worst} swing"), 13),
+            cell("parts", 7),
+            cell("lines", 7),
+            cell("cost", 8),
+        )
+        .trim_end()
+    );
+    for (n, r) in ranked.iter().enumerate() {
+        let m = &r.evaluation.metrics;
+        let (lo, hi) = (
+            m.gain_min.abs().min(m.gain_max.abs()),
+            m.gain_min.abs().max(m.gain_max.abs()),
+        );
+        let row = format!(
+            "{}{}{}{}{}{}{}{}{}",
+            cell(&(n + 1).to_string(), 4),
+            cell(&gain_text(m.gain), 9),
+            cell(&format_sig(m.gain_error, Unit::Percent, 2), 9),
+            cell(&format!("{} … {}", gain_text(lo), gain_text(hi)), 18),
+            cell(&opt_hz(m.low_corner_hz), 11),
+            cell(&format!("±{}", format(m.swing_peak_v, Unit::Volt)), 13),
+            cell(&m.part_count.to_string(), 7),
+            cell(&m.bom_lines.to_string(), 7),
+            cell(&cost_text(m.cost), 8),
+        );
+        let _ = writeln!(out, "{}", row.trim_end());
+    }
+    out
+}
+
+fn value_text(c: &Check) -> (String, String, String) {
+    let f = |v: f64| match c.unit {
+        Unit::Percent if c.name.starts_with("gain") => gain_text(v),
+        Unit::Percent => {
+            if v >= 1.0 {
+                "yes".into()
+            } else {
+                "no".into()
+            }
+        }
+        unit => format_sig(v, unit, 4),
+    };
+    let margin = match c.unit {
+        Unit::Percent if c.name.starts_with("gain") => {
+            format_sig(c.margin / c.limit, Unit::Percent, 2)
+        }
+        Unit::Percent => String::new(),
+        unit => format_sig(c.margin, unit, 3),
+    };
+    (f(c.value), f(c.limit), margin)
+}
+
+/// The checks of one build: requirement, value, limit, margin, pass/fail.
+pub fn checks(evaluation: &Evaluation, style: Style) -> String {
+    let mut out = String::new();
+    let _ = writeln!(out, "{}", style.bold("Checks"));
+    let _ = writeln!(
+        out,
+        "{}{}{}{}pass",
+        cell("requirement", 50),
+        cell("value", 13),
+        cell("limit", 14),
+        cell("margin", 12)
+    );
+    for c in &evaluation.checks {
+        let (v, l, m) = value_text(c);
+        let op = match c.bound {
+            Bound::Min => "≥ ",
+            Bound::Max => "≤ ",
+        };
+        let _ = writeln!(
+            out,
+            "{}{}{}{}{}",
+            cell(&c.label, 50),
+            cell(&v, 13),
+            cell(&format!("{op}{l}"), 14),
+            cell(&m, 12),
+            style.pass(c.pass)
+        );
+    }
+    out
+}
+
+/// DC across each capacitor with the side that is positive, and the rating it needs.
+pub fn capacitors(
+    spec: &Spec,
+    evaluation: &Evaluation,
+    build: &Build,
+    stage: &dyn Stage,
+) -> String {
+    let mut out = String::new();
+    let worst = if spec.worst_case() {
+        "worst"
+    } else {
+        "nominal"
+    };
+    let _ = writeln!(
+        out,
+        "Capacitor DC bias ({worst} range; + lead toward the side named)"
+    );
+    for c in &evaluation.caps {
+        let idx = crate::stage::slot_index(stage, &c.slot).unwrap_or(0);
+        let part = &build.parts[idx];
+        let kind = if c.polarized {
+            "polarised"
+        } else {
+            "non-polarised or unknown"
+        };
+        let rating = match c.rating {
+            Some(r) => format!("rated {}", format(r, Unit::Volt)),
+            None => "rating not given".to_string(),
+        };
+        let _ = writeln!(
+            out,
+            "  {:<6} {:<12} {} ({} … {}), + to {}; needs ≥ {}; {}, {}",
+            c.slot,
+            part.label(),
+            format_sig(c.volts.abs(), Unit::Volt, 3),
+            format_sig(c.volts_min, Unit::Volt, 3),
+            format_sig(c.volts_max, Unit::Volt, 3),
+            c.positive_side,
+            format_sig(c.rating_needed, Unit::Volt, 2),
+            rating,
+            kind
+        );
+    }
+    out
+}
+
+/// Other figures a bench engineer wants beside the checks.
+pub fn figures(spec: &Spec, evaluation: &Evaluation) -> String {
+    let m = &evaluation.metrics;
+    let mut out = String::new();
+    let _ = writeln!(out, "Figures");
+    let _ = writeln!(
+        out,
+        "  gain {} (target {}, error {}), noise gain {}",
+        gain_text(m.gain),
+        gain_text(spec.gain),
+        format_sig(m.gain_error, Unit::Percent, 2),
+        gain_text(m.noise_gain)
+    );
+    let _ = writeln!(
+        out,
+        "  input resistance {} (worst {})",
+        format(m.input_resistance, Unit::Ohm),
+        format(m.input_resistance_worst, Unit::Ohm)
+    );
+    for n in &m.networks {
+        let _ = writeln!(
+            out,
+            "  {} network ({} with {}): corner {} (worst {})",
+            n.name,
+            n.cap_slot,
+            format(n.resistance, Unit::Ohm),
+            format(n.corner_hz, Unit::Hertz),
+            format(n.corner_worst_hz, Unit::Hertz)
+        );
+    }
+    let _ = writeln!(
+        out,
+        "  whole response: low −3 dB {} (worst {}), high −3 dB {} (worst {}; GBW/noise gain {})",
+        opt_hz(m.low_corner_hz),
+        opt_hz(m.low_corner_worst_hz),
+        opt_hz(m.high_corner_hz),
+        opt_hz(m.high_corner_worst_hz),
+        opt_hz(m.high_corner_estimate_hz)
+    );
+    let _ = writeln!(
+        out,
+        "  loss at {}: {} dB (worst {} dB); at {}: {} dB (worst {} dB)",
+        format(spec.band.0, Unit::Hertz),
+        format_sig(m.band_low_loss_db, Unit::Decibel, 3).replace(" dB", ""),
+        format_sig(m.band_low_loss_worst_db, Unit::Decibel, 3).replace(" dB", ""),
+        format(spec.band.1, Unit::Hertz),
+        format_sig(m.band_high_loss_db, Unit::Decibel, 3).replace(" dB", ""),
+        format_sig(m.band_high_loss_worst_db, Unit::Decibel, 3).replace(" dB", "")
+    );
+    let _ = writeln!(
+        out,
+        "  output DC {} (target {}, worst {} … {}), divider current {}",
+        format_sig(m.output_dc_v, Unit::Volt, 4),
+        format_sig(spec.bias_target(), Unit::Volt, 4),
+        format_sig(m.output_dc_min_v, Unit::Volt, 4),
+        format_sig(m.output_dc_max_v, Unit::Volt, 4),
+        format(m.divider_current_a, Unit::Ampere)
+    );
+    let _ = writeln!(
+        out,
+        "  swing ±{} at the output, ±{} at the input (worst case)",
+        format(m.swing_peak_v, Unit::Volt),
+        format(m.input_range_peak_v, Unit::Volt)
+    );
+    for p in &evaluation.power {
+        let rating = p.rating.map_or(String::new(), |r| {
+            format!(" (rated {})", format(r, Unit::Watt))
+        });
+        let _ = writeln!(
+            out,
+            "  {} dissipates {}{}",
+            p.slot,
+            format(p.watts, Unit::Watt),
+            rating
+        );
+    }
+    out
+}
+
+/// The full report of one build (the best of a pick, or a `check`).
+pub fn detail(spec: &Spec, stage: &dyn Stage, ranked: &Ranked, style: Style) -> String {
+    let mut out = String::new();
+    out.push_str(&figures(spec, &ranked.evaluation));
+    out.push('\n');
+    out.push_str(&checks(&ranked.evaluation, style));
+    out.push('\n');
+    out.push_str(&capacitors(spec, &ranked.evaluation, &ranked.build, stage));
+    out.push('\n');
+    out.push_str(&cautions());
+    out
+}
+
+pub fn cautions() -> String {
+    let mut out = String::from("Cautions\n");
+    for c in CAUTIONS {
+        let _ = writeln!(out, "  ! {c}");
+    }
+    out
+}
+
+/// Why no build meets the spec, for people.
+pub fn diagnosis(
+    spec: &Spec,
+    stage: &dyn Stage,
+    d: &crate::search::diagnose::Diagnosis,
+    style: Style,
+) -> String {
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "{}",
+        style.bold("No build from this stock meets the spec.")
+    );
+    if d.several {
+        let _ = writeln!(
+            out,
+            "No single requirement is to blame: dropping any one of them still leaves no build."
+        );
+    } else {
+        let _ = writeln!(out, "Blocking requirements (each alone; the others kept):");
+        for b in &d.blockers {
+            let _ = writeln!(out, "  - {}", b.message);
+        }
+    }
+    if let Some(n) = &d.nearest {
+        let _ = writeln!(out);
+        let _ = writeln!(
+            out,
+            "Nearest build (best with the requirements dropped), judged against the spec:"
+        );
+        let labels: Vec<String> = n
+            .build
+            .parts
+            .iter()
+            .zip(stage.slots())
+            .map(|(p, s)| format!("{} {}", s.name, p.label()))
+            .collect();
+        let _ = writeln!(out, "  {}", labels.join(" · "));
+        for c in n.evaluation.checks.iter().filter(|c| !c.pass) {
+            let (v, l, m) = value_text(c);
+            let op = match c.bound {
+                Bound::Min => "≥",
+                Bound::Max => "≤",
+            };
+            let _ = writeln!(
+                out,
+                "  FAIL {}: {} (needs {} {}; misses by {})",
+                c.label,
+                v,
+                op,
+                l,
+                m.trim_start_matches('-')
+            );
+        }
+        let _ = spec;
+    }
+    out
+}

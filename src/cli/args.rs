@@ -1,0 +1,106 @@
+//! clap-derive arguments: raw values only; `run` turns them into a validated request.
+
+use clap::{Parser, Subcommand};
+use std::path::PathBuf;
+
+#[derive(Debug, Parser)]
+#[command(
+    name = "stockfit",
+    version,
+    about = "Pick buildable parts for single-supply op-amp gain stages and prove the build meets its spec",
+    long_about = None
+)]
+pub struct Arguments {
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+#[derive(Debug, clap::Args)]
+pub struct Output {
+    /// Write JSON to FILE, or to standard output with `-` (then nothing else is printed there).
+    #[arg(long, value_name = "FILE|-")]
+    pub json: Option<String>,
+    /// No progress bar.
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Rank the best builds of a spec from a stock.
+    Pick {
+        /// The spec (TOML).
+        spec: PathBuf,
+        /// Stock for this run: a series name (E24 …) for the resistors, or an inventory CSV for
+        /// both kinds of part. Overrides the spec's [stock].
+        #[arg(long, value_name = "SERIES|FILE.csv")]
+        stock: Option<String>,
+        /// Fix a slot to a value, e.g. `r_in=47k` or `r_in=47k/5%` (repeatable).
+        #[arg(long, value_name = "SLOT=VALUE")]
+        lock: Vec<String>,
+        /// How many builds to rank.
+        #[arg(long, default_value_t = 5)]
+        top: usize,
+        #[command(flatten)]
+        output: Output,
+    },
+    /// Full report of one given build.
+    Check {
+        spec: PathBuf,
+        /// The part of a slot, e.g. `r_fb=100k` (every slot once).
+        #[arg(long, value_name = "SLOT=VALUE", required = true)]
+        set: Vec<String>,
+        /// Stock the set values are taken from, for their tolerances and ratings.
+        #[arg(long, value_name = "SERIES|FILE.csv")]
+        stock: Option<String>,
+        #[command(flatten)]
+        output: Output,
+    },
+    /// List the values of a standard series (IEC 60063).
+    Series {
+        /// E3, E6, E12, E24, E48, E96 or E192.
+        name: String,
+        #[arg(long, default_value = "1")]
+        from: String,
+        #[arg(long, default_value = "10")]
+        to: String,
+    },
+    /// Validate and summarise an inventory CSV.
+    Stock { file: PathBuf },
+    /// Run `pick` on a built-in example (a 9 V hydrophone preamp on E24/E6 stock).
+    Demo {
+        #[arg(long, default_value_t = 5)]
+        top: usize,
+        #[command(flatten)]
+        output: Output,
+    },
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn pick_arguments() {
+        let a = Arguments::try_parse_from([
+            "stockfit", "pick", "x.toml", "--lock", "r_in=47k", "--lock", "c_in=1u", "--top", "3",
+            "--json", "-",
+        ])
+        .unwrap();
+        match a.command {
+            Command::Pick {
+                lock, top, output, ..
+            } => {
+                assert_eq!(lock, vec!["r_in=47k", "c_in=1u"]);
+                assert_eq!(top, 3);
+                assert_eq!(output.json.as_deref(), Some("-"));
+            }
+            other => panic!("{other:?}"),
+        }
+    }
+
+    #[test]
+    fn check_needs_set() {
+        assert!(Arguments::try_parse_from(["stockfit", "check", "x.toml"]).is_err());
+    }
+}

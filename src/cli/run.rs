@@ -1,0 +1,427 @@
+//! What each subcommand does: read files, build the request, call the library, print.
+
+use super::args::{Arguments, Command, Output};
+use super::{Failure, EXIT_NO_BUILD, EXIT_OK};
+use anyhow::{anyhow, Context};
+use indicatif::{ProgressBar, ProgressStyle};
+use std::collections::HashMap;
+use std::io::IsTerminal;
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+use std::time::{Duration, Instant};
+use stockfit::build::Part;
+use stockfit::report::{json, table};
+use stockfit::search::{self, diagnose, Progress, Ranked, Request};
+use stockfit::series::Series;
+use stockfit::spec::{self, SourceSpec, Spec};
+use stockfit::stage::{self, Stage};
+use stockfit::stock::inventory::{Inventory, PartKind};
+use stockfit::stock::{Source, Stock};
+use stockfit::value::{self, Unit};
+
+/// The built-in example for `stockfit demo`.
+pub const DEMO_SPEC: &str = include_str!("../../examples/hydrophone-preamp-9v.toml");
+
+pub fn run(args: Arguments) -> Result<i32, Failure> {
+    match args.command {
+        Command::Pick {
+            spec,
+            stock,
+            lock,
+            top,
+            output,
+        } => {
+            let (parsed, base) = load_spec(&spec)?;
+            pick(&parsed, &base, stock.as_deref(), &lock, top, &output)
+        }
+        Command::Demo { top, output } => {
+            let parsed = Spec::from_toml(DEMO_SPEC).context("the built-in demo spec")?;
+            if output.json.as_deref() != Some("-") {
+                println!(
+                    "Demo: examples/hydrophone-preamp-9v.toml (a 9 V piezo hydrophone preamp)\n"
+                );
+            }
+            pick(&parsed, Path::new("."), None, &[], top, &output)
+        }
+        Command::Check {
+            spec,
+            set,
+            stock,
+            output,
+        } => {
+            let (parsed, base) = load_spec(&spec)?;
+            check(&parsed, &base, stock.as_deref(), &set, &output)
+        }
+        Command::Series { name, from, to } => series(&name, &from, &to),
+        Command::Stock { file } => stock_summary(&file),
+    }
+}
+
+fn load_spec(path: &Path) -> Result<(Spec, PathBuf), Failure> {
+    let text = std::fs::read_to_string(path)
+        .with_context(|| format!("cannot read the spec {}", path.display()))?;
+    let spec = Spec::from_toml(&text).with_context(|| format!("in {}", path.display()))?;
+    let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
+    Ok((spec, base))
+}
+
+fn load_inventory(path: &Path) -> Result<Inventory, Failure> {
+    let file = std::fs::File::open(path)
+        .with_context(|| format!("cannot open the inventory {}", path.display()))?;
+    Ok(Inventory::from_reader(std::io::BufReader::new(file))
+        .with_context(|| format!("in {}", path.display()))?)
+}
+
+/// The stock a run draws from, and a short description of it.
+fn resolve_stock(spec: &Spec, base: &Path, over: Option<&str>) -> Result<(Stock, String), Failure> {
+    let mut cache: HashMap<PathBuf, Arc<Inventory>> = HashMap::new();
+    let mut source =
+        |s: &SourceSpec, kind: PartKind, relative_to: &Path| -> Result<Source, Failure> {
+            Ok(match s {
+                SourceSpec::Series(series) => Source::Series {
+                    series: *series,
+                    tolerance: match kind {
+                        PartKind::Resistor => spec.stock.resistor_tolerance,
+                        PartKind::Capacitor => spec.stock.capacitor_tolerance,
+                    },
+                },
+                SourceSpec::File(p) => {
+                    let path = relative_to.join(p);
+                    let inv = match cache.get(&path) {
+                        Some(inv) => inv.clone(),
+                        None => {
+                            let inv = Arc::new(load_inventory(&path)?);
+                            cache.insert(path.clone(), inv.clone());
+                            inv
+                        }
+                    };
+                    Source::Inventory(inv)
+                }
+            })
+        };
+    let (r, c) = match over.map(SourceSpec::parse) {
+        None => (
+            source(&spec.stock.resistors, PartKind::Resistor, base)?,
+            source(&spec.stock.capacitors, PartKind::Capacitor, base)?,
+        ),
+        // A series on the command line replaces the resistors only; a CSV replaces both.
+        Some(s @ SourceSpec::Series(_)) => (
+            source(&s, PartKind::Resistor, Path::new(""))?,
+            source(&spec.stock.capacitors, PartKind::Capacitor, base)?,
+        ),
+        Some(f @ SourceSpec::File(_)) => (
+            source(&f, PartKind::Resistor, Path::new(""))?,
+            source(&f, PartKind::Capacitor, Path::new(""))?,
+        ),
+    };
+    let text = format!("resistors {}, capacitors {}", r.describe(), c.describe());
+    Ok((Stock::new(r, c, &spec.stock), text))
+}
+
+/// Parse `SLOT=VALUE[/TOL]` entries into locked parts by slot index.
+fn parse_slot_values(
+    stage: &dyn Stage,
+    stock: &Stock,
+    entries: &[(String, String)],
+    flag: &str,
+) -> Result<Vec<(usize, Part)>, Failure> {
+    let mut out: Vec<(usize, Part)> = Vec::new();
+    for (slot, text) in entries {
+        let idx = stage::slot_index(stage, slot).ok_or_else(|| {
+            let names: Vec<&str> = stage.slots().iter().map(|s| s.name).collect();
+            anyhow!(
+                "{flag} {slot}=…: the {} stage has no slot `{slot}`; its slots are {}",
+                stage.kind().name(),
+                names.join(", ")
+            )
+        })?;
+        let kind = stage.slots()[idx].kind;
+        let unit = match kind {
+            PartKind::Resistor => Unit::Ohm,
+            PartKind::Capacitor => Unit::Farad,
+        };
+        let (v, tol) =
+            spec::parse_lock_value(text, unit).map_err(|m| anyhow!("{flag} {slot}={text}: {m}"))?;
+        let part = Part::locked(
+            kind,
+            v,
+            tol.unwrap_or_else(|| stock.default_tolerance(kind)),
+        );
+        out.retain(|(i, _)| *i != idx);
+        out.push((idx, part));
+    }
+    Ok(out)
+}
+
+fn split_entries(raw: &[String], flag: &str) -> Result<Vec<(String, String)>, Failure> {
+    raw.iter()
+        .map(|e| {
+            e.split_once('=')
+                .map(|(s, v)| (s.trim().to_string(), v.trim().to_string()))
+                .ok_or_else(|| {
+                    Failure::input(anyhow!(
+                        "{flag} {e}: expected SLOT=VALUE, e.g. {flag} r_in=47k"
+                    ))
+                })
+        })
+        .collect()
+}
+
+fn style() -> table::Style {
+    let color = std::io::stdout().is_terminal() && std::env::var_os("NO_COLOR").is_none();
+    table::Style { color }
+}
+
+fn write_json(output: &Output, text: &str) -> Result<(), Failure> {
+    match output.json.as_deref() {
+        None => Ok(()),
+        Some("-") => {
+            println!("{text}");
+            Ok(())
+        }
+        Some(path) => std::fs::write(path, format!("{text}\n"))
+            .with_context(|| format!("cannot write the JSON file {path}"))
+            .map_err(Failure::input),
+    }
+}
+
+fn pick(
+    spec: &Spec,
+    base: &Path,
+    stock_over: Option<&str>,
+    locks: &[String],
+    top: usize,
+    output: &Output,
+) -> Result<i32, Failure> {
+    let stage = stage::stage_for(spec.stage);
+    let (stock, stock_text) = resolve_stock(spec, base, stock_over)?;
+    let mut entries: Vec<(String, String)> = Vec::new();
+    for l in &spec.locks {
+        let unit = if l.slot.starts_with("c_") {
+            Unit::Farad
+        } else {
+            Unit::Ohm
+        };
+        let mut t = value::format_sig(l.value, unit, 12);
+        if let Some(tol) = l.tolerance {
+            t = format!("{t}/{}", value::format_sig(tol, Unit::Percent, 12));
+        }
+        entries.push((l.slot.clone(), t));
+    }
+    entries.extend(split_entries(locks, "--lock")?);
+    let locked = parse_slot_values(stage, &stock, &entries, "--lock")?;
+    if top == 0 {
+        return Err(Failure::input(anyhow!(
+            "--top 0: ask for at least one build"
+        )));
+    }
+    let req = Request {
+        spec,
+        stage,
+        stock: &stock,
+        locks: &locked,
+        top,
+    };
+    let quiet_stdout = output.json.as_deref() == Some("-");
+    let started = Instant::now();
+    let show_bar = !output.quiet && std::io::stderr().is_terminal();
+    let mut bar: Option<ProgressBar> = None;
+    let mut on_progress = |p: Progress| {
+        if !show_bar {
+            return;
+        }
+        if bar.is_none() && started.elapsed() > Duration::from_secs(1) {
+            let b = ProgressBar::new(p.total as u64);
+            if let Ok(style) =
+                ProgressStyle::with_template("searching {msg} {wide_bar} {pos}/{len} ({eta})")
+            {
+                b.set_style(style);
+            }
+            b.set_message(stage.slots()[stage.groups()[0][0]].name.to_string() + " pairs");
+            bar = Some(b);
+        }
+        if let Some(b) = &bar {
+            b.set_position(p.done as u64);
+        }
+    };
+    let outcome = match search::search(&req, &mut on_progress) {
+        Ok(o) => o,
+        Err(e @ search::SearchError::NoCandidates { .. }) => {
+            eprintln!("error: {e}");
+            return Ok(EXIT_NO_BUILD);
+        }
+        Err(e) => return Err(Failure::input(e)),
+    };
+    if let Some(b) = bar.take() {
+        b.finish_and_clear();
+    }
+    let style = style();
+    if outcome.builds.is_empty() {
+        let d = diagnose::diagnose(&req).map_err(Failure::input)?;
+        if !quiet_stdout {
+            println!("{}", table::heading(spec, stage, &stock_text));
+            println!();
+            print!("{}", table::diagnosis(spec, stage, &d, style));
+        }
+        write_json(output, &json::diagnosis(spec, stage, &d))?;
+        return Ok(EXIT_NO_BUILD);
+    }
+    if !quiet_stdout {
+        println!("{}", table::heading(spec, stage, &stock_text));
+        println!();
+        print!("{}", table::builds(spec, stage, &outcome.builds, style));
+        println!();
+        println!("Best build (#1)");
+        print!("{}", table::detail(spec, stage, &outcome.builds[0], style));
+    }
+    write_json(output, &json::builds(spec, stage, &outcome.builds))?;
+    Ok(EXIT_OK)
+}
+
+fn check(
+    spec: &Spec,
+    base: &Path,
+    stock_over: Option<&str>,
+    set: &[String],
+    output: &Output,
+) -> Result<i32, Failure> {
+    let stage = stage::stage_for(spec.stage);
+    let (stock, stock_text) = resolve_stock(spec, base, stock_over)?;
+    let entries = split_entries(set, "--set")?;
+    let given = parse_slot_values(stage, &stock, &entries, "--set")?;
+    let missing: Vec<&str> = stage
+        .slots()
+        .iter()
+        .enumerate()
+        .filter(|(i, _)| !given.iter().any(|(g, _)| g == i))
+        .map(|(_, s)| s.name)
+        .collect();
+    if !missing.is_empty() {
+        return Err(Failure::input(anyhow!(
+            "check needs every slot: add --set for {} (or use `pick --lock` to have the rest chosen)",
+            missing.join(", ")
+        )));
+    }
+    let mut parts: Vec<Option<Part>> = vec![None; stage.slots().len()];
+    for (i, mut p) in given {
+        // A checked build is a build, not a board repair: its parts are not "locked".
+        p.locked = false;
+        parts[i] = Some(p);
+    }
+    let build = stockfit::Build {
+        parts: parts.into_iter().flatten().collect(),
+    };
+    let evaluation = stockfit::analysis::evaluate(spec, stage, &build, None);
+    let pass = evaluation.pass;
+    let ranked = Ranked { build, evaluation };
+    if output.json.as_deref() != Some("-") {
+        let style = style();
+        println!("{}", table::heading(spec, stage, &stock_text));
+        println!();
+        print!(
+            "{}",
+            table::builds(spec, stage, std::slice::from_ref(&ranked), style)
+        );
+        println!();
+        print!("{}", table::detail(spec, stage, &ranked, style));
+    }
+    write_json(
+        output,
+        &json::builds(spec, stage, std::slice::from_ref(&ranked)),
+    )?;
+    Ok(if pass { EXIT_OK } else { EXIT_NO_BUILD })
+}
+
+fn series(name: &str, from: &str, to: &str) -> Result<i32, Failure> {
+    let s = Series::parse(name).ok_or_else(|| {
+        anyhow!("unknown series {name:?}; expected one of E3, E6, E12, E24, E48, E96, E192")
+    })?;
+    // The range is unit-free: values may be written with any prefix, a unit letter is refused.
+    let lo = value::parse(from, Unit::Ohm).map_err(|e| anyhow!("--from {from}: {e}"))?;
+    let hi = value::parse(to, Unit::Ohm).map_err(|e| anyhow!("--to {to}: {e}"))?;
+    if !(lo > 0.0 && hi >= lo) {
+        return Err(Failure::input(anyhow!(
+            "--from and --to: expected 0 < from ≤ to"
+        )));
+    }
+    let values = s.values_in(lo, hi);
+    let digits = if s.per_decade() > 24 { 3 } else { 2 };
+    let text: Vec<String> = values
+        .iter()
+        .map(|v| {
+            value::format_sig(*v, Unit::Ohm, digits)
+                .replace(" Ω", "")
+                .replace('Ω', "")
+        })
+        .collect();
+    println!("{}", text.join("\n"));
+    eprintln!(
+        "{} values of {} (IEC 60063, {} % tolerance class)",
+        values.len(),
+        s.name(),
+        s.tolerance() * 100.0
+    );
+    Ok(EXIT_OK)
+}
+
+fn stock_summary(file: &Path) -> Result<i32, Failure> {
+    let inv = load_inventory(file)?;
+    let s = inv.summary();
+    println!("{}: {} lines", file.display(), inv.lines.len());
+    for k in [&s.resistors, &s.capacitors] {
+        let unit = match k.kind {
+            PartKind::Resistor => Unit::Ohm,
+            PartKind::Capacitor => Unit::Farad,
+        };
+        let range = k.values.as_ref().map_or("—".to_string(), |r| {
+            format!(
+                "{} … {}",
+                value::format(r.min, unit),
+                value::format(r.max, unit)
+            )
+        });
+        let tols: Vec<String> = k
+            .tolerances
+            .iter()
+            .map(|t| value::format(*t, Unit::Percent))
+            .collect();
+        println!(
+            "  {:?}s: {} lines, {} pieces, {}, tolerances {}; {} out of stock",
+            k.kind,
+            k.lines,
+            k.pieces,
+            range,
+            if tols.is_empty() {
+                "—".into()
+            } else {
+                tols.join(", ")
+            },
+            k.out_of_stock
+        );
+        if k.polarized > 0 {
+            println!("    {} polarised lines", k.polarized);
+        }
+        if let Some(v) = &k.voltage {
+            println!(
+                "    voltage ratings {} … {}",
+                value::format(v.min, Unit::Volt),
+                value::format(v.max, Unit::Volt)
+            );
+        }
+        if k.lines_with_cost > 0 {
+            println!(
+                "    {} lines with a cost; stock value {:.2}",
+                k.lines_with_cost, k.stock_value
+            );
+        }
+        for d in &k.duplicates {
+            println!(
+                "    note: {} {} appears on several rows {:?}",
+                value::format(d.value, unit),
+                value::format(d.tolerance, Unit::Percent),
+                d.rows
+            );
+        }
+    }
+    Ok(EXIT_OK)
+}
