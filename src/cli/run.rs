@@ -6,6 +6,7 @@ use anyhow::{anyhow, Context};
 use indicatif::{ProgressBar, ProgressStyle};
 use std::collections::HashMap;
 use std::io::IsTerminal;
+use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use std::time::{Duration, Instant};
@@ -18,6 +19,15 @@ use stockfit::stage::{self, Stage};
 use stockfit::stock::inventory::{Inventory, PartKind};
 use stockfit::stock::{Source, Stock};
 use stockfit::value::{self, Unit};
+
+/// Print to stdout; a closed pipe (`stockfit … | head`) is not an error worth a panic.
+macro_rules! say {
+    () => { let _ = writeln!(std::io::stdout().lock()); };
+    ($($t:tt)*) => { let _ = writeln!(std::io::stdout().lock(), $($t)*); };
+}
+macro_rules! say_raw {
+    ($($t:tt)*) => { let _ = write!(std::io::stdout().lock(), $($t)*); };
+}
 
 /// The built-in example for `stockfit demo`.
 pub const DEMO_SPEC: &str = include_str!("../../examples/hydrophone-preamp-9v.toml");
@@ -37,9 +47,7 @@ pub fn run(args: Arguments) -> Result<i32, Failure> {
         Command::Demo { top, output } => {
             let parsed = Spec::from_toml(DEMO_SPEC).context("the built-in demo spec")?;
             if output.json.as_deref() != Some("-") {
-                println!(
-                    "Demo: examples/hydrophone-preamp-9v.toml (a 9 V piezo hydrophone preamp)\n"
-                );
+                say!("Demo: examples/hydrophone-preamp-9v.toml (a 9 V piezo hydrophone preamp)\n");
             }
             pick(&parsed, Path::new("."), None, &[], top, &output)
         }
@@ -176,7 +184,7 @@ fn write_json(output: &Output, text: &str) -> Result<(), Failure> {
     match output.json.as_deref() {
         None => Ok(()),
         Some("-") => {
-            println!("{text}");
+            say!("{text}");
             Ok(())
         }
         Some(path) => std::fs::write(path, format!("{text}\n"))
@@ -259,20 +267,20 @@ fn pick(
     if outcome.builds.is_empty() {
         let d = diagnose::diagnose(&req).map_err(Failure::input)?;
         if !quiet_stdout {
-            println!("{}", table::heading(spec, stage, &stock_text));
-            println!();
-            print!("{}", table::diagnosis(spec, stage, &d, style));
+            say!("{}", table::heading(spec, stage, &stock_text));
+            say!();
+            say_raw!("{}", table::diagnosis(spec, stage, &d, style));
         }
         write_json(output, &json::diagnosis(spec, stage, &d))?;
         return Ok(EXIT_NO_BUILD);
     }
     if !quiet_stdout {
-        println!("{}", table::heading(spec, stage, &stock_text));
-        println!();
-        print!("{}", table::builds(spec, stage, &outcome.builds, style));
-        println!();
-        println!("Best build (#1)");
-        print!("{}", table::detail(spec, stage, &outcome.builds[0], style));
+        say!("{}", table::heading(spec, stage, &stock_text));
+        say!();
+        say_raw!("{}", table::builds(spec, stage, &outcome.builds, style));
+        say!();
+        say!("Best build (#1)");
+        say_raw!("{}", table::detail(spec, stage, &outcome.builds[0], style));
     }
     write_json(output, &json::builds(spec, stage, &outcome.builds))?;
     Ok(EXIT_OK)
@@ -316,14 +324,14 @@ fn check(
     let ranked = Ranked { build, evaluation };
     if output.json.as_deref() != Some("-") {
         let style = style();
-        println!("{}", table::heading(spec, stage, &stock_text));
-        println!();
-        print!(
+        say!("{}", table::heading(spec, stage, &stock_text));
+        say!();
+        say_raw!(
             "{}",
             table::builds(spec, stage, std::slice::from_ref(&ranked), style)
         );
-        println!();
-        print!("{}", table::detail(spec, stage, &ranked, style));
+        say!();
+        say_raw!("{}", table::detail(spec, stage, &ranked, style));
     }
     write_json(
         output,
@@ -354,7 +362,7 @@ fn series(name: &str, from: &str, to: &str) -> Result<i32, Failure> {
                 .replace('Ω', "")
         })
         .collect();
-    println!("{}", text.join("\n"));
+    say!("{}", text.join("\n"));
     eprintln!(
         "{} values of {} (IEC 60063, {} % tolerance class)",
         values.len(),
@@ -367,7 +375,7 @@ fn series(name: &str, from: &str, to: &str) -> Result<i32, Failure> {
 fn stock_summary(file: &Path) -> Result<i32, Failure> {
     let inv = load_inventory(file)?;
     let s = inv.summary();
-    println!("{}: {} lines", file.display(), inv.lines.len());
+    say!("{}: {} lines", file.display(), inv.lines.len());
     for k in [&s.resistors, &s.capacitors] {
         let unit = match k.kind {
             PartKind::Resistor => Unit::Ohm,
@@ -385,7 +393,7 @@ fn stock_summary(file: &Path) -> Result<i32, Failure> {
             .iter()
             .map(|t| value::format(*t, Unit::Percent))
             .collect();
-        println!(
+        say!(
             "  {:?}s: {} lines, {} pieces, {}, tolerances {}; {} out of stock",
             k.kind,
             k.lines,
@@ -399,23 +407,24 @@ fn stock_summary(file: &Path) -> Result<i32, Failure> {
             k.out_of_stock
         );
         if k.polarized > 0 {
-            println!("    {} polarised lines", k.polarized);
+            say!("    {} polarised lines", k.polarized);
         }
         if let Some(v) = &k.voltage {
-            println!(
+            say!(
                 "    voltage ratings {} … {}",
                 value::format(v.min, Unit::Volt),
                 value::format(v.max, Unit::Volt)
             );
         }
         if k.lines_with_cost > 0 {
-            println!(
+            say!(
                 "    {} lines with a cost; stock value {:.2}",
-                k.lines_with_cost, k.stock_value
+                k.lines_with_cost,
+                k.stock_value
             );
         }
         for d in &k.duplicates {
-            println!(
+            say!(
                 "    note: {} {} appears on several rows {:?}",
                 value::format(d.value, unit),
                 value::format(d.tolerance, Unit::Percent),

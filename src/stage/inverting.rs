@@ -249,10 +249,9 @@ impl Stage for Inverting {
                 {
                     return None;
                 }
-                let v_div = spec.supply * lo.value / (hi.value + lo.value);
                 Some(common::offset_points(
                     spec,
-                    (v_div - spec.bias_target()).abs(),
+                    common::divider_error(spec, hi.value, lo.value),
                 ))
             }
             _ => Some(0.0),

@@ -172,8 +172,7 @@ pub trait Stage: Send + Sync {
     fn dc(&self, spec: &Spec, v: &[f64], e: &DcErrors) -> DcPoint;
     /// The nominal divider output with no bias current.
     fn divider_voltage(&self, spec: &Spec, v: &[f64]) -> f64;
-    /// Nominal output DC error, V: |divider − bias target| + I_b · |R_dc(−) − R_dc(+)|, the
-    /// second term being what bias-current compensation removes.
+    /// Nominal output DC error bound, V (see `common::offset_error`): what the `offset` goal counts.
     fn offset_error(&self, spec: &Spec, v: &[f64]) -> f64;
     /// DC across each capacitor at a DC point.
     fn cap_bias(&self, spec: &Spec, v: &[f64], dc: &DcPoint) -> Vec<CapBias>;
@@ -249,10 +248,23 @@ pub(crate) mod common {
         }
     }
 
+    /// Nominal output DC error bound: |V_div − target| + I_b·|R_fb − R_p| + (I_os/2)·(R_fb + R_p).
+    /// With I_b± = I_b ± I_os/2 the bias currents shift the output by
+    /// I_b·(R_fb − R_p) − (I_os/2)·(R_fb + R_p); compensation (R_p = R_fb) removes the first
+    /// term only, so large resistances still cost through the second (any op-amp text, "bias
+    /// current compensation").
     pub fn offset_error(spec: &Spec, r_hi: f64, r_lo: f64, r_fb: f64) -> f64 {
+        let rp = parallel(r_hi, r_lo);
+        divider_error(spec, r_hi, r_lo)
+            + spec.amplifier.input_bias_current * (r_fb - rp).abs()
+            + spec.amplifier.input_offset_current / 2.0 * r_fb
+    }
+
+    /// The part of `offset_error` the divider alone decides (a lower bound of it).
+    pub fn divider_error(spec: &Spec, r_hi: f64, r_lo: f64) -> f64 {
         let v_div = spec.supply * r_lo / (r_hi + r_lo);
         (v_div - spec.bias_target()).abs()
-            + spec.amplifier.input_bias_current * (r_fb - parallel(r_hi, r_lo)).abs()
+            + spec.amplifier.input_offset_current / 2.0 * parallel(r_hi, r_lo)
     }
 
     /// Weighted points of the offset term: `offset` points per 100 mV.
