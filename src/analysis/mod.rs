@@ -215,20 +215,12 @@ pub fn evaluate(
         .fold(f64::INFINITY, f64::min);
     let low = response::low_corner(stage, spec, &v, &opamp);
     let high = response::high_corner(stage, spec, &v, &opamp);
-    let lows: Vec<Option<f64>> = vertices
-        .iter()
-        .map(|x| response::low_corner(stage, spec, x, &opamp))
-        .collect();
-    let low_worst = worst_of(&lows, f64::max);
-    let highs: Vec<Option<f64>> = if opamp.gbw.is_some() {
-        vertices
-            .iter()
-            .map(|x| response::high_corner(stage, spec, x, &opamp))
-            .collect()
+    let low_worst = response::worst_low_corner(stage, spec, &vertices, &opamp, low);
+    let high_worst = if opamp.gbw.is_some() {
+        response::worst_high_corner(stage, spec, &vertices, &opamp, high)
     } else {
-        vec![None]
+        None
     };
-    let high_worst = worst_of(&highs, f64::min);
     let loss_at = |x: &[f64], f: f64| response::loss_db(stage, spec, x, &opamp, f);
     let low_loss = loss_at(&v, f_lo);
     let low_loss_worst = vertices
@@ -266,7 +258,9 @@ pub fn evaluate(
     } else {
         vec![nominal_errors]
     };
-    let dc_points: Vec<_> = vertices
+    // Capacitors are open at DC: only the resistors' tolerances move the DC point.
+    let dc_vertices = common::vertices_where(spec, &parts, |p| p.kind == PartKind::Resistor);
+    let dc_points: Vec<_> = dc_vertices
         .iter()
         .flat_map(|x| error_corners.iter().map(move |e| (x, stage.dc(spec, x, e))))
         .collect();
@@ -372,16 +366,6 @@ fn power_rating(part: &Part) -> Option<f64> {
         .zip(ratings)
         .map(|(p, rating)| rating / share(p.value))
         .reduce(f64::min)
-}
-
-/// The worst of per-corner figures; `None` anywhere (no corner found) is the worst.
-fn worst_of(values: &[Option<f64>], pick: fn(f64, f64) -> f64) -> Option<f64> {
-    let mut out: Option<f64> = None;
-    for v in values {
-        let v = (*v)?;
-        out = Some(out.map_or(v, |o| pick(o, v)));
-    }
-    out
 }
 
 fn checks(

@@ -22,7 +22,8 @@ fn centre(spec: &Spec) -> f64 {
 const HALF_POWER_DB: f64 = 10.0 * std::f64::consts::LOG10_2;
 
 /// Bisection in log f for the −3 dB crossing between `lo` (below) and `hi` (passband side when
-/// `rising`). 48 halvings of 24 decades leave 2e-13 decades: far below 1 ppm.
+/// `rising`). The result is within 1e-10 relative:
+/// far below the 1 ppm any check needs.
 fn bisect(
     stage: &dyn Stage,
     spec: &Spec,
@@ -32,7 +33,11 @@ fn bisect(
     mut hi: f64,
     rising: bool,
 ) -> f64 {
-    for _ in 0..48 {
+    // Until the bracket is 1e-10 wide (relative): ~35–40 halvings.
+    for _ in 0..200 {
+        if hi / lo <= 1.0 + 1e-10 {
+            break;
+        }
         let mid = (lo * hi).sqrt();
         let inside = loss_db(stage, spec, v, opamp, mid) < HALF_POWER_DB;
         if inside == rising {
@@ -68,4 +73,91 @@ pub fn high_corner(stage: &dyn Stage, spec: &Spec, v: &[f64], opamp: &OpAmp) -> 
         return None;
     }
     Some(bisect(stage, spec, v, opamp, c, ceiling, false))
+}
+
+/// The low corner of a build whose values are within a factor 4 of the ones that gave
+/// `guess` (tolerances below 50 % move an RC corner by less than 4×): bisection in that bracket,
+/// falling back to the full search when the bracket does not hold the crossing.
+pub fn low_corner_near(
+    stage: &dyn Stage,
+    spec: &Spec,
+    v: &[f64],
+    opamp: &OpAmp,
+    guess: Option<f64>,
+) -> Option<f64> {
+    if let Some(g) = guess.filter(|g| *g > 0.0) {
+        let (lo, hi) = (g / 4.0, g * 4.0);
+        if hi < centre(spec)
+            && loss_db(stage, spec, v, opamp, lo) >= HALF_POWER_DB
+            && loss_db(stage, spec, v, opamp, hi) < HALF_POWER_DB
+        {
+            return Some(bisect(stage, spec, v, opamp, lo, hi, true));
+        }
+    }
+    low_corner(stage, spec, v, opamp)
+}
+
+/// The high corner near `guess`, as [`low_corner_near`].
+pub fn high_corner_near(
+    stage: &dyn Stage,
+    spec: &Spec,
+    v: &[f64],
+    opamp: &OpAmp,
+    guess: Option<f64>,
+) -> Option<f64> {
+    if let Some(g) = guess.filter(|g| *g > 0.0) {
+        let (lo, hi) = (g / 4.0, g * 4.0);
+        if lo > centre(spec)
+            && loss_db(stage, spec, v, opamp, lo) < HALF_POWER_DB
+            && loss_db(stage, spec, v, opamp, hi) >= HALF_POWER_DB
+        {
+            return Some(bisect(stage, spec, v, opamp, lo, hi, false));
+        }
+    }
+    high_corner(stage, spec, v, opamp)
+}
+
+/// The highest low corner over `vertices` (`None` when any has no passband). The response is
+/// monotone below its passband, so a vertex's corner exceeds the best so far exactly when it
+/// is still 3 dB down there: one evaluation per vertex, a bisection only for a new worst.
+pub fn worst_low_corner(
+    stage: &dyn Stage,
+    spec: &Spec,
+    vertices: &[Vec<f64>],
+    opamp: &OpAmp,
+    guess: Option<f64>,
+) -> Option<f64> {
+    let mut worst: Option<f64> = None;
+    for x in vertices {
+        if let Some(w) = worst {
+            if loss_db(stage, spec, x, opamp, w) < HALF_POWER_DB {
+                continue;
+            }
+        }
+        let c = low_corner_near(stage, spec, x, opamp, worst.or(guess))?;
+        worst = Some(worst.map_or(c, |w| w.max(c)));
+    }
+    worst
+}
+
+/// The lowest high corner over `vertices`, as [`worst_low_corner`]; `None` when some vertex
+/// has no high corner (ideal amplifier) or no passband.
+pub fn worst_high_corner(
+    stage: &dyn Stage,
+    spec: &Spec,
+    vertices: &[Vec<f64>],
+    opamp: &OpAmp,
+    guess: Option<f64>,
+) -> Option<f64> {
+    let mut worst: Option<f64> = None;
+    for x in vertices {
+        if let Some(w) = worst {
+            if loss_db(stage, spec, x, opamp, w) < HALF_POWER_DB {
+                continue;
+            }
+        }
+        let c = high_corner_near(stage, spec, x, opamp, worst.or(guess))?;
+        worst = Some(worst.map_or(c, |w| w.min(c)));
+    }
+    worst
 }

@@ -20,6 +20,10 @@ pub struct Output {
     /// Write JSON to FILE, or to standard output with `-` (then nothing else is printed there).
     #[arg(long, value_name = "FILE|-")]
     pub json: Option<String>,
+    /// Write a SPICE netlist of the best build (`pick`) or the checked build (`check`) to
+    /// FILE: a plain circuit for ngspice, to `.include` from a deck that adds the analyses.
+    #[arg(long, value_name = "FILE")]
+    pub spice: Option<PathBuf>,
     /// No progress bar.
     #[arg(long, short)]
     pub quiet: bool,
@@ -94,6 +98,28 @@ mod tests {
                 assert_eq!(lock, vec!["r_in=47k", "c_in=1u"]);
                 assert_eq!(top, 3);
                 assert_eq!(output.json.as_deref(), Some("-"));
+            }
+            other => panic!("{other:?}"),
+        }
+    }
+
+    #[test]
+    fn spice_file_on_pick_and_check() {
+        let a =
+            Arguments::try_parse_from(["stockfit", "pick", "x.toml", "--spice", "a.cir"]).unwrap();
+        match a.command {
+            Command::Pick { output, .. } => {
+                assert_eq!(output.spice, Some(PathBuf::from("a.cir")));
+            }
+            other => panic!("{other:?}"),
+        }
+        let a = Arguments::try_parse_from([
+            "stockfit", "check", "x.toml", "--set", "r_in=10k", "--spice", "b.cir",
+        ])
+        .unwrap();
+        match a.command {
+            Command::Check { output, .. } => {
+                assert_eq!(output.spice, Some(PathBuf::from("b.cir")));
             }
             other => panic!("{other:?}"),
         }

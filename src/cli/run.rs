@@ -11,7 +11,7 @@ use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 use stockfit::build::Part;
-use stockfit::report::{json, table};
+use stockfit::report::{json, spice, table};
 use stockfit::search::{self, diagnose, Progress, Ranked, Request};
 use stockfit::series::Series;
 use stockfit::spec::{self, SourceSpec, Spec};
@@ -193,6 +193,21 @@ fn write_json(output: &Output, text: &str) -> Result<(), Failure> {
     }
 }
 
+/// Write the netlist of `build` when `--spice FILE` asks for it.
+fn write_spice(
+    output: &Output,
+    spec: &Spec,
+    stage: &dyn Stage,
+    build: &stockfit::Build,
+) -> Result<(), Failure> {
+    match &output.spice {
+        None => Ok(()),
+        Some(path) => std::fs::write(path, spice::netlist(spec, stage, build))
+            .with_context(|| format!("cannot write the SPICE netlist {}", path.display()))
+            .map_err(Failure::input),
+    }
+}
+
 fn pick(
     spec: &Spec,
     base: &Path,
@@ -272,6 +287,12 @@ fn pick(
             say_raw!("{}", table::diagnosis(spec, stage, &d, style));
         }
         write_json(output, &json::diagnosis(spec, stage, &d))?;
+        if let Some(path) = &output.spice {
+            eprintln!(
+                "note: no build meets the spec, so no netlist was written to {}",
+                path.display()
+            );
+        }
         return Ok(EXIT_NO_BUILD);
     }
     if !quiet_stdout {
@@ -283,6 +304,7 @@ fn pick(
         say_raw!("{}", table::detail(spec, stage, &outcome.builds[0], style));
     }
     write_json(output, &json::builds(spec, stage, &outcome.builds))?;
+    write_spice(output, spec, stage, &outcome.builds[0].build)?;
     Ok(EXIT_OK)
 }
 
@@ -337,6 +359,7 @@ fn check(
         output,
         &json::builds(spec, stage, std::slice::from_ref(&ranked)),
     )?;
+    write_spice(output, spec, stage, &ranked.build)?;
     Ok(if pass { EXIT_OK } else { EXIT_NO_BUILD })
 }
 

@@ -1,3 +1,4 @@
-//! Reports: the terminal table, JSON. Each returns a string; the binary writes it.
+//! Reports: the terminal table, JSON, the SPICE netlist. Each returns a string; the binary writes it.
 pub mod json;
+pub mod spice;
 pub mod table;

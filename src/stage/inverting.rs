@@ -297,4 +297,43 @@ impl Stage for Inverting {
             _ => Some(0.0),
         }
     }
+
+    /// The drawing above: source → c_in → r_in → − input, r_fb from − to the output, the
+    /// divider on +, c_out to the load.
+    fn spice_elements(&self) -> &'static [super::SpiceElement] {
+        use super::{Node::*, SpiceElement as E};
+        const ELEMENTS: &[E] = &[
+            E {
+                slot: R_IN,
+                a: Internal("n_in"),
+                b: MinusInput,
+            },
+            E {
+                slot: R_FB,
+                a: MinusInput,
+                b: AmpOut,
+            },
+            E {
+                slot: R_BIAS_HI,
+                a: Supply,
+                b: PlusInput,
+            },
+            E {
+                slot: R_BIAS_LO,
+                a: PlusInput,
+                b: Ground,
+            },
+            E {
+                slot: C_IN,
+                a: Input,
+                b: Internal("n_in"),
+            },
+            E {
+                slot: C_OUT,
+                a: AmpOut,
+                b: Out,
+            },
+        ];
+        ELEMENTS
+    }
 }

@@ -147,6 +147,40 @@ impl OpAmp {
 /// A search group: slots whose choice is coupled and decided together.
 pub type Group = &'static [usize];
 
+/// A node of the stage's SPICE netlist (`report::spice` gives each its name). The fixed
+/// nodes are the same in every stage, so a deck written for one netlist runs on any.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Node {
+    /// `0`.
+    Ground,
+    /// `vcc`, the single supply.
+    Supply,
+    /// The stage's input terminal: the source EMF node `in`, or the far side of the source
+    /// resistance when the spec has one.
+    Input,
+    /// The op-amp's + input pin, `inp`.
+    PlusInput,
+    /// The op-amp's − input pin, `inn`.
+    MinusInput,
+    /// The op-amp's output, `amp_out`.
+    AmpOut,
+    /// The load side of the output coupling, `out` (the load sits from here to ground).
+    Out,
+    /// A node of the stage's own, named by the stage (lower case, unique in the stage, none
+    /// of the fixed names).
+    Internal(&'static str),
+}
+
+/// Where one slot sits in the circuit: its part goes between nodes `a` and `b`. A two-piece
+/// realisation becomes two elements (series: through a middle node; parallel: both across
+/// `a`–`b`); the netlist writer does that, numbering and value formatting.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct SpiceElement {
+    pub slot: usize,
+    pub a: Node,
+    pub b: Node,
+}
+
 /// The circuit behind a stage kind. Every method takes the slot values in the stage's slot
 /// order (SI base units); nothing here knows about stock, search or reports.
 pub trait Stage: Send + Sync {
@@ -196,6 +230,13 @@ pub trait Stage: Send + Sync {
     /// when a requirement is surely broken. Must never reject a build the exact analysis
     /// accepts (a relaxation), and the shares must add up to the objective's stage terms.
     fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64>;
+
+    /// The circuit for the SPICE netlist (`report::spice`): between which nodes each slot
+    /// sits, every slot once, in slot order. The source, supply, op-amp (its pins are
+    /// `PlusInput`, `MinusInput`, `AmpOut`) and load are the same for every stage and are
+    /// added by the writer; the stage only wires its slots, so its netlist cannot drift from
+    /// its equations without the ngspice test (tests/ngspice.rs) noticing.
+    fn spice_elements(&self) -> &'static [SpiceElement];
 }
 
 /// The stage for a kind.
@@ -359,17 +400,27 @@ pub(crate) mod common {
 
     /// All vertices of the tolerance box of `parts` (2^n), or just the nominal point.
     pub fn vertices(spec: &Spec, parts: &[&Part]) -> Vec<Vec<f64>> {
+        vertices_where(spec, parts, |_| true)
+    }
+
+    /// Vertices over the parts `vary` selects, the others at nominal: 2^k points.
+    pub fn vertices_where(
+        spec: &Spec,
+        parts: &[&Part],
+        vary: impl Fn(&Part) -> bool,
+    ) -> Vec<Vec<f64>> {
+        let nominal: Vec<f64> = parts.iter().map(|p| p.value).collect();
         if !spec.worst_case() {
-            return vec![parts.iter().map(|p| p.value).collect()];
+            return vec![nominal];
         }
-        let n = parts.len();
-        (0..1usize << n)
+        let varied: Vec<usize> = (0..parts.len()).filter(|&i| vary(parts[i])).collect();
+        (0..1usize << varied.len())
             .map(|mask| {
-                parts
-                    .iter()
-                    .enumerate()
-                    .map(|(i, p)| p.at(mask >> i & 1 == 1))
-                    .collect()
+                let mut v = nominal.clone();
+                for (bit, &i) in varied.iter().enumerate() {
+                    v[i] = parts[i].at(mask >> bit & 1 == 1);
+                }
+                v
             })
             .collect()
     }

@@ -387,4 +387,48 @@ impl Stage for NonInverting {
             _ => Some(0.0),
         }
     }
+
+    /// The drawing above: c_in from the source to + with the divider, r_fb from the output
+    /// to −, r_g and c_g from − to ground, c_out to the load.
+    fn spice_elements(&self) -> &'static [super::SpiceElement] {
+        use super::{Node::*, SpiceElement as E};
+        const ELEMENTS: &[E] = &[
+            E {
+                slot: C_IN,
+                a: Input,
+                b: PlusInput,
+            },
+            E {
+                slot: R_BIAS_HI,
+                a: Supply,
+                b: PlusInput,
+            },
+            E {
+                slot: R_BIAS_LO,
+                a: PlusInput,
+                b: Ground,
+            },
+            E {
+                slot: R_FB,
+                a: MinusInput,
+                b: AmpOut,
+            },
+            E {
+                slot: R_G,
+                a: MinusInput,
+                b: Internal("n_g"),
+            },
+            E {
+                slot: C_G,
+                a: Internal("n_g"),
+                b: Ground,
+            },
+            E {
+                slot: C_OUT,
+                a: AmpOut,
+                b: Out,
+            },
+        ];
+        ELEMENTS
+    }
 }
