@@ -32,7 +32,7 @@ pub fn brute_force(req: &Request) -> Result<Outcome, SearchError> {
     Ok(Outcome {
         builds: top.into_vec(),
         stats: Stats {
-            candidates: cands.iter().map(Vec::len).collect(),
+            candidates: cands.iter().map(|c| c.len()).collect(),
             nodes: evaluated,
             evaluated,
         },

@@ -11,13 +11,17 @@
 
 pub mod brute;
 pub mod diagnose;
+pub mod groups;
 
 use crate::analysis::{self, Evaluation};
 use crate::build::{Build, LineKey, Part};
 use crate::spec::Spec;
 use crate::stage::Stage;
 use crate::stock::Stock;
+use crate::stock::inventory::PartKind;
+use groups::{GroupList, PairWalk, MAX_GROUP_SLOTS};
 use std::collections::HashMap;
+use std::sync::Arc;
 
 /// More tuples than this in one group would take too long to sort and too much memory.
 pub const MAX_GROUP_TUPLES: usize = 40_000_000;
@@ -75,20 +79,21 @@ pub struct Request<'a> {
     pub top: usize,
 }
 
-/// The candidates of every slot: the stock's realisations, or the locked part alone.
-pub fn slot_candidates(req: &Request) -> Result<Vec<Vec<Part>>, SearchError> {
-    let mut by_kind = HashMap::new();
+/// The candidates of every slot: the stock's realisations (one shared list per kind), or the
+/// locked part alone.
+pub fn slot_candidates(req: &Request) -> Result<Vec<Arc<Vec<Part>>>, SearchError> {
+    let mut by_kind: HashMap<PartKind, Arc<Vec<Part>>> = HashMap::new();
     req.stage
         .slots()
         .iter()
         .enumerate()
         .map(|(i, slot)| {
             if let Some((_, part)) = req.locks.iter().find(|(s, _)| *s == i) {
-                return Ok(vec![part.clone()]);
+                return Ok(Arc::new(vec![part.clone()]));
             }
             let parts = by_kind
                 .entry(slot.kind)
-                .or_insert_with(|| req.stock.candidates(slot.kind))
+                .or_insert_with(|| Arc::new(req.stock.candidates(slot.kind)))
                 .clone();
             if parts.is_empty() {
                 let (lo, hi) = req.stock.range(slot.kind);
@@ -108,10 +113,10 @@ pub fn slot_candidates(req: &Request) -> Result<Vec<Vec<Part>>, SearchError> {
         .collect()
 }
 
-fn parts_unit(kind: crate::stock::inventory::PartKind) -> crate::value::Unit {
+fn parts_unit(kind: PartKind) -> crate::value::Unit {
     match kind {
-        crate::stock::inventory::PartKind::Resistor => crate::value::Unit::Ohm,
-        crate::stock::inventory::PartKind::Capacitor => crate::value::Unit::Farad,
+        PartKind::Resistor => crate::value::Unit::Ohm,
+        PartKind::Capacitor => crate::value::Unit::Farad,
     }
 }
 
@@ -174,16 +179,10 @@ fn look_key(build: &Build) -> Vec<u64> {
     key
 }
 
-struct Group {
-    slots: &'static [usize],
-    /// (lower bound, candidate index per slot), ascending.
-    tuples: Vec<(f64, Vec<u32>)>,
-}
-
 struct Dfs<'a> {
     req: &'a Request<'a>,
-    cands: &'a [Vec<Part>],
-    groups: Vec<Group>,
+    cands: &'a [&'a [Part]],
+    groups: Vec<(&'static [usize], GroupList<'a>)>,
     rest: Vec<f64>,
     assigned: Vec<Option<&'a Part>>,
     lines: HashMap<LineKey, u32>,
@@ -194,58 +193,49 @@ struct Dfs<'a> {
 
 /// Run the exact search. `progress` is called now and then with how far the first group is.
 pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
-    let cands = slot_candidates(req)?;
+    let owned = slot_candidates(req)?;
+    let cands: Vec<&[Part]> = owned.iter().map(|c| c.as_slice()).collect();
     let spec = req.spec;
     let stage = req.stage;
     let n = stage.slots().len();
     let mut groups = Vec::new();
-    for &slots in stage.groups() {
-        let sizes: Vec<usize> = slots.iter().map(|&s| cands[s].len()).collect();
-        let total = sizes.iter().try_fold(1usize, |a, &b| a.checked_mul(b));
-        match total {
-            Some(t) if t <= MAX_GROUP_TUPLES => {}
-            _ => {
-                return Err(SearchError::TooLarge {
-                    slots: slots
-                        .iter()
-                        .map(|&s| stage.slots()[s].name)
-                        .collect::<Vec<_>>()
-                        .join("+"),
-                    tuples: total.unwrap_or(usize::MAX),
-                })
-            }
+    for (g, &slots) in stage.groups().iter().enumerate() {
+        let names = || {
+            slots
+                .iter()
+                .map(|&s| stage.slots()[s].name)
+                .collect::<Vec<_>>()
+                .join("+")
+        };
+        if slots.len() > MAX_GROUP_SLOTS {
+            return Err(SearchError::TooLarge {
+                slots: names(),
+                tuples: usize::MAX,
+            });
         }
-        let mut tuples = Vec::new();
-        let mut idx = vec![0u32; slots.len()];
-        let mut parts: Vec<Option<&Part>> = vec![None; n];
-        'product: loop {
-            for (k, &s) in slots.iter().enumerate() {
-                parts[s] = Some(&cands[s][idx[k] as usize]);
-            }
-            let g = groups.len();
-            if let Some(base) = stage.group_base(spec, g, &parts) {
-                let own: f64 = slots
+        let list = match stage.pair_plan(spec, g).filter(|_| slots.len() == 2) {
+            Some(plan) => GroupList::Lazy(Box::new(PairWalk::new(spec, stage, g, plan, &cands))),
+            None => {
+                let total = slots
                     .iter()
-                    .map(|&s| analysis::slot_points(spec, parts[s].unwrap_or(&cands[s][0])))
-                    .sum();
-                tuples.push((base + own, idx.clone()));
-            }
-            // Odometer over the group's slots.
-            for k in 0..slots.len() {
-                idx[k] += 1;
-                if (idx[k] as usize) < sizes[k] {
-                    continue 'product;
+                    .try_fold(1usize, |a, &s| a.checked_mul(cands[s].len()));
+                match total {
+                    Some(t) if t <= MAX_GROUP_TUPLES => {}
+                    _ => {
+                        return Err(SearchError::TooLarge {
+                            slots: names(),
+                            tuples: total.unwrap_or(usize::MAX),
+                        })
+                    }
                 }
-                idx[k] = 0;
+                GroupList::Sorted(groups::product(spec, stage, g, slots, &cands))
             }
-            break;
-        }
-        tuples.sort_by(|a, b| a.0.total_cmp(&b.0));
-        groups.push(Group { slots, tuples });
+        };
+        groups.push((slots, list));
     }
     let mut rest = vec![0.0; groups.len() + 1];
     for g in (0..groups.len()).rev() {
-        let best = groups[g].tuples.first().map_or(f64::INFINITY, |t| t.0);
+        let best = groups[g].1.get(0).map_or(f64::INFINITY, |t| t.0);
         rest[g] = rest[g + 1] + best;
     }
     let mut dfs = Dfs {
@@ -257,7 +247,7 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
         lines: HashMap::new(),
         top: TopN::new(req.top),
         stats: Stats {
-            candidates: cands.iter().map(Vec::len).collect(),
+            candidates: cands.iter().map(|c| c.len()).collect(),
             ..Stats::default()
         },
         progress,
@@ -279,23 +269,23 @@ impl<'a> Dfs<'a> {
             self.leaf(acc);
             return;
         }
-        let slots = self.groups[g].slots;
+        let slots = self.groups[g].0;
         let rest_after = self.rest[g + 1];
-        let count = self.groups[g].tuples.len();
-        for t in 0..count {
-            let base = self.groups[g].tuples[t].0;
+        let total: usize = slots.iter().map(|&s| self.cands[s].len()).product();
+        let mut t = 0;
+        while let Some((base, idx)) = self.groups[g].1.get(t) {
+            t += 1;
             if acc + base + rest_after >= self.top.bound() {
                 break;
             }
             if g == 0 && t % 256 == 0 {
                 (self.progress)(Progress {
-                    done: t,
-                    total: count,
+                    done: t.min(total),
+                    total,
                 });
             }
             self.stats.nodes += 1;
             let cands = self.cands;
-            let idx = self.groups[g].tuples[t].1.clone();
             for (k, &s) in slots.iter().enumerate() {
                 self.assigned[s] = Some(&cands[s][idx[k] as usize]);
             }
@@ -319,10 +309,7 @@ impl<'a> Dfs<'a> {
             }
         }
         if g == 0 {
-            (self.progress)(Progress {
-                done: count,
-                total: count,
-            });
+            (self.progress)(Progress { done: total, total });
         }
     }
 

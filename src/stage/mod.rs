@@ -237,6 +237,26 @@ pub trait Stage: Send + Sync {
     /// added by the writer; the stage only wires its slots, so its netlist cannot drift from
     /// its equations without the ngspice test (tests/ngspice.rs) noticing.
     fn spice_elements(&self) -> &'static [SpiceElement];
+
+    /// For a two-slot group, how to enumerate it lazily instead of as a full product (the
+    /// search then visits pairs near the target first). `None`: full product.
+    fn pair_plan<'s>(&self, _spec: &'s Spec, _g: usize) -> Option<PairPlan<'s>> {
+        None
+    }
+}
+
+/// Lazy enumeration of a two-slot group: for each `outer` candidate the `inner` value it wants,
+/// and a lower bound of the group's stage share that grows as the inner value moves away from
+/// that target on either side.
+pub struct PairPlan<'s> {
+    pub outer: usize,
+    pub inner: usize,
+    /// The inner value the outer part wants; `None` when the outer part alone is infeasible.
+    pub target: Box<dyn Fn(&Part) -> Option<f64> + 's>,
+    /// Lower bound of `group_base` minus the slot points, for an inner value: nondecreasing
+    /// moving away from the target on each side; `None` when this value and every value
+    /// farther out on that side are infeasible.
+    pub bound: Box<dyn Fn(&Part, f64) -> Option<f64> + 's>,
 }
 
 /// The stage for a kind.
