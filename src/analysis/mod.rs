@@ -5,7 +5,12 @@
 //! tolerance (all 2^n corners of the tolerance box) and each figure takes its worst corner;
 //! the op-amp's bias current, offset current and offset voltage take both signs.
 
+pub mod budget;
+pub mod noise;
 pub mod response;
+#[cfg(test)]
+mod textbook_checks;
+pub mod yield_mc;
 
 use crate::build::{Build, Part};
 use crate::spec::Spec;

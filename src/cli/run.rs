@@ -278,6 +278,15 @@ fn pick(
     if let Some(b) = bar.take() {
         b.finish_and_clear();
     }
+    if std::env::var_os("STOCKFIT_STATS").is_some() {
+        eprintln!(
+            "search: {:?} candidates per slot, {} nodes, {} builds evaluated, {:.3} s",
+            outcome.stats.candidates,
+            outcome.stats.nodes,
+            outcome.stats.evaluated,
+            started.elapsed().as_secs_f64()
+        );
+    }
     let style = style();
     if outcome.builds.is_empty() {
         let d = diagnose::diagnose(&req).map_err(Failure::input)?;

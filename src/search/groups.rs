@@ -137,13 +137,19 @@ impl<'a> PairWalk<'a> {
     ) -> PairWalk<'a> {
         let outer = cands[plan.outer];
         let inner = cands[plan.inner];
-        let outer_points: Vec<f64> = outer.iter().map(|p| analysis::slot_points(spec, p)).collect();
+        let outer_points: Vec<f64> = outer
+            .iter()
+            .map(|p| analysis::slot_points(spec, p))
+            .collect();
         // Group the inner candidates by their slot points (exact bits): within a class the
         // key depends on the value alone, so each walk outward is monotone.
         let mut classes: Vec<Class> = Vec::new();
         for (i, part) in inner.iter().enumerate() {
             let pts = analysis::slot_points(spec, part);
-            let c = match classes.iter().position(|c| c.points.to_bits() == pts.to_bits()) {
+            let c = match classes
+                .iter()
+                .position(|c| c.points.to_bits() == pts.to_bits())
+            {
                 Some(c) => c,
                 None => {
                     classes.push(Class {
@@ -226,7 +232,11 @@ impl<'a> PairWalk<'a> {
             let i = self.classes[c].members[pos];
             self.parts[self.plan.outer] = Some(&self.outer[o]);
             self.parts[self.plan.inner] = Some(&self.inner[i as usize]);
-            if self.stage.group_base(self.spec, self.g, &self.parts).is_some() {
+            if self
+                .stage
+                .group_base(self.spec, self.g, &self.parts)
+                .is_some()
+            {
                 let mut tuple: Tuple = [0; MAX_GROUP_SLOTS];
                 let slots = self.stage.groups()[self.g];
                 for (k, &s) in slots.iter().enumerate() {

@@ -13,7 +13,7 @@
 //! bias-current compensation asks R_bias_hi ∥ R_bias_lo = R_fb (the DC resistance at −).
 
 use super::common::{self, end, SLACK};
-use super::{CapBias, DcErrors, DcPoint, Group, Network, OpAmp, SlotDef, Stage};
+use super::{plans, CapBias, DcErrors, DcPoint, Group, Network, OpAmp, PairPlan, SlotDef, Stage};
 use crate::build::Part;
 use crate::spec::{Spec, StageKind};
 use crate::stock::inventory::PartKind;
@@ -220,6 +220,24 @@ impl Stage for Inverting {
 
     fn groups(&self) -> &'static [Group] {
         GROUPS
+    }
+
+    fn pair_plan<'s>(&self, spec: &'s Spec, g: usize) -> Option<PairPlan<'s>> {
+        match g {
+            0 => Some(plans::gain(
+                spec,
+                R_IN,
+                R_FB,
+                spec.source_resistance,
+                0.0,
+                move |r_in| {
+                    spec.input_resistance_min
+                        .is_none_or(|min| end(spec, r_in, false) >= min * (1.0 - SLACK))
+                },
+            )),
+            1 => Some(plans::divider(spec, R_BIAS_HI, R_BIAS_LO, None)),
+            _ => None,
+        }
     }
 
     fn group_base(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {

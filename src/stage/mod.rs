@@ -245,6 +245,11 @@ pub trait Stage: Send + Sync {
     }
 }
 
+/// The inner value an outer part wants (see [`PairPlan`]).
+pub type TargetFn<'s> = Box<dyn Fn(&Part) -> Option<f64> + 's>;
+/// Lower bound for an inner value next to an outer part (see [`PairPlan`]).
+pub type BoundFn<'s> = Box<dyn Fn(&Part, f64) -> Option<f64> + 's>;
+
 /// Lazy enumeration of a two-slot group: for each `outer` candidate the `inner` value it wants,
 /// and a lower bound of the group's stage share that grows as the inner value moves away from
 /// that target on either side.
@@ -252,11 +257,11 @@ pub struct PairPlan<'s> {
     pub outer: usize,
     pub inner: usize,
     /// The inner value the outer part wants; `None` when the outer part alone is infeasible.
-    pub target: Box<dyn Fn(&Part) -> Option<f64> + 's>,
+    pub target: TargetFn<'s>,
     /// Lower bound of `group_base` minus the slot points, for an inner value: nondecreasing
     /// moving away from the target on each side; `None` when this value and every value
     /// farther out on that side are infeasible.
-    pub bound: Box<dyn Fn(&Part, f64) -> Option<f64> + 's>,
+    pub bound: BoundFn<'s>,
 }
 
 /// The stage for a kind.
@@ -460,5 +465,85 @@ pub fn common_corner_target(spec: &Spec, n: usize) -> Option<f64> {
         (Some(a), None) => Some(a),
         (None, Some(b)) => Some(b),
         (None, None) => Some(f / 10.0),
+    }
+}
+
+/// Lazy plans shared by the single-supply stages.
+pub(crate) mod plans {
+    use super::common::{self, SLACK};
+    use super::PairPlan;
+    use crate::spec::Spec;
+
+    /// The bias divider: walk `lo` outward from the value that puts the divider exactly on the
+    /// bias target, V_s·R_lo/(R_hi + R_lo) = V_t. The bound is the ratio part of the offset
+    /// goal, monotone in R_lo on each side; past a nominal divider voltage that already leaves
+    /// too little swing, every farther value fails too (worst case ≤ nominal). With
+    /// `rp_min`, values below the target whose nominal R_hi ∥ R_lo is too small end that side
+    /// (R_p grows with R_lo).
+    pub fn divider<'s>(spec: &'s Spec, hi: usize, lo: usize, rp_min: Option<f64>) -> PairPlan<'s> {
+        let k = spec.bias_target() / spec.supply;
+        let target = move |r_hi: f64| r_hi * k / (1.0 - k);
+        PairPlan {
+            outer: hi,
+            inner: lo,
+            target: Box::new(move |p| Some(target(p.value))),
+            bound: Box::new(move |p, r_lo| {
+                let v_div = spec.supply * r_lo / (p.value + r_lo);
+                if spec.output_peak.is_some()
+                    && !common::swing_ok(spec, common::swing(spec, v_div, v_div), 1.0)
+                {
+                    return None;
+                }
+                if let Some(min) = rp_min {
+                    if r_lo < target(p.value)
+                        && common::parallel(p.value, r_lo) < min * (1.0 - SLACK)
+                    {
+                        return None;
+                    }
+                }
+                // divider_error = |V_s·x − V_t| + (I_os/2)·R_hi·x with x = R_lo/(R_hi + R_lo):
+                // linear in x on each side of the target, so it grows outward on both sides
+                // whenever (I_os/2)·R_hi < V_s; otherwise the ratio part alone is the bound.
+                let ios_half = spec.amplifier.input_offset_current / 2.0;
+                let err = if ios_half * p.value < spec.supply {
+                    common::divider_error(spec, p.value, r_lo)
+                } else {
+                    (v_div - spec.bias_target()).abs()
+                };
+                Some(common::offset_points(spec, err))
+            }),
+        }
+    }
+
+    /// A gain pair whose nominal |gain| is `inner / (offset + outer) + plus` (inverting:
+    /// R_fb/(R_s + R_in); non-inverting: 1 + R_fb/R_g): walk `inner` outward from the value
+    /// that gives the target gain. The bound is the gain goal itself (monotone in the inner
+    /// value on each side); past the tolerance window at nominal, every farther value fails.
+    pub fn gain<'s>(
+        spec: &'s Spec,
+        outer: usize,
+        inner: usize,
+        offset: f64,
+        plus: f64,
+        outer_ok: impl Fn(&crate::build::Part) -> bool + 's,
+    ) -> PairPlan<'s> {
+        let g = spec.gain.abs();
+        PairPlan {
+            outer,
+            inner,
+            target: Box::new(move |p| {
+                outer_ok(p).then(|| (g - plus).max(0.0) * (offset + p.value))
+            }),
+            bound: Box::new(move |p, v| {
+                let gain = plus + v / (offset + p.value);
+                if let Some(t) = spec.gain_tolerance {
+                    if gain < g * (1.0 - t) * (1.0 - SLACK) || gain > g * (1.0 + t) * (1.0 + SLACK)
+                    {
+                        return None;
+                    }
+                }
+                Some(common::gain_points(spec, gain.copysign(spec.gain)))
+            }),
+        }
     }
 }

@@ -13,7 +13,7 @@
 //! resistance at − is R_fb, so compensation asks R_p = R_fb.
 
 use super::common::{self, end, SLACK};
-use super::{CapBias, DcErrors, DcPoint, Group, Network, OpAmp, SlotDef, Stage};
+use super::{plans, CapBias, DcErrors, DcPoint, Group, Network, OpAmp, PairPlan, SlotDef, Stage};
 use crate::build::Part;
 use crate::spec::{Spec, StageKind};
 use crate::stock::inventory::PartKind;
@@ -289,6 +289,23 @@ impl Stage for NonInverting {
 
     fn groups(&self) -> &'static [Group] {
         GROUPS
+    }
+
+    fn pair_plan<'s>(&self, spec: &'s Spec, g: usize) -> Option<PairPlan<'s>> {
+        match g {
+            // With a source resistance the divider attenuates the gain, which group 0 cannot
+            // see: enumerate the full product there.
+            0 if spec.source_resistance == 0.0 => {
+                Some(plans::gain(spec, R_G, R_FB, 0.0, 1.0, |_| true))
+            }
+            1 => Some(plans::divider(
+                spec,
+                R_BIAS_HI,
+                R_BIAS_LO,
+                spec.input_resistance_min,
+            )),
+            _ => None,
+        }
     }
 
     fn group_base(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
