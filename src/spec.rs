@@ -98,6 +98,10 @@ pub struct Amplifier {
     pub input_offset_voltage: f64,
     /// Slew rate, V/s.
     pub slew_rate: Option<f64>,
+    /// Input voltage noise density, V/√Hz (white).
+    pub noise_voltage: Option<f64>,
+    /// Input current noise density, A/√Hz (white).
+    pub noise_current: Option<f64>,
 }
 
 /// Weights of the ranking terms (points). See README "Goals".
@@ -146,6 +150,8 @@ pub struct StockSpec {
     /// Tolerance of series capacitors.
     pub capacitor_tolerance: f64,
     pub combine: Combine,
+    /// How Monte Carlo draws a part inside its tolerance.
+    pub distribution: crate::analysis::yield_mc::Distribution,
 }
 
 /// A slot fixed to a value (already on the board).
@@ -264,6 +270,8 @@ const AMPLIFIER_KEYS: &[&str] = &[
     "input_offset_current",
     "input_offset_voltage",
     "slew_rate",
+    "noise_voltage",
+    "noise_current",
 ];
 const STOCK_KEYS: &[&str] = &[
     "resistors",
@@ -273,6 +281,7 @@ const STOCK_KEYS: &[&str] = &[
     "resistor_tolerance",
     "capacitor_tolerance",
     "combine",
+    "distribution",
 ];
 const GOAL_KEYS: &[&str] = &[
     "gain_error",
@@ -738,6 +747,12 @@ impl Spec {
                 .map(f64::abs)
                 .unwrap_or(0.0),
             slew_rate: r.positive(a, amp_t, "slew_rate", Unit::VoltPerSecond),
+            noise_voltage: r
+                .quantity(a, amp_t, "noise_voltage", Unit::VoltPerRootHz)
+                .map(f64::abs),
+            noise_current: r
+                .quantity(a, amp_t, "noise_current", Unit::AmpPerRootHz)
+                .map(f64::abs),
         };
 
         let st = "stock";
@@ -784,6 +799,18 @@ impl Spec {
                 );
             }
         }
+        let distribution = match r.text(st, stock_t, "distribution").as_deref() {
+            None | Some("uniform") => crate::analysis::yield_mc::Distribution::Uniform,
+            Some("normal") => crate::analysis::yield_mc::Distribution::Normal,
+            Some(other) => {
+                r.error(
+                    st,
+                    Some("distribution"),
+                    format!("found {other:?}, expected \"uniform\" or \"normal\""),
+                );
+                crate::analysis::yield_mc::Distribution::Uniform
+            }
+        };
         let combine = match r.text(st, stock_t, "combine") {
             None => Combine::Single,
             Some(c) => Combine::parse(&c).unwrap_or_else(|| {
@@ -946,6 +973,7 @@ impl Spec {
                 resistor_tolerance,
                 capacitor_tolerance,
                 combine,
+                distribution,
             },
             goals,
             locks,

@@ -158,6 +158,31 @@ pub struct Evaluation {
     /// The ranking objective (lower is better).
     pub score: f64,
     pub pass: bool,
+    /// Monte Carlo yield, for the builds that are reported (see [`complete`]).
+    #[serde(rename = "yield", skip_serializing_if = "Option::is_none")]
+    pub yield_report: Option<yield_mc::YieldReport>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub noise: Option<noise::NoiseReport>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub dc_budget: Option<budget::DcBudget>,
+}
+
+/// Add what is too slow for every candidate but wanted for a reported build: noise over the
+/// band, the output DC budget by cause, and (with options) the Monte Carlo yield.
+pub fn complete(
+    spec: &Spec,
+    stage: &dyn Stage,
+    build: &Build,
+    evaluation: &mut Evaluation,
+    yield_options: Option<&yield_mc::YieldOptions>,
+) {
+    let a = &spec.amplifier;
+    let inputs = noise::NoiseInputs::new(a.noise_voltage.unwrap_or(0.0), a.noise_current.unwrap_or(0.0));
+    evaluation.noise = Some(noise::noise(&inputs, stage, spec, &build.values()));
+    evaluation.dc_budget = Some(budget::dc_budget(spec, stage, build));
+    evaluation.yield_report = yield_options
+        .filter(|o| o.samples > 0)
+        .map(|o| yield_mc::monte_carlo(spec, stage, build, o));
 }
 
 /// Generic per-slot share of the objective: pieces, capacitance and cost.
@@ -353,6 +378,9 @@ pub fn evaluate(
         caps,
         power,
         pass,
+        yield_report: None,
+        noise: None,
+        dc_budget: None,
     }
 }
 

@@ -24,9 +24,29 @@ pub struct Output {
     /// FILE: a plain circuit for ngspice, to `.include` from a deck that adds the analyses.
     #[arg(long, value_name = "FILE")]
     pub spice: Option<PathBuf>,
+    /// Write the frequency-response plot (gain and phase, SVG) of the best build (`pick`) or
+    /// the checked build (`check`) to FILE.
+    #[arg(long, value_name = "FILE.svg")]
+    pub plot: Option<PathBuf>,
+    /// Write the schematic (SVG) of that build, with designators, values and polarity, to FILE.
+    #[arg(long, value_name = "FILE.svg")]
+    pub schematic: Option<PathBuf>,
+    /// Write that build's bill of materials (CSV, one row per stock line to fetch) to FILE.
+    #[arg(long, value_name = "FILE.csv")]
+    pub bom: Option<PathBuf>,
+    /// Write a one-page, self-contained HTML report (spec, builds, checks, plot, schematic,
+    /// BOM, cautions) to FILE.
+    #[arg(long, value_name = "FILE.html")]
+    pub report: Option<PathBuf>,
     /// No progress bar.
     #[arg(long, short)]
     pub quiet: bool,
+    /// Monte Carlo samples per reported build (0: no yield).
+    #[arg(long = "yield", value_name = "N", default_value_t = 10_000)]
+    pub yield_samples: usize,
+    /// Seed of the Monte Carlo draws (the same seed gives the same yield).
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
 }
 
 #[derive(Debug, Subcommand)]
@@ -120,6 +140,44 @@ mod tests {
         match a.command {
             Command::Check { output, .. } => {
                 assert_eq!(output.spice, Some(PathBuf::from("b.cir")));
+            }
+            other => panic!("{other:?}"),
+        }
+    }
+
+    #[test]
+    fn report_files_on_pick_and_check() {
+        let a = Arguments::try_parse_from([
+            "stockfit",
+            "pick",
+            "x.toml",
+            "--plot",
+            "p.svg",
+            "--schematic",
+            "s.svg",
+            "--bom",
+            "b.csv",
+            "--report",
+            "r.html",
+        ])
+        .unwrap();
+        match a.command {
+            Command::Pick { output, .. } => {
+                assert_eq!(output.plot, Some(PathBuf::from("p.svg")));
+                assert_eq!(output.schematic, Some(PathBuf::from("s.svg")));
+                assert_eq!(output.bom, Some(PathBuf::from("b.csv")));
+                assert_eq!(output.report, Some(PathBuf::from("r.html")));
+            }
+            other => panic!("{other:?}"),
+        }
+        let a = Arguments::try_parse_from([
+            "stockfit", "check", "x.toml", "--set", "r_in=10k", "--bom", "b.csv",
+        ])
+        .unwrap();
+        match a.command {
+            Command::Check { output, .. } => {
+                assert_eq!(output.bom, Some(PathBuf::from("b.csv")));
+                assert_eq!(output.plot, None);
             }
             other => panic!("{other:?}"),
         }

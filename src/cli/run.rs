@@ -11,7 +11,7 @@ use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 use stockfit::build::Part;
-use stockfit::report::{json, spice, table};
+use stockfit::report::{bom, html, json, plot, schematic, spice, table};
 use stockfit::search::{self, diagnose, Progress, Ranked, Request};
 use stockfit::series::Series;
 use stockfit::spec::{self, SourceSpec, Spec};
@@ -175,6 +175,14 @@ fn split_entries(raw: &[String], flag: &str) -> Result<Vec<(String, String)>, Fa
         .collect()
 }
 
+fn yield_options(spec: &Spec, output: &Output) -> stockfit::analysis::yield_mc::YieldOptions {
+    stockfit::analysis::yield_mc::YieldOptions {
+        samples: output.yield_samples,
+        seed: output.seed,
+        distribution: spec.stock.distribution,
+    }
+}
+
 fn style() -> table::Style {
     let color = std::io::stdout().is_terminal() && std::env::var_os("NO_COLOR").is_none();
     table::Style { color }
@@ -206,6 +214,42 @@ fn write_spice(
             .with_context(|| format!("cannot write the SPICE netlist {}", path.display()))
             .map_err(Failure::input),
     }
+}
+
+/// Write the plot, schematic, BOM and HTML report of the best of `ranked` where `--plot`,
+/// `--schematic`, `--bom` and `--report` ask for them.
+fn write_visuals(
+    output: &Output,
+    spec: &Spec,
+    stage: &dyn Stage,
+    ranked: &[Ranked],
+    stock: &Stock,
+    stock_text: &str,
+) -> Result<(), Failure> {
+    let Some(best) = ranked.first() else {
+        return Ok(());
+    };
+    let write = |path: &Path, what: &str, text: String| {
+        std::fs::write(path, text)
+            .with_context(|| format!("cannot write the {what} {}", path.display()))
+            .map_err(Failure::input)
+    };
+    if let Some(path) = &output.plot {
+        let svg = plot::svg(spec, stage, &best.build, &best.evaluation)?;
+        write(path, "plot", svg)?;
+    }
+    if let Some(path) = &output.schematic {
+        let svg = schematic::svg(spec, stage, &best.build, &best.evaluation);
+        write(path, "schematic", svg)?;
+    }
+    if let Some(path) = &output.bom {
+        write(path, "BOM", bom::csv(stage, &best.build, Some(stock))?)?;
+    }
+    if let Some(path) = &output.report {
+        let page = html::report(spec, stage, ranked, Some(stock), stock_text)?;
+        write(path, "HTML report", page)?;
+    }
+    Ok(())
 }
 
 fn pick(
@@ -267,7 +311,7 @@ fn pick(
             b.set_position(p.done as u64);
         }
     };
-    let outcome = match search::search(&req, &mut on_progress) {
+    let mut outcome = match search::search(&req, &mut on_progress) {
         Ok(o) => o,
         Err(e @ search::SearchError::NoCandidates { .. }) => {
             eprintln!("error: {e}");
@@ -280,12 +324,17 @@ fn pick(
     }
     if std::env::var_os("STOCKFIT_STATS").is_some() {
         eprintln!(
-            "search: {:?} candidates per slot, {} nodes, {} builds evaluated, {:.3} s",
+            "search: {:?} candidates per slot, {} nodes {:?}, {} builds evaluated, {:.3} s",
             outcome.stats.candidates,
             outcome.stats.nodes,
+            outcome.stats.nodes_by_group,
             outcome.stats.evaluated,
             started.elapsed().as_secs_f64()
         );
+    }
+    let opts = yield_options(spec, output);
+    for r in &mut outcome.builds {
+        stockfit::analysis::complete(spec, stage, &r.build, &mut r.evaluation, Some(&opts));
     }
     let style = style();
     if outcome.builds.is_empty() {
@@ -302,6 +351,15 @@ fn pick(
                 path.display()
             );
         }
+        for path in [&output.plot, &output.schematic, &output.bom, &output.report]
+            .into_iter()
+            .flatten()
+        {
+            eprintln!(
+                "note: no build meets the spec, so nothing was written to {}",
+                path.display()
+            );
+        }
         return Ok(EXIT_NO_BUILD);
     }
     if !quiet_stdout {
@@ -314,6 +372,7 @@ fn pick(
     }
     write_json(output, &json::builds(spec, stage, &outcome.builds))?;
     write_spice(output, spec, stage, &outcome.builds[0].build)?;
+    write_visuals(output, spec, stage, &outcome.builds, &stock, &stock_text)?;
     Ok(EXIT_OK)
 }
 
@@ -350,7 +409,9 @@ fn check(
     let build = stockfit::Build {
         parts: parts.into_iter().flatten().collect(),
     };
-    let evaluation = stockfit::analysis::evaluate(spec, stage, &build, None);
+    let mut evaluation = stockfit::analysis::evaluate(spec, stage, &build, None);
+    let opts = yield_options(spec, output);
+    stockfit::analysis::complete(spec, stage, &build, &mut evaluation, Some(&opts));
     let pass = evaluation.pass;
     let ranked = Ranked { build, evaluation };
     if output.json.as_deref() != Some("-") {
@@ -369,6 +430,14 @@ fn check(
         &json::builds(spec, stage, std::slice::from_ref(&ranked)),
     )?;
     write_spice(output, spec, stage, &ranked.build)?;
+    write_visuals(
+        output,
+        spec,
+        stage,
+        std::slice::from_ref(&ranked),
+        &stock,
+        &stock_text,
+    )?;
     Ok(if pass { EXIT_OK } else { EXIT_NO_BUILD })
 }
 

@@ -29,6 +29,22 @@ struct BuildJson<'a> {
     checks: &'a [Check],
     capacitors: &'a [CapReport],
     power: &'a [PowerReport],
+    #[serde(rename = "yield", skip_serializing_if = "Option::is_none")]
+    yield_report: Option<YieldJson>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    noise: Option<&'a crate::analysis::noise::NoiseReport>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    dc_budget: Option<&'a crate::analysis::budget::DcBudget>,
+}
+
+/// Yield with the per-check fractions as an object keyed by check name.
+#[derive(Serialize)]
+struct YieldJson {
+    samples: usize,
+    seed: u64,
+    distribution: crate::analysis::yield_mc::Distribution,
+    overall: f64,
+    by_check: BTreeMap<String, f64>,
 }
 
 #[derive(Serialize)]
@@ -73,6 +89,15 @@ pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked]) -> String {
             checks: &r.evaluation.checks,
             capacitors: &r.evaluation.caps,
             power: &r.evaluation.power,
+            yield_report: r.evaluation.yield_report.as_ref().map(|y| YieldJson {
+                samples: y.samples,
+                seed: y.seed,
+                distribution: y.distribution,
+                overall: y.overall,
+                by_check: y.by_check.iter().cloned().collect(),
+            }),
+            noise: r.evaluation.noise.as_ref(),
+            dc_budget: r.evaluation.dc_budget.as_ref(),
         })
         .collect();
     let doc = Document {

@@ -67,6 +67,11 @@ fn opt_hz(v: Option<f64>) -> String {
     v.map_or_else(|| "—".to_string(), |f| format(f, Unit::Hertz))
 }
 
+fn yield_text(y: Option<f64>) -> String {
+    // One decimal of a percent: 10,000 samples resolve about that well.
+    y.map_or_else(|| "—".to_string(), |y| format!("{:.1} %", y * 100.0))
+}
+
 fn cost_text(c: Option<f64>) -> String {
     c.map_or_else(|| "—".to_string(), |c| format!("{c:.2}"))
 }
@@ -140,7 +145,7 @@ pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked], style: Style) -
         out,
         "{}",
         format!(
-            "{}{}{}{}{}{}{}{}{}",
+            "{}{}{}{}{}{}{}{}{}{}",
             cell("#", 4),
             cell("gain", 9),
             cell("error", 9),
@@ -150,6 +155,7 @@ pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked], style: Style) -
             cell("parts", 7),
             cell("lines", 7),
             cell("cost", 8),
+            cell("yield", 8),
         )
         .trim_end()
     );
@@ -160,7 +166,7 @@ pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked], style: Style) -
             m.gain_min.abs().max(m.gain_max.abs()),
         );
         let row = format!(
-            "{}{}{}{}{}{}{}{}{}",
+            "{}{}{}{}{}{}{}{}{}{}",
             cell(&(n + 1).to_string(), 4),
             cell(&gain_text(m.gain), 9),
             cell(&format_sig(m.gain_error, Unit::Percent, 2), 9),
@@ -170,6 +176,7 @@ pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked], style: Style) -
             cell(&m.part_count.to_string(), 7),
             cell(&m.bom_lines.to_string(), 7),
             cell(&cost_text(m.cost), 8),
+            cell(&yield_text(r.evaluation.yield_report.as_ref().map(|y| y.overall)), 8),
         );
         let _ = writeln!(out, "{}", row.trim_end());
     }
@@ -204,11 +211,12 @@ pub fn checks(evaluation: &Evaluation, style: Style) -> String {
     let _ = writeln!(out, "{}", style.bold("Checks"));
     let _ = writeln!(
         out,
-        "{}{}{}{}pass",
-        cell("requirement", 50),
-        cell("value", 13),
-        cell("limit", 14),
-        cell("margin", 12)
+        "{}{}{}{}{}pass",
+        cell("requirement", 46),
+        cell("value", 12),
+        cell("limit", 13),
+        cell("margin", 11),
+        cell("yield", 8)
     );
     for c in &evaluation.checks {
         let (v, l, m) = value_text(c);
@@ -216,13 +224,18 @@ pub fn checks(evaluation: &Evaluation, style: Style) -> String {
             Bound::Min => "≥ ",
             Bound::Max => "≤ ",
         };
+        let y = evaluation
+            .yield_report
+            .as_ref()
+            .and_then(|y| y.check(&c.name));
         let _ = writeln!(
             out,
-            "{}{}{}{}{}",
-            cell(&c.label, 50),
-            cell(&v, 13),
-            cell(&format!("{op}{l}"), 14),
-            cell(&m, 12),
+            "{}{}{}{}{}{}",
+            cell(&c.label, 46),
+            cell(&v, 12),
+            cell(&format!("{op}{l}"), 13),
+            cell(&m, 11),
+            cell(&yield_text(y), 8),
             style.pass(c.pass)
         );
     }
@@ -339,6 +352,42 @@ pub fn figures(spec: &Spec, evaluation: &Evaluation) -> String {
         format(m.swing_peak_v, Unit::Volt),
         format(m.input_range_peak_v, Unit::Volt)
     );
+    if let Some(n) = &evaluation.noise {
+        let snr = n
+            .snr_db
+            .map_or(String::new(), |s| format!(", SNR {s:.1} dB at the required peak"));
+        let _ = writeln!(
+            out,
+            "  noise over the band: {} rms at the output, {} at the input{} ({} K; {} at {})",
+            format(n.output_rms_v, Unit::Volt),
+            format(n.input_rms_v, Unit::Volt),
+            snr,
+            n.temperature_k,
+            format(n.input_density_mid, Unit::VoltPerRootHz),
+            format(n.mid_frequency_hz, Unit::Hertz)
+        );
+        let mut top: Vec<_> = n.by_source.iter().collect();
+        top.sort_by(|a, b| b.share.total_cmp(&a.share));
+        let parts: Vec<String> = top
+            .iter()
+            .take(3)
+            .map(|s| format!("{} {:.0} %", s.source, s.share * 100.0))
+            .collect();
+        let _ = writeln!(out, "    largest noise sources (power share): {}", parts.join(", "));
+    }
+    if let Some(b) = &evaluation.dc_budget {
+        let items: Vec<String> = b
+            .items
+            .iter()
+            .map(|i| format!("{} ±{}", i.cause.replace('_', " "), format(i.volts, Unit::Volt)))
+            .collect();
+        let _ = writeln!(
+            out,
+            "  output DC budget (worst case): {} — total ±{}",
+            items.join(", "),
+            format(b.total_v, Unit::Volt)
+        );
+    }
     for p in &evaluation.power {
         let rating = p.rating.map_or(String::new(), |r| {
             format!(" (rated {})", format(r, Unit::Watt))

@@ -34,6 +34,7 @@ pub fn brute_force(req: &Request) -> Result<Outcome, SearchError> {
         stats: Stats {
             candidates: cands.iter().map(|c| c.len()).collect(),
             nodes: evaluated,
+            nodes_by_group: Vec::new(),
             evaluated,
         },
     })

@@ -46,6 +46,8 @@ pub struct Progress {
 pub struct Stats {
     pub candidates: Vec<usize>,
     pub nodes: u64,
+    /// Nodes per group, to see where a search spends its time.
+    pub nodes_by_group: Vec<u64>,
     pub evaluated: u64,
 }
 
@@ -184,6 +186,9 @@ struct Dfs<'a> {
     cands: &'a [&'a [Part]],
     groups: Vec<(&'static [usize], GroupList<'a>)>,
     rest: Vec<f64>,
+    /// Per group: for one-capacitor groups, (least effective capacitance, best key of every
+    /// candidate at least that large) ascending, for the look-ahead bound.
+    cap_bounds: Vec<Option<Vec<(f64, f64)>>>,
     assigned: Vec<Option<&'a Part>>,
     lines: HashMap<LineKey, u32>,
     top: TopN,
@@ -238,11 +243,33 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
         let best = groups[g].1.get(0).map_or(f64::INFINITY, |t| t.0);
         rest[g] = rest[g + 1] + best;
     }
+    let cap_bounds: Vec<Option<Vec<(f64, f64)>>> = groups
+        .iter_mut()
+        .map(|(slots, list)| {
+            if slots.len() != 1 || stage.slots()[slots[0]].kind != PartKind::Capacitor {
+                return None;
+            }
+            let mut rows = Vec::new();
+            let mut t = 0;
+            while let Some((key, idx)) = list.get(t) {
+                let part = &cands[slots[0]][idx[0] as usize];
+                rows.push((if spec.worst_case() { part.min } else { part.value }, key));
+                t += 1;
+            }
+            rows.sort_by(|a, b| a.0.total_cmp(&b.0));
+            // Suffix minimum: the cheapest candidate among those at least this large.
+            for i in (0..rows.len().saturating_sub(1)).rev() {
+                rows[i].1 = rows[i].1.min(rows[i + 1].1);
+            }
+            Some(rows)
+        })
+        .collect();
     let mut dfs = Dfs {
         req,
         cands: &cands,
         groups,
         rest,
+        cap_bounds,
         assigned: vec![None; n],
         lines: HashMap::new(),
         top: TopN::new(req.top),
@@ -285,9 +312,24 @@ impl<'a> Dfs<'a> {
                 });
             }
             self.stats.nodes += 1;
+            if self.stats.nodes_by_group.len() <= g {
+                self.stats.nodes_by_group.resize(g + 1, 0);
+            }
+            self.stats.nodes_by_group[g] += 1;
             let cands = self.cands;
             for (k, &s) in slots.iter().enumerate() {
                 self.assigned[s] = Some(&cands[s][idx[k] as usize]);
+            }
+            if let Some(rows) = &self.cap_bounds[g] {
+                // A capacitor smaller than its network needs fails every check that follows.
+                let part = self.assigned[slots[0]].expect("assigned");
+                let eff = if spec.worst_case() { part.min } else { part.value };
+                if let Some(c) = stage.min_capacitance(spec, g, &self.assigned) {
+                    if eff < c * (1.0 - 1e-6) && !rows.is_empty() {
+                        self.assigned[slots[0]] = None;
+                        continue;
+                    }
+                }
             }
             let (fits, new_lines) = self.take(slots);
             if fits {
@@ -298,7 +340,9 @@ impl<'a> Dfs<'a> {
                         .map(|p| analysis::slot_points(spec, p))
                         .sum();
                     let score = acc + share + own + spec.goals.bom_lines * new_lines as f64;
-                    if score + rest_after < self.top.bound() {
+                    if score + rest_after < self.top.bound()
+                        && score + self.look_ahead(g) < self.top.bound()
+                    {
                         self.descend(g + 1, score);
                     }
                 }
@@ -311,6 +355,25 @@ impl<'a> Dfs<'a> {
         if g == 0 {
             (self.progress)(Progress { done: total, total });
         }
+    }
+
+    /// Lower bound of the groups after `g` given what is assigned: the static best of each,
+    /// raised for a capacitor group to the best candidate large enough for its network.
+    fn look_ahead(&self, g: usize) -> f64 {
+        let spec = self.req.spec;
+        let mut total = 0.0;
+        for h in g + 1..self.groups.len() {
+            let stat = self.rest[h] - self.rest[h + 1];
+            let mut best = stat;
+            if let Some(rows) = &self.cap_bounds[h] {
+                if let Some(c) = self.req.stage.min_capacitance(spec, h, &self.assigned) {
+                    let i = rows.partition_point(|r| r.0 < c * (1.0 - 1e-6));
+                    best = best.max(rows.get(i).map_or(f64::INFINITY, |r| r.1));
+                }
+            }
+            total += best;
+        }
+        total
     }
 
     /// Count the pieces of `slots` against the stock; returns whether they fit and how many

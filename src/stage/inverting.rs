@@ -222,6 +222,17 @@ impl Stage for Inverting {
         GROUPS
     }
 
+    fn min_capacitance(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
+        match g {
+            2 => {
+                let r = spec.source_resistance + end(spec, get(parts, R_IN)?, false);
+                super::needed_capacitance(spec, r, true)
+            }
+            3 => super::needed_capacitance(spec, spec.load, true),
+            _ => None,
+        }
+    }
+
     fn pair_plan<'s>(&self, spec: &'s Spec, g: usize) -> Option<PairPlan<'s>> {
         match g {
             0 => Some(plans::gain(
@@ -353,5 +364,78 @@ impl Stage for Inverting {
             },
         ];
         ELEMENTS
+    }
+
+    /// The drawing of the module docs: the input chain along the top, r_fb above the op-amp,
+    /// the divider below on the + input, c_out to the load on the right.
+    fn schematic_layout(&self) -> &'static super::layout::Layout {
+        use super::layout::{opamp_pins, Layout, Placed, Side, P};
+        const U: P = P(420, 200);
+        const PINS: super::layout::OpAmpPins = opamp_pins(U);
+        const LAYOUT: Layout = Layout {
+            size: (860, 510),
+            opamp: U,
+            plus_on_top: false,
+            source: P(60, 200),
+            load: P(740, 220),
+            supplies: &[P(300, 270)],
+            grounds: &[P(300, 470)],
+            wires: &[
+                &[P(60, 200), P(100, 200)],
+                &[P(200, 200), P(220, 200)],
+                &[P(320, 200), PINS.upper],
+                &[P(380, 200), P(380, 90), P(420, 90)],
+                &[P(520, 90), P(580, 90), P(580, 220)],
+                &[PINS.out, P(600, 220)],
+                &[P(700, 220), P(740, 220)],
+                &[PINS.lower, P(400, 240), P(400, 370), P(300, 370)],
+            ],
+            dots: &[P(380, 200), P(580, 220), P(300, 370)],
+            parts: &[
+                Placed {
+                    slot: R_IN,
+                    from: P(220, 200),
+                    to: P(320, 200),
+                    label: Side::Above,
+                    from_side: None,
+                },
+                Placed {
+                    slot: R_FB,
+                    from: P(420, 90),
+                    to: P(520, 90),
+                    label: Side::Above,
+                    from_side: None,
+                },
+                Placed {
+                    slot: R_BIAS_HI,
+                    from: P(300, 270),
+                    to: P(300, 370),
+                    label: Side::Left,
+                    from_side: None,
+                },
+                Placed {
+                    slot: R_BIAS_LO,
+                    from: P(300, 370),
+                    to: P(300, 470),
+                    label: Side::Left,
+                    from_side: None,
+                },
+                Placed {
+                    slot: C_IN,
+                    from: P(100, 200),
+                    to: P(200, 200),
+                    label: Side::Above,
+                    from_side: Some("source side"),
+                },
+                Placed {
+                    slot: C_OUT,
+                    from: P(600, 220),
+                    to: P(700, 220),
+                    label: Side::Above,
+                    from_side: Some("op-amp side"),
+                },
+            ],
+        };
+        &LAYOUT
     }
 }

@@ -5,6 +5,7 @@
 //! this trait; see DEVELOPERS.md, "Adding a stage".
 
 pub mod inverting;
+pub mod layout;
 pub mod non_inverting;
 
 use crate::build::Part;
@@ -238,6 +239,18 @@ pub trait Stage: Send + Sync {
     /// its equations without the ngspice test (tests/ngspice.rs) noticing.
     fn spice_elements(&self) -> &'static [SpiceElement];
 
+    /// The schematic (`report::schematic` draws it): where each slot's symbol goes and how the
+    /// wires run. A test there checks that its connections are exactly `spice_elements`.
+    fn schematic_layout(&self) -> &'static layout::Layout;
+
+    /// For a one-capacitor group whose requirements only get easier with more capacitance: the
+    /// least capacitance its part must keep at the low end of its tolerance (nominal in
+    /// nominal mode), given the parts assigned so far; `None` while unknown. The search uses
+    /// it as a look-ahead bound, so it must never exceed what the exact analysis needs.
+    fn min_capacitance(&self, _spec: &Spec, _g: usize, _parts: &[Option<&Part>]) -> Option<f64> {
+        None
+    }
+
     /// For a two-slot group, how to enumerate it lazily instead of as a full product (the
     /// search then visits pairs near the target first). `None`: full product.
     fn pair_plan<'s>(&self, _spec: &'s Spec, _g: usize) -> Option<PairPlan<'s>> {
@@ -466,6 +479,22 @@ pub fn common_corner_target(spec: &Spec, n: usize) -> Option<f64> {
         (None, Some(b)) => Some(b),
         (None, None) => Some(f / 10.0),
     }
+}
+
+/// The least capacitance a first-order coupling network against `r` (its low-end value) needs
+/// for the spec's corner and band-loss limits, each alone: C ≥ 1/(2π·R·f_c) with f_c the
+/// corner limit, or the corner that spends the whole loss budget at the band's low edge,
+/// f·√(10^(L/10) − 1) (first-order high-pass). With `loss` false only the corner limit counts.
+pub fn needed_capacitance(spec: &Spec, r: f64, loss: bool) -> Option<f64> {
+    let mut fc = f64::INFINITY;
+    if let Some(max) = spec.corner_low_max {
+        fc = fc.min(max);
+    }
+    if let (true, Some(l)) = (loss, spec.band_loss_max) {
+        fc = fc.min(spec.band.0 * (10f64.powf(l / 10.0) - 1.0).sqrt());
+    }
+    fc.is_finite()
+        .then(|| 1.0 / (2.0 * std::f64::consts::PI * r * fc))
 }
 
 /// Lazy plans shared by the single-supply stages.

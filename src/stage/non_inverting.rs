@@ -291,6 +291,39 @@ impl Stage for NonInverting {
         GROUPS
     }
 
+    fn min_capacitance(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
+        match g {
+            2 => {
+                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+                let r = spec.source_resistance + Self::rp(end(spec, hi, false), end(spec, lo, false));
+                super::needed_capacitance(spec, r, true)
+            }
+            3 => {
+                let (r_fb, r_g) = (get(parts, R_FB)?, get(parts, R_G)?);
+                let by_corner = super::needed_capacitance(spec, end(spec, r_g, false), false);
+                // The gain leg is not a plain high-pass (its zero eases the loss). With
+                // x = 1/(ωC), |G|² = ((R_g+R_fb)² + x²)/(R_g² + x²); loss ≤ L (q = 10^(L/10))
+                // solves to x² ≤ A·B·(q−1)/(A − q·B) with A = (R_g+R_fb)², B = R_g², at
+                // nominal R_fb, R_g (one vertex of the worst case, so a relaxation).
+                let by_loss = spec.band_loss_max.map(|max| {
+                    let q = 10f64.powf(max / 10.0);
+                    let (a, b) = ((r_g.value + r_fb.value).powi(2), r_g.value.powi(2));
+                    if a <= q * b {
+                        return 0.0;
+                    }
+                    let x_max = (a * b * (q - 1.0) / (a - q * b)).sqrt();
+                    1.0 / (2.0 * PI * spec.band.0 * x_max)
+                });
+                match (by_corner, by_loss) {
+                    (Some(a), Some(b)) => Some(a.max(b)),
+                    (a, b) => a.or(b),
+                }
+            }
+            4 => super::needed_capacitance(spec, spec.load, true),
+            _ => None,
+        }
+    }
+
     fn pair_plan<'s>(&self, spec: &'s Spec, g: usize) -> Option<PairPlan<'s>> {
         match g {
             // With a source resistance the divider attenuates the gain, which group 0 cannot
@@ -447,5 +480,83 @@ impl Stage for NonInverting {
             },
         ];
         ELEMENTS
+    }
+
+    /// The drawing of the module docs: the input onto the divider at the + input, r_fb below
+    /// the op-amp with the gain leg r_g + c_g under the − input, c_out to the load on the right.
+    fn schematic_layout(&self) -> &'static super::layout::Layout {
+        use super::layout::{opamp_pins, Layout, Placed, Side, P};
+        const U: P = P(420, 200);
+        const PINS: super::layout::OpAmpPins = opamp_pins(U);
+        const LAYOUT: Layout = Layout {
+            size: (860, 580),
+            opamp: U,
+            plus_on_top: true,
+            source: P(60, 200),
+            load: P(740, 220),
+            supplies: &[P(260, 100)],
+            grounds: &[P(260, 300), P(400, 530)],
+            wires: &[
+                &[P(60, 200), P(100, 200)],
+                &[P(200, 200), PINS.upper],
+                &[PINS.lower, P(400, 240), P(400, 330), P(440, 330)],
+                &[P(540, 330), P(580, 330), P(580, 220)],
+                &[PINS.out, P(600, 220)],
+                &[P(700, 220), P(740, 220)],
+            ],
+            dots: &[P(260, 200), P(400, 330), P(580, 220)],
+            parts: &[
+                Placed {
+                    slot: C_IN,
+                    from: P(100, 200),
+                    to: P(200, 200),
+                    label: Side::Above,
+                    from_side: Some("source side"),
+                },
+                Placed {
+                    slot: R_BIAS_HI,
+                    from: P(260, 100),
+                    to: P(260, 200),
+                    label: Side::Right,
+                    from_side: None,
+                },
+                Placed {
+                    slot: R_BIAS_LO,
+                    from: P(260, 200),
+                    to: P(260, 300),
+                    label: Side::Right,
+                    from_side: None,
+                },
+                Placed {
+                    slot: R_FB,
+                    from: P(440, 330),
+                    to: P(540, 330),
+                    label: Side::Below,
+                    from_side: None,
+                },
+                Placed {
+                    slot: R_G,
+                    from: P(400, 330),
+                    to: P(400, 430),
+                    label: Side::Left,
+                    from_side: None,
+                },
+                Placed {
+                    slot: C_G,
+                    from: P(400, 430),
+                    to: P(400, 530),
+                    label: Side::Left,
+                    from_side: Some("r_g side"),
+                },
+                Placed {
+                    slot: C_OUT,
+                    from: P(600, 220),
+                    to: P(700, 220),
+                    label: Side::Above,
+                    from_side: Some("op-amp side"),
+                },
+            ],
+        };
+        &LAYOUT
     }
 }

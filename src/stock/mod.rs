@@ -208,6 +208,7 @@ mod tests {
             resistor_tolerance: 0.01,
             capacitor_tolerance: 0.2,
             combine,
+            distribution: crate::analysis::yield_mc::Distribution::Uniform,
         }
     }
 
