@@ -7,8 +7,11 @@
 //! judged against the real spec — shows what else fails.
 
 use super::{search, Ranked, Request, SearchError};
-use crate::analysis;
-use crate::spec::Spec;
+use crate::analysis::{self, Check};
+use crate::build::{Build, Part};
+use crate::spec::{Combine, Spec};
+use crate::stock::inventory::PartKind;
+use crate::stock::Source;
 use crate::value::{format_sig, Unit};
 
 /// One requirement that blocks every build.
@@ -21,7 +24,31 @@ pub struct Blocker {
     pub reachable: f64,
     #[serde(skip)]
     pub unit: Unit,
+    /// The best value the stock reaches for this requirement (the build nearest to the limit,
+    /// with every other requirement kept), in the requirement's unit, where that is the same
+    /// figure the analysis checks (not for gain tolerance, slew rate or GBW).
+    pub reached: Option<f64>,
+    /// Slots whose part in that build is already the end of the stock's range.
+    pub limits: Vec<PartLimit>,
     pub message: String,
+    /// Further lines for people: which part's range blocks and what it would need.
+    pub notes: Vec<String>,
+}
+
+/// A slot whose part, in the build that comes closest to a blocking requirement, is already
+/// the largest (or smallest) value of its kind the stock offers.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct PartLimit {
+    pub slot: String,
+    pub kind: PartKind,
+    /// true: the largest value in stock; false: the smallest.
+    pub largest: bool,
+    /// That extreme value (ohm or farad).
+    pub stock_value: f64,
+    /// The value the slot would need for the requirement to pass, the other parts as they
+    /// are; `None` when changing this slot does not meet it (alone or with the other slots
+    /// at their limit, scaled together).
+    pub needed: Option<f64>,
 }
 
 #[derive(Debug, Clone)]
@@ -36,6 +63,8 @@ pub struct Diagnosis {
 /// How a requirement is dropped, tightened and loosened.
 struct Knob {
     key: &'static str,
+    /// The analysis checks (`Check::name`, by prefix) that judge this requirement.
+    checks: &'static [&'static str],
     unit: Unit,
     /// true: a larger limit is stricter (minimums); false: a smaller one is.
     larger_is_stricter: bool,
@@ -46,6 +75,7 @@ struct Knob {
 const KNOBS: &[Knob] = &[
     Knob {
         key: "stage.input_resistance_min",
+        checks: &["input_resistance"],
         unit: Unit::Ohm,
         larger_is_stricter: true,
         get: |s| s.input_resistance_min,
@@ -53,6 +83,7 @@ const KNOBS: &[Knob] = &[
     },
     Knob {
         key: "stage.gain_tolerance",
+        checks: &["gain_low", "gain_high"],
         unit: Unit::Percent,
         larger_is_stricter: false,
         get: |s| s.gain_tolerance,
@@ -60,6 +91,7 @@ const KNOBS: &[Knob] = &[
     },
     Knob {
         key: "stage.corner_low_max",
+        checks: &["corner_"],
         unit: Unit::Hertz,
         larger_is_stricter: false,
         get: |s| s.corner_low_max,
@@ -67,6 +99,7 @@ const KNOBS: &[Knob] = &[
     },
     Knob {
         key: "stage.band_loss_max",
+        checks: &["band_low_loss", "band_high_loss"],
         unit: Unit::Decibel,
         larger_is_stricter: false,
         get: |s| s.band_loss_max,
@@ -74,6 +107,7 @@ const KNOBS: &[Knob] = &[
     },
     Knob {
         key: "stage.input_peak",
+        checks: &["input_range"],
         unit: Unit::Volt,
         larger_is_stricter: true,
         get: |s| s.input_peak,
@@ -81,6 +115,7 @@ const KNOBS: &[Knob] = &[
     },
     Knob {
         key: "stage.output_peak",
+        checks: &["output_swing"],
         unit: Unit::Volt,
         larger_is_stricter: true,
         get: |s| s.output_peak,
@@ -88,6 +123,7 @@ const KNOBS: &[Knob] = &[
     },
     Knob {
         key: "amplifier.slew_rate",
+        checks: &["slew_rate"],
         unit: Unit::VoltPerSecond,
         larger_is_stricter: false,
         get: |s| s.amplifier.slew_rate,
@@ -95,6 +131,7 @@ const KNOBS: &[Knob] = &[
     },
     Knob {
         key: "amplifier.gbw",
+        checks: &["band_high_loss", "high_corner"],
         unit: Unit::Hertz,
         larger_is_stricter: false,
         get: |s| s.amplifier.gbw,
@@ -109,6 +146,305 @@ fn feasible(req: &Request, spec: &Spec) -> Result<bool, SearchError> {
         ..*req
     };
     Ok(!search(&r, &mut |_| {})?.builds.is_empty())
+}
+
+/// The blocker for `knob`, whose tightest feasible limit is `good`; `relaxed` is the spec
+/// with that limit.
+fn explain(
+    req: &Request,
+    knob: &Knob,
+    limit: f64,
+    good: f64,
+    relaxed: &Spec,
+) -> Result<Blocker, SearchError> {
+    let amplifier = knob.key.starts_with("amplifier");
+    let name = knob.key.rsplit('.').next().unwrap_or(knob.key);
+    let f = |v: f64| format_sig(v, knob.unit, 3);
+    // The build that comes closest, judged against the real spec.
+    let r = Request {
+        spec: relaxed,
+        top: 1,
+        ..*req
+    };
+    let closest = search(&r, &mut |_| {})?.builds.into_iter().next();
+    let mut reached = None;
+    let mut limits = Vec::new();
+    if let Some(best) = &closest {
+        let evaluation = analysis::evaluate(req.spec, req.stage, &best.build, None);
+        let judged: Vec<&Check> = knob_checks(knob, &evaluation.checks).collect();
+        // Same figure as the limit: the check's value is what the stock reaches.
+        let comparable = !amplifier && knob.key != "stage.gain_tolerance";
+        if comparable {
+            reached = judged
+                .iter()
+                .filter(|c| !c.pass)
+                .min_by(|a, b| a.margin.total_cmp(&b.margin))
+                .map(|c| c.value);
+        }
+        if !amplifier {
+            limits = part_limits(req, knob, &best.build);
+        }
+    }
+
+    let relaxation = if amplifier {
+        format!("an amplifier with {name} ≥ {}", f(good))
+    } else if knob.larger_is_stricter {
+        format!("{name} ≤ {}", f(good))
+    } else {
+        format!("{name} ≥ {}", f(good))
+    };
+    let message = match reached {
+        Some(v) => format!(
+            "{} {} cannot be met with this stock: the best build reaches {} (short by {}); a build exists with {relaxation}",
+            knob.key,
+            f(limit),
+            f(v),
+            f((v - limit).abs())
+        ),
+        None => format!(
+            "{} {} cannot be met with this stock; a build exists with {relaxation}",
+            knob.key,
+            f(limit)
+        ),
+    };
+    let notes = limit_notes(req, &limits);
+    Ok(Blocker {
+        key: knob.key.to_string(),
+        limit,
+        reachable: good,
+        unit: knob.unit,
+        reached,
+        limits,
+        message,
+        notes,
+    })
+}
+
+fn knob_checks<'c>(knob: &'c Knob, checks: &'c [Check]) -> impl Iterator<Item = &'c Check> {
+    checks
+        .iter()
+        .filter(|c| knob.checks.iter().any(|p| c.name.starts_with(p)))
+}
+
+/// The largest and smallest value the search may use for a kind (pairs included).
+fn extremes(req: &Request, kind: PartKind) -> Option<(f64, f64)> {
+    let candidates = req.stock.candidates(kind);
+    let lo = candidates.first()?.value;
+    let hi = candidates.last()?.value;
+    Some((lo, hi))
+}
+
+fn same(a: f64, b: f64) -> bool {
+    (a - b).abs() <= 1e-9 * a.abs().max(b.abs())
+}
+
+/// Slots of `build` whose part is at an end of the stock's range, and what each would need.
+fn part_limits(req: &Request, knob: &Knob, build: &Build) -> Vec<PartLimit> {
+    let slots = req.stage.slots();
+    let mut limits: Vec<PartLimit> = Vec::new();
+    for (i, part) in build.parts.iter().enumerate() {
+        if part.locked || i >= slots.len() {
+            continue;
+        }
+        let Some((lo, hi)) = extremes(req, part.kind) else {
+            continue;
+        };
+        for (largest, end) in [(true, hi), (false, lo)] {
+            if same(part.value, end) {
+                limits.push(PartLimit {
+                    slot: slots[i].name.to_string(),
+                    kind: part.kind,
+                    largest,
+                    stock_value: end,
+                    needed: None,
+                });
+            }
+        }
+    }
+    if limits.is_empty() {
+        return limits;
+    }
+    let index = |slot: &str| slots.iter().position(|s| s.name == slot);
+    // Each slot alone first; then every slot at the same end, scaled together.
+    let mut any = false;
+    for l in limits.iter_mut() {
+        if let Some(i) = index(&l.slot) {
+            let scale = |b: &mut Build, k: f64| rescale(&mut b.parts[i], k);
+            if let Some(k) = needed_factor(req, knob, build, l.largest, &scale) {
+                l.needed = Some(l.stock_value * k);
+                any = true;
+            }
+        }
+    }
+    if !any {
+        for largest in [true, false] {
+            let mut group: Vec<usize> = limits
+                .iter()
+                .filter(|l| l.largest == largest)
+                .filter_map(|l| index(&l.slot))
+                .collect();
+            if group.len() < 2 {
+                continue;
+            }
+            let Some(mut k) = group_factor(req, knob, build, largest, &group) else {
+                continue;
+            };
+            // Leave out the slots that do not matter (a feedback pair at the stock's end does
+            // nothing for the input resistance), so the note names only the ones that do.
+            let mut j = 0;
+            while j < group.len() && group.len() > 1 {
+                let mut fewer = group.clone();
+                fewer.remove(j);
+                match group_factor(req, knob, build, largest, &fewer) {
+                    Some(k2) if (k2 / k).ln().abs() < 0.01 => {
+                        group = fewer;
+                        k = k2;
+                    }
+                    _ => j += 1,
+                }
+            }
+            for l in limits.iter_mut().filter(|l| l.largest == largest) {
+                if index(&l.slot).is_some_and(|i| group.contains(&i)) {
+                    l.needed = Some(l.stock_value * k);
+                }
+            }
+        }
+    }
+    limits
+}
+
+/// [`needed_factor`] with every slot of `group` scaled by the same factor.
+fn group_factor(
+    req: &Request,
+    knob: &Knob,
+    build: &Build,
+    up: bool,
+    group: &[usize],
+) -> Option<f64> {
+    let scale = |b: &mut Build, k: f64| {
+        for &i in group {
+            rescale(&mut b.parts[i], k);
+        }
+    };
+    needed_factor(req, knob, build, up, &scale)
+}
+
+/// A hypothetical part `k` times the value of `part`, same tolerance.
+fn rescale(part: &mut Part, k: f64) {
+    *part = Part::locked(part.kind, part.value * k, part.tolerance());
+}
+
+/// The smallest factor beyond the stock's end (> 1 when `up`, else < 1) that makes every check
+/// of the requirement pass, the rest of the build kept; bisection in log scale, monotone in the
+/// part's value for every requirement here (larger R or C: larger input resistance, lower
+/// corners, less loss).
+fn needed_factor(
+    req: &Request,
+    knob: &Knob,
+    build: &Build,
+    up: bool,
+    scale: &dyn Fn(&mut Build, f64),
+) -> Option<f64> {
+    let passes = |k: f64| {
+        let mut b = build.clone();
+        scale(&mut b, k);
+        let e = analysis::evaluate(req.spec, req.stage, &b, None);
+        let mut judged = knob_checks(knob, &e.checks).peekable();
+        judged.peek().is_some() && judged.all(|c| c.pass)
+    };
+    let step: f64 = if up { 2.0 } else { 0.5 };
+    let (mut bad, mut good) = (1.0, 1.0);
+    let mut found = false;
+    // Up to 2^24 (seven decades) past the stock's end: beyond that no part exists anyway.
+    for _ in 0..24 {
+        good *= step;
+        if passes(good) {
+            found = true;
+            break;
+        }
+        bad = good;
+    }
+    if !found {
+        return None;
+    }
+    for _ in 0..30 {
+        let mid = (bad * good).sqrt();
+        if passes(mid) {
+            good = mid;
+        } else {
+            bad = mid;
+        }
+    }
+    Some(good)
+}
+
+/// "needs c_in ≥ 150 µF; the largest capacitor in stock is 47 µF".
+fn limit_notes(req: &Request, limits: &[PartLimit]) -> Vec<String> {
+    let mut notes = Vec::new();
+    for largest in [true, false] {
+        let group: Vec<&PartLimit> = limits.iter().filter(|l| l.largest == largest).collect();
+        let Some(first) = group.first() else {
+            continue;
+        };
+        let unit = match first.kind {
+            PartKind::Resistor => Unit::Ohm,
+            PartKind::Capacitor => Unit::Farad,
+        };
+        let (end, op) = if largest {
+            ("largest", "≥")
+        } else {
+            ("smallest", "≤")
+        };
+        let what = stock_words(req, first.kind, end, first.stock_value);
+        let needs: Vec<String> = group
+            .iter()
+            .filter_map(|l| {
+                l.needed
+                    .map(|n| format!("{} {op} {}", l.slot, format_sig(n, unit, 2)))
+            })
+            .collect();
+        let slots: Vec<&str> = group.iter().map(|l| l.slot.as_str()).collect();
+        if needs.is_empty() {
+            notes.push(format!(
+                "{} already {} the {what}",
+                slots.join(" and "),
+                if slots.len() == 1 { "uses" } else { "use" }
+            ));
+        } else {
+            let together = if needs.len() > 1 { " (together)" } else { "" };
+            notes.push(format!("needs {}{together}; the {what}", needs.join(" and ")));
+        }
+    }
+    notes
+}
+
+/// "largest resistor in stock is 1 MΩ", "largest capacitor in E6 within capacitor_range is
+/// 1 mF", "largest resistor or pair in stock is 2 MΩ".
+fn stock_words(req: &Request, kind: PartKind, end: &str, value: f64) -> String {
+    let unit = match kind {
+        PartKind::Resistor => Unit::Ohm,
+        PartKind::Capacitor => Unit::Farad,
+    };
+    let pair = if req.stock.combine == Combine::Single {
+        ""
+    } else {
+        " or pair"
+    };
+    let place = match req.stock.source(kind) {
+        Source::Inventory(_) => "in stock".to_string(),
+        Source::Series { series, .. } => format!(
+            "of {} within {}_range",
+            series.name(),
+            match kind {
+                PartKind::Resistor => "resistor",
+                PartKind::Capacitor => "capacitor",
+            }
+        ),
+    };
+    format!(
+        "{end} {kind}{pair} {place} is {}",
+        format_sig(value, unit, 3)
+    )
 }
 
 /// Explain an infeasible request. Runs a few dozen searches at most.
@@ -150,26 +486,8 @@ pub fn diagnose(req: &Request) -> Result<Diagnosis, SearchError> {
                 bad = mid;
             }
         }
-        let what = if knob.key.starts_with("amplifier") {
-            "an amplifier with at least"
-        } else if knob.larger_is_stricter {
-            "at most"
-        } else {
-            "at least"
-        };
-        blockers.push(Blocker {
-            key: knob.key.to_string(),
-            limit,
-            reachable: good,
-            unit: knob.unit,
-            message: format!(
-                "{} = {} cannot be met with this stock; a build exists with {} {}",
-                knob.key,
-                format_sig(limit, knob.unit, 3),
-                what,
-                format_sig(good, knob.unit, 3)
-            ),
-        });
+        (knob.set)(&mut relaxed, Some(good));
+        blockers.push(explain(req, knob, limit, good, &relaxed)?);
     }
     // The nearest build: every requirement dropped, judged against the spec.
     let mut open = req.spec.clone();

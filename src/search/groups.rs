@@ -134,12 +134,15 @@ impl<'a> PairWalk<'a> {
         g: usize,
         plan: PairPlan<'a>,
         cands: &[&'a [Part]],
+        outer_extra: Vec<f64>,
     ) -> PairWalk<'a> {
         let outer = cands[plan.outer];
         let inner = cands[plan.inner];
+        // Each outer part's own points plus any constant lower bound the caller adds for it.
         let outer_points: Vec<f64> = outer
             .iter()
-            .map(|p| analysis::slot_points(spec, p))
+            .enumerate()
+            .map(|(i, p)| analysis::slot_points(spec, p) + outer_extra.get(i).copied().unwrap_or(0.0))
             .collect();
         // Group the inner candidates by their slot points (exact bits): within a class the
         // key depends on the value alone, so each walk outward is monotone.

@@ -190,7 +190,8 @@ struct Dfs<'a> {
     /// candidate at least that large) ascending, for the look-ahead bound.
     cap_bounds: Vec<Option<Vec<(f64, f64)>>>,
     assigned: Vec<Option<&'a Part>>,
-    lines: HashMap<LineKey, u32>,
+    /// Pieces in use per line; a build has a dozen pieces at most, so a short list beats a map.
+    lines: Vec<(LineKey, u32)>,
     top: TopN,
     stats: Stats,
     progress: &'a mut dyn FnMut(Progress),
@@ -203,7 +204,9 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
     let spec = req.spec;
     let stage = req.stage;
     let n = stage.slots().len();
-    let mut groups = Vec::new();
+    // Pass 1: the groups enumerated as sorted products; two-slot groups with a plan wait.
+    let mut lists: Vec<Option<GroupList>> = Vec::new();
+    let mut plans = Vec::new();
     for (g, &slots) in stage.groups().iter().enumerate() {
         let names = || {
             slots
@@ -218,8 +221,11 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
                 tuples: usize::MAX,
             });
         }
-        let list = match stage.pair_plan(spec, g).filter(|_| slots.len() == 2) {
-            Some(plan) => GroupList::Lazy(Box::new(PairWalk::new(spec, stage, g, plan, &cands))),
+        match stage.pair_plan(spec, g).filter(|_| slots.len() == 2) {
+            Some(plan) => {
+                lists.push(None);
+                plans.push(Some(plan));
+            }
             None => {
                 let total = slots
                     .iter()
@@ -233,19 +239,18 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
                         })
                     }
                 }
-                GroupList::Sorted(groups::product(spec, stage, g, slots, &cands))
+                lists.push(Some(GroupList::Sorted(groups::product(spec, stage, g, slots, &cands))));
+                plans.push(None);
             }
-        };
-        groups.push((slots, list));
+        }
     }
-    let mut rest = vec![0.0; groups.len() + 1];
-    for g in (0..groups.len()).rev() {
-        let best = groups[g].1.get(0).map_or(f64::INFINITY, |t| t.0);
-        rest[g] = rest[g + 1] + best;
-    }
-    let cap_bounds: Vec<Option<Vec<(f64, f64)>>> = groups
+    let groups_def = stage.groups();
+    let cap_bounds: Vec<Option<Vec<(f64, f64)>>> = lists
         .iter_mut()
-        .map(|(slots, list)| {
+        .enumerate()
+        .map(|(g, list)| {
+            let slots = groups_def[g];
+            let list = list.as_mut()?;
             if slots.len() != 1 || stage.slots()[slots[0]].kind != PartKind::Capacitor {
                 return None;
             }
@@ -264,6 +269,48 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
             Some(rows)
         })
         .collect();
+    // Pass 2: the lazy walks. The first group's walk also counts, per outer part, how much
+    // more than their cheapest the later capacitor groups must cost once that part is fixed
+    // (a constant per outer part keeps each walk monotone; no earlier group can count it).
+    for (g, plan) in plans.into_iter().enumerate() {
+        let Some(plan) = plan else { continue };
+        let extra: Vec<f64> = if g == 0 {
+            let statics: Vec<f64> = lists
+                .iter_mut()
+                .map(|l| l.as_mut().and_then(|l| l.get(0)).map_or(0.0, |t| t.0))
+                .collect();
+            let mut parts: Vec<Option<&Part>> = vec![None; n];
+            cands[plan.outer]
+                .iter()
+                .map(|outer| {
+                    parts[plan.outer] = Some(outer);
+                    let mut sum = 0.0;
+                    for (h, rows) in cap_bounds.iter().enumerate().skip(1) {
+                        let (Some(rows), Some(c)) = (rows, stage.min_capacitance(spec, h, &parts)) else {
+                            continue;
+                        };
+                        let i = rows.partition_point(|r| r.0 < c * (1.0 - 1e-6));
+                        let lb = rows.get(i).map_or(f64::INFINITY, |r| r.1);
+                        sum += (lb - statics[h]).max(0.0);
+                    }
+                    sum
+                })
+                .collect()
+        } else {
+            Vec::new()
+        };
+        lists[g] = Some(GroupList::Lazy(Box::new(PairWalk::new(spec, stage, g, plan, &cands, extra))));
+    }
+    let mut groups: Vec<(&'static [usize], GroupList)> = groups_def
+        .iter()
+        .zip(lists)
+        .map(|(&slots, l)| (slots, l.expect("every group built")))
+        .collect();
+    let mut rest = vec![0.0; groups.len() + 1];
+    for g in (0..groups.len()).rev() {
+        let best = groups[g].1.get(0).map_or(f64::INFINITY, |t| t.0);
+        rest[g] = rest[g + 1] + best;
+    }
     let mut dfs = Dfs {
         req,
         cands: &cands,
@@ -271,7 +318,7 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
         rest,
         cap_bounds,
         assigned: vec![None; n],
-        lines: HashMap::new(),
+        lines: Vec::new(),
         top: TopN::new(req.top),
         stats: Stats {
             candidates: cands.iter().map(|c| c.len()).collect(),
@@ -297,7 +344,8 @@ impl<'a> Dfs<'a> {
             return;
         }
         let slots = self.groups[g].0;
-        let rest_after = self.rest[g + 1];
+        // What the later groups cost at least, given what earlier groups fixed.
+        let rest_after = self.rest[g + 1].max(self.look_ahead(g));
         let total: usize = slots.iter().map(|&s| self.cands[s].len()).product();
         let mut t = 0;
         while let Some((base, idx)) = self.groups[g].1.get(t) {
@@ -385,14 +433,20 @@ impl<'a> Dfs<'a> {
             let part = self.assigned[s].expect("assigned");
             for piece in &part.pieces {
                 let key = LineKey::of(part.kind, piece);
-                let n = self.lines.entry(key).or_insert(0);
-                if *n == 0 {
-                    new_lines += 1;
-                }
-                *n += 1;
+                let n = match self.lines.iter().position(|(k, _)| *k == key) {
+                    Some(i) => {
+                        self.lines[i].1 += 1;
+                        self.lines[i].1
+                    }
+                    None => {
+                        new_lines += 1;
+                        self.lines.push((key, 1));
+                        1
+                    }
+                };
                 if !part.locked {
                     if let Some(limit) = self.req.stock.quantity(key) {
-                        if *n > limit {
+                        if n > limit {
                             fits = false;
                         }
                     }
@@ -407,10 +461,10 @@ impl<'a> Dfs<'a> {
             let part = self.assigned[s].expect("assigned");
             for piece in &part.pieces {
                 let key = LineKey::of(part.kind, piece);
-                if let Some(n) = self.lines.get_mut(&key) {
-                    *n -= 1;
-                    if *n == 0 {
-                        self.lines.remove(&key);
+                if let Some(i) = self.lines.iter().position(|(k, _)| *k == key) {
+                    self.lines[i].1 -= 1;
+                    if self.lines[i].1 == 0 {
+                        self.lines.swap_remove(i);
                     }
                 }
             }

@@ -4,7 +4,9 @@
 //! offers its lines with their quantities. Either way a slot's candidates are realisations: one
 //! piece, or (with `combine`) two pieces in series or in parallel.
 
+pub mod edit;
 pub mod inventory;
+pub mod sha256;
 
 use crate::build::{Arrangement, LineKey, Part, Piece};
 use crate::series::Series;
@@ -41,7 +43,8 @@ pub struct Stock {
     pub resistor_range: (f64, f64),
     pub capacitor_range: (f64, f64),
     pub combine: Combine,
-    qty: HashMap<LineKey, u32>,
+    /// Pieces on hand by inventory row (index = row), per kind: resistors, capacitors.
+    qty: [Vec<u32>; 2],
 }
 
 fn piece_of(line: &Line) -> Piece {
@@ -59,14 +62,17 @@ fn piece_of(line: &Line) -> Piece {
 
 impl Stock {
     pub fn new(resistors: Source, capacitors: Source, spec: &StockSpec) -> Stock {
-        let mut qty = HashMap::new();
-        for (kind, source) in [
-            (PartKind::Resistor, &resistors),
-            (PartKind::Capacitor, &capacitors),
+        let mut qty: [Vec<u32>; 2] = [Vec::new(), Vec::new()];
+        for (k, kind, source) in [
+            (0, PartKind::Resistor, &resistors),
+            (1, PartKind::Capacitor, &capacitors),
         ] {
             if let Source::Inventory(inv) = source {
                 for line in inv.lines.iter().filter(|l| l.kind == kind) {
-                    qty.insert(LineKey::Row(kind, line.row), line.qty);
+                    if qty[k].len() <= line.row {
+                        qty[k].resize(line.row + 1, 0);
+                    }
+                    qty[k][line.row] = line.qty;
                 }
             }
         }
@@ -97,7 +103,10 @@ impl Stock {
     /// Pieces on hand of a line; `None` means unlimited (a series value).
     pub fn quantity(&self, key: LineKey) -> Option<u32> {
         match key {
-            LineKey::Row(..) => Some(self.qty.get(&key).copied().unwrap_or(0)),
+            LineKey::Row(kind, row) => {
+                let k = usize::from(kind == PartKind::Capacitor);
+                Some(self.qty[k].get(row).copied().unwrap_or(0))
+            }
             LineKey::Value(..) => None,
         }
     }
