@@ -177,7 +177,10 @@ pub fn complete(
     yield_options: Option<&yield_mc::YieldOptions>,
 ) {
     let a = &spec.amplifier;
-    let inputs = noise::NoiseInputs::new(a.noise_voltage.unwrap_or(0.0), a.noise_current.unwrap_or(0.0));
+    let inputs = noise::NoiseInputs::new(
+        a.noise_voltage.unwrap_or(0.0),
+        a.noise_current.unwrap_or(0.0),
+    );
     evaluation.noise = Some(noise::noise(&inputs, stage, spec, &build.values()));
     evaluation.dc_budget = Some(budget::dc_budget(spec, stage, build));
     evaluation.yield_report = yield_options
@@ -557,7 +560,7 @@ fn checks(
             out.push(Check::new(
                 &format!("polarity_{}", c.slot),
                 format!(
-                    "{} polarised: {worst} forward bias (+ to {})",
+                    "{} forward bias ({worst}), + to {}",
                     c.slot, c.positive_side
                 ),
                 least,

@@ -340,9 +340,15 @@ fn pick(
     if outcome.builds.is_empty() {
         let d = diagnose::diagnose(&req).map_err(Failure::input)?;
         if !quiet_stdout {
-            say!("{}", table::heading(spec, stage, &stock_text));
+            say_raw!(
+                "{}",
+                table::fit_width(&table::heading(spec, stage, &stock_text), table::WIDTH)
+            );
             say!();
-            say_raw!("{}", table::diagnosis(spec, stage, &d, style));
+            say_raw!(
+                "{}",
+                table::fit_width(&table::diagnosis(spec, stage, &d, style), table::WIDTH)
+            );
         }
         write_json(output, &json::diagnosis(spec, stage, &d))?;
         if let Some(path) = &output.spice {
@@ -363,7 +369,10 @@ fn pick(
         return Ok(EXIT_NO_BUILD);
     }
     if !quiet_stdout {
-        say!("{}", table::heading(spec, stage, &stock_text));
+        say_raw!(
+            "{}",
+            table::fit_width(&table::heading(spec, stage, &stock_text), table::WIDTH)
+        );
         say!();
         say_raw!("{}", table::builds(spec, stage, &outcome.builds, style));
         say!();
@@ -416,7 +425,10 @@ fn check(
     let ranked = Ranked { build, evaluation };
     if output.json.as_deref() != Some("-") {
         let style = style();
-        say!("{}", table::heading(spec, stage, &stock_text));
+        say_raw!(
+            "{}",
+            table::fit_width(&table::heading(spec, stage, &stock_text), table::WIDTH)
+        );
         say!();
         say_raw!(
             "{}",

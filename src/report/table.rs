@@ -176,7 +176,10 @@ pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked], style: Style) -
             cell(&m.part_count.to_string(), 7),
             cell(&m.bom_lines.to_string(), 7),
             cell(&cost_text(m.cost), 8),
-            cell(&yield_text(r.evaluation.yield_report.as_ref().map(|y| y.overall)), 8),
+            cell(
+                &yield_text(r.evaluation.yield_report.as_ref().map(|y| y.overall)),
+                8
+            ),
         );
         let _ = writeln!(out, "{}", row.trim_end());
     }
@@ -353,9 +356,9 @@ pub fn figures(spec: &Spec, evaluation: &Evaluation) -> String {
         format(m.input_range_peak_v, Unit::Volt)
     );
     if let Some(n) = &evaluation.noise {
-        let snr = n
-            .snr_db
-            .map_or(String::new(), |s| format!(", SNR {s:.1} dB at the required peak"));
+        let snr = n.snr_db.map_or(String::new(), |s| {
+            format!(", SNR {s:.1} dB at the required peak")
+        });
         let _ = writeln!(
             out,
             "  noise over the band: {} rms at the output, {} at the input{} ({} K; {} at {})",
@@ -373,13 +376,23 @@ pub fn figures(spec: &Spec, evaluation: &Evaluation) -> String {
             .take(3)
             .map(|s| format!("{} {:.0} %", s.source, s.share * 100.0))
             .collect();
-        let _ = writeln!(out, "    largest noise sources (power share): {}", parts.join(", "));
+        let _ = writeln!(
+            out,
+            "    largest noise sources (power share): {}",
+            parts.join(", ")
+        );
     }
     if let Some(b) = &evaluation.dc_budget {
         let items: Vec<String> = b
             .items
             .iter()
-            .map(|i| format!("{} ±{}", i.cause.replace('_', " "), format(i.volts, Unit::Volt)))
+            .map(|i| {
+                format!(
+                    "{} ±{}",
+                    i.cause.replace('_', " "),
+                    format(i.volts, Unit::Volt)
+                )
+            })
             .collect();
         let _ = writeln!(
             out,
@@ -403,8 +416,67 @@ pub fn figures(spec: &Spec, evaluation: &Evaluation) -> String {
     out
 }
 
+/// Columns a string takes on a terminal: characters, not counting ANSI colour sequences.
+fn visible_len(text: &str) -> usize {
+    let mut n = 0;
+    let mut in_escape = false;
+    for c in text.chars() {
+        match (in_escape, c) {
+            (false, '\x1b') => in_escape = true,
+            (true, 'm') => in_escape = false,
+            (true, _) => {}
+            (false, _) => n += 1,
+        }
+    }
+    n
+}
+
+/// Terminal width the reports keep to.
+pub const WIDTH: usize = 100;
+
+/// Wrap every line longer than `width` columns at spaces; continuation lines keep the line's
+/// indent plus two spaces. Column counting is by characters (our symbols are one column).
+pub fn fit_width(text: &str, width: usize) -> String {
+    let mut out = String::new();
+    for line in text.lines() {
+        if visible_len(line) <= width {
+            out.push_str(line);
+            out.push('\n');
+            continue;
+        }
+        let indent = line.chars().take_while(|c| *c == ' ').count();
+        let cont = " ".repeat(indent + 2);
+        let mut current = String::new();
+        let mut len = 0;
+        for word in line.trim_start().split(' ') {
+            let w = visible_len(word);
+            if len > 0 && len + 1 + w > width {
+                out.push_str(&current);
+                out.push('\n');
+                current = cont.clone();
+                len = cont.len();
+            } else if len == 0 {
+                current = " ".repeat(indent);
+                len = indent;
+            } else {
+                current.push(' ');
+                len += 1;
+            }
+            current.push_str(word);
+            len += w;
+        }
+        out.push_str(&current);
+        out.push('\n');
+    }
+    out
+}
+
 /// The full report of one build (the best of a pick, or a `check`).
 pub fn detail(spec: &Spec, stage: &dyn Stage, ranked: &Ranked, style: Style) -> String {
+    fit_width(&detail_lines(spec, stage, ranked, style), WIDTH)
+}
+
+fn detail_lines(spec: &Spec, stage: &dyn Stage, ranked: &Ranked, style: Style) -> String {
     let mut out = String::new();
     out.push_str(&figures(spec, &ranked.evaluation));
     out.push('\n');
@@ -446,6 +518,9 @@ pub fn diagnosis(
         let _ = writeln!(out, "Blocking requirements (each alone; the others kept):");
         for b in &d.blockers {
             let _ = writeln!(out, "  - {}", b.message);
+            for note in &b.notes {
+                let _ = writeln!(out, "    {note}");
+            }
         }
     }
     if let Some(n) = &d.nearest {
