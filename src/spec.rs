@@ -161,6 +161,9 @@ pub struct Lock {
     pub value: f64,
     /// `None`: the stock's tolerance for that kind.
     pub tolerance: Option<f64>,
+    /// 1-based line of the entry in the spec text, for messages about it later.
+    #[serde(skip)]
+    pub line: Option<usize>,
 }
 
 /// A validated requirement.
@@ -300,25 +303,37 @@ struct Reader<'a> {
 }
 
 impl<'a> Reader<'a> {
-    /// Line of `key` inside `[section]`: the first line after the header that assigns it.
-    /// TOML keys in our sections are bare words, so a textual search is exact for them.
+    /// Line of `key` inside `[section]` (or of the section itself when `key` is `None`): the
+    /// first line that defines it, whichever way TOML allows — under a `[section]` header,
+    /// as a dotted key (`stage.load = …` at the top, `stock.x = …` inside a section), with a
+    /// quoted key (`"load" = …`), or inside an inline table (`stage = { load = … }`).
     fn line_of(&self, section: &str, key: Option<&str>) -> Option<usize> {
-        let mut in_section = false;
+        let wanted: Vec<&str> = std::iter::once(section).chain(key).collect();
+        let mut table: Vec<String> = Vec::new();
         for (i, raw) in self.text.lines().enumerate() {
-            let line = raw.trim();
+            let line = raw.trim_start_matches('\u{feff}').trim();
             if line.starts_with('[') {
-                let name = line.trim_start_matches('[').split(']').next().unwrap_or("");
-                in_section = name.trim() == section;
-                if in_section && key.is_none() {
+                let inner = line.trim_start_matches('[');
+                let inner = inner.split(']').next().unwrap_or("");
+                table = key_path(inner);
+                if starts_with(&table, &wanted) {
                     return Some(i + 1);
                 }
                 continue;
             }
-            if let (true, Some(key)) = (in_section, key) {
-                if let Some(rest) = line.strip_prefix(key) {
-                    if rest.trim_start().starts_with('=') {
-                        return Some(i + 1);
-                    }
+            let Some((lhs, rhs)) = split_assignment(line) else {
+                continue;
+            };
+            let mut path = table.clone();
+            path.extend(key_path(lhs));
+            if starts_with(&path, &wanted) {
+                return Some(i + 1);
+            }
+            // `stage = { kind = "inverting", load = "10k" }`: the key inside the inline table.
+            if wanted.len() > path.len() && starts_with(&wanted, &path) {
+                let rest = &wanted[path.len()..];
+                if rest.len() == 1 && inline_assigns(rhs, rest[0]) {
+                    return Some(i + 1);
                 }
             }
         }
@@ -427,11 +442,15 @@ impl<'a> Reader<'a> {
                     }
                 }
             }
-            Value::Array(_) => {
+            Value::Array(items) => {
                 self.error(
                     section,
                     Some(key),
-                    "expected two values [low, high]".to_string(),
+                    format!(
+                        "found a list of {} value(s), expected two values [low, high] of {}",
+                        items.len(),
+                        unit_hint(unit)
+                    ),
                 );
                 None
             }
@@ -442,11 +461,15 @@ impl<'a> Reader<'a> {
                     None
                 }
             },
-            _ => {
+            other => {
                 self.error(
                     section,
                     Some(key),
-                    format!("expected a pair [low, high] of {}", unit_hint(unit)),
+                    format!(
+                        "found {}, expected a pair [low, high] of {}",
+                        found(other),
+                        unit_hint(unit)
+                    ),
                 );
                 None
             }
@@ -456,8 +479,12 @@ impl<'a> Reader<'a> {
     fn text(&mut self, section: &str, table: &toml::Table, key: &str) -> Option<String> {
         match table.get(key)? {
             Value::String(s) => Some(s.clone()),
-            _ => {
-                self.error(section, Some(key), "expected a quoted string".to_string());
+            other => {
+                self.error(
+                    section,
+                    Some(key),
+                    format!("found {}, expected a quoted string", found(other)),
+                );
                 None
             }
         }
@@ -467,8 +494,15 @@ impl<'a> Reader<'a> {
         let v = match table.get(key)? {
             Value::Integer(i) => *i as f64,
             Value::Float(f) => *f,
-            _ => {
-                self.error(section, Some(key), "expected a number".to_string());
+            other => {
+                self.error(
+                    section,
+                    Some(key),
+                    format!(
+                        "found {}, expected a plain number such as 0.5",
+                        found(other)
+                    ),
+                );
                 return None;
             }
         };
@@ -476,7 +510,7 @@ impl<'a> Reader<'a> {
             self.error(
                 section,
                 Some(key),
-                "expected a finite number ≥ 0".to_string(),
+                format!("found {v}, expected a finite number ≥ 0"),
             );
             return None;
         }
@@ -506,7 +540,42 @@ fn scalar(v: &Value, unit: Unit) -> Result<f64, String> {
         Value::String(s) => value::parse(s, unit).map_err(|e| e.to_string()),
         Value::Integer(i) => plain(*i as f64, unit),
         Value::Float(f) => plain(*f, unit),
-        _ => Err(format!("expected {}", unit_hint(unit))),
+        other => Err(format!(
+            "found {}, expected {}",
+            found(other),
+            unit_hint(unit)
+        )),
+    }
+    .and_then(|x| plausible(x, unit))
+}
+
+/// What a TOML value is, for "found …, expected …" messages.
+fn found(v: &Value) -> String {
+    match v {
+        Value::String(s) => format!("the text {s:?}"),
+        Value::Integer(i) => format!("the number {i}"),
+        Value::Float(f) => format!("the number {f}"),
+        Value::Boolean(b) => format!("`{b}` (true/false)"),
+        Value::Datetime(d) => format!("the date {d}"),
+        Value::Array(items) => format!("a list of {} value(s)", items.len()),
+        Value::Table(_) => "a table".to_string(),
+    }
+}
+
+/// Resistances and capacitances outside what a gain stage is built from are taken for a value
+/// of the other kind typed in the wrong place: `"100n"` as a resistance is 100 nΩ, `"4k7"` as a
+/// capacitance 4.7 kF. The bounds are [`crate::stock::inventory::PLAUSIBLE_OHMS`] and
+/// [`crate::stock::inventory::PLAUSIBLE_FARADS`], shared with the inventory loader.
+fn plausible(x: f64, unit: Unit) -> Result<f64, String> {
+    use crate::stock::inventory::{implausible, PartKind};
+    let kind = match unit {
+        Unit::Ohm => PartKind::Resistor,
+        Unit::Farad => PartKind::Capacitor,
+        _ => return Ok(x),
+    };
+    match implausible(kind, x) {
+        Some(why) if x > 0.0 => Err(why),
+        _ => Ok(x),
     }
 }
 
@@ -555,15 +624,95 @@ fn levenshtein(a: &str, b: &str) -> usize {
     d[a.len()][b.len()]
 }
 
+/// The parts of a TOML key or table name, unquoted: `stage.load`, `"stage" . 'load'`.
+fn key_path(text: &str) -> Vec<String> {
+    let mut parts = Vec::new();
+    let mut current = String::new();
+    let mut quote: Option<char> = None;
+    for c in text.chars() {
+        match (quote, c) {
+            (Some(q), c) if c == q => quote = None,
+            (Some(_), c) => current.push(c),
+            (None, '"' | '\'') => quote = Some(c),
+            (None, '.') => parts.push(std::mem::take(&mut current)),
+            (None, c) if c.is_whitespace() => {}
+            (None, c) => current.push(c),
+        }
+    }
+    parts.push(current);
+    parts
+}
+
+fn starts_with<A: AsRef<str>, B: AsRef<str>>(path: &[A], prefix: &[B]) -> bool {
+    path.len() >= prefix.len()
+        && path
+            .iter()
+            .zip(prefix)
+            .all(|(a, b)| a.as_ref() == b.as_ref())
+}
+
+/// Splits `key = value` at the first `=` outside quotes; `None` for lines that assign nothing
+/// (comments, array continuation lines, blank lines).
+fn split_assignment(line: &str) -> Option<(&str, &str)> {
+    if line.starts_with('#') {
+        return None;
+    }
+    let mut quote: Option<char> = None;
+    for (i, c) in line.char_indices() {
+        match (quote, c) {
+            (Some(q), c) if c == q => quote = None,
+            (Some(_), _) => {}
+            (None, '"' | '\'') => quote = Some(c),
+            (None, '=') => return Some((&line[..i], &line[i + 1..])),
+            // A key is bare letters, digits, `_`, `-`, dots, blanks and quotes; anything else
+            // first (`]`, `,`, a digit string in an array) means this is not an assignment.
+            (None, c) if !(c.is_alphanumeric() || matches!(c, '_' | '-' | '.' | ' ' | '\t')) => {
+                return None
+            }
+            _ => {}
+        }
+    }
+    None
+}
+
+/// True when the inline table text `{ a = 1, key = 2 }` assigns `key` at its top level.
+fn inline_assigns(rhs: &str, key: &str) -> bool {
+    let Some(body) = rhs.trim().strip_prefix('{') else {
+        return false;
+    };
+    let mut quote: Option<char> = None;
+    let mut depth = 0usize;
+    let mut start = 0;
+    for (i, c) in body.char_indices() {
+        match (quote, c) {
+            (Some(q), c) if c == q => quote = None,
+            (Some(_), _) => {}
+            (None, '"' | '\'') => quote = Some(c),
+            (None, '{' | '[') => depth += 1,
+            (None, '}' | ']') if depth > 0 => depth -= 1,
+            (None, ',' | '}') if depth == 0 => {
+                if let Some((lhs, _)) = split_assignment(body[start..i].trim()) {
+                    if key_path(lhs).first().map(String::as_str) == Some(key) {
+                        return true;
+                    }
+                }
+                start = i + 1;
+            }
+            _ => {}
+        }
+    }
+    false
+}
+
 fn section<'t>(root: &'t toml::Table, name: &str, r: &mut Reader) -> Option<&'t toml::Table> {
     match root.get(name) {
         None => None,
         Some(Value::Table(t)) => Some(t),
-        Some(_) => {
+        Some(other) => {
             r.error(
                 name,
                 None,
-                "expected a table `[name]`".replace("name", name),
+                format!("found {}, expected a table `[{name}]`", found(other)),
             );
             None
         }
@@ -579,30 +728,104 @@ pub fn parse_lock_value(text: &str, unit: Unit) -> Result<(f64, Option<f64>), St
     };
     let value = value::parse(v, unit).map_err(|e| e.to_string())?;
     if value <= 0.0 {
-        return Err(format!("{} must be greater than zero", unit.quantity()));
+        return Err(format!(
+            "found {text:?}; a {} must be greater than zero",
+            unit.quantity()
+        ));
     }
+    let value = plausible(value, unit).map_err(|why| format!("found {text:?}: {why}"))?;
     let tol = match t {
-        Some(t) => Some(value::parse(t, Unit::Percent).map_err(|e| e.to_string())?),
+        Some(t) => {
+            let tol = value::parse(t, Unit::Percent).map_err(|e| e.to_string())?;
+            if !(0.0..1.0).contains(&tol) {
+                return Err(format!(
+                    "found the tolerance {t:?}, expected one from 0 % to below 100 %, e.g. \"47k/5%\""
+                ));
+            }
+            Some(tol)
+        }
         None => None,
     };
     Ok((value, tol))
 }
 
 impl Spec {
-    /// Parse and validate a spec. Slot names in `[lock]` are checked against the stage later,
-    /// by the stage registry, since only the stage knows its slots.
+    /// Parse and validate a spec from the bytes of a file: a UTF-8 byte-order mark is skipped,
+    /// text that is not UTF-8 is refused with the line of the first bad byte, and more than
+    /// [`MAX_SPEC_BYTES`] is refused before anything is parsed.
+    pub fn from_bytes(bytes: &[u8]) -> Result<Spec, SpecErrors> {
+        if bytes.len() > MAX_SPEC_BYTES {
+            return Err(SpecErrors(vec![SpecError {
+                key: "spec".into(),
+                line: None,
+                message: format!(
+                    "the file is {} bytes, more than the {MAX_SPEC_BYTES} a spec may have; is this the right file?",
+                    bytes.len()
+                ),
+            }]));
+        }
+        let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+        match std::str::from_utf8(bytes) {
+            Ok(text) => Spec::from_toml(text),
+            Err(e) => {
+                let good = &bytes[..e.valid_up_to()];
+                let line = good.iter().filter(|&&b| b == b'\n').count() + 1;
+                let column =
+                    good.len() - good.iter().rposition(|&b| b == b'\n').map_or(0, |p| p + 1) + 1;
+                Err(SpecErrors(vec![SpecError {
+                    key: "spec".into(),
+                    line: Some(line),
+                    message: format!(
+                        "found the byte 0x{:02X} at column {column}, which is not UTF-8 text; save the spec as UTF-8",
+                        bytes[e.valid_up_to()]
+                    ),
+                }]))
+            }
+        }
+    }
+
+    /// Parse and validate a spec. Slot names in `[lock]` are checked against the stage's slots
+    /// (from the stage registry) here, so that a misspelt slot is reported with its line.
     pub fn from_toml(text: &str) -> Result<Spec, SpecErrors> {
+        let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+        if text.len() > MAX_SPEC_BYTES {
+            return Spec::from_bytes(text.as_bytes());
+        }
+        let blank = text
+            .lines()
+            .all(|l| l.trim().is_empty() || l.trim_start().starts_with('#'));
+        if blank {
+            return Err(SpecErrors(vec![SpecError {
+                key: "spec".into(),
+                line: Some(1),
+                message: "the spec is empty; expected at least a `[stage]` section with kind, \
+                          supply, gain, load and band"
+                    .into(),
+            }]));
+        }
         let root: toml::Table = match text.parse() {
             Ok(t) => t,
             Err(e) => {
                 let e: toml::de::Error = e;
                 let line = e
                     .span()
-                    .map(|s| text[..s.start.min(text.len())].matches('\n').count() + 1);
+                    .map(|s| text[..floor_boundary(text, s.start)].matches('\n').count() + 1);
+                // TOML ends lines with LF or CRLF only; a file saved with classic Mac line ends
+                // (CR alone) fails on its first line with a puzzling message.
+                let lone_cr = text
+                    .as_bytes()
+                    .windows(2)
+                    .any(|w| w[0] == b'\r' && w[1] != b'\n')
+                    || text.ends_with('\r');
+                let hint = if lone_cr {
+                    " (the file has carriage returns without line feeds: save it with LF or CRLF line ends)"
+                } else {
+                    ""
+                };
                 return Err(SpecErrors(vec![SpecError {
                     key: "toml".into(),
                     line,
-                    message: format!("not valid TOML: {}", e.message()),
+                    message: format!("not valid TOML: {}{hint}", e.message().trim_end()),
                 }]));
             }
         };
@@ -684,11 +907,14 @@ impl Spec {
                     None
                 }
             },
-            Some(_) => {
+            Some(other) => {
                 r.error(
                     s,
                     Some("gain"),
-                    "expected a plain number such as -10 or 4.7 (V/V)".into(),
+                    format!(
+                        "found {}, expected a plain number such as -10 or 4.7 (V/V)",
+                        found(other)
+                    ),
                 );
                 None
             }
@@ -837,25 +1063,61 @@ impl Spec {
         };
 
         let mut locks = Vec::new();
+        let stage_def = kind.map(crate::stage::stage_for);
         for (slot, v) in lock_t {
-            let unit = if slot.starts_with("c_") {
-                Unit::Farad
-            } else {
-                Unit::Ohm
+            // The stage knows its slots; without a valid kind, judge by the name's prefix.
+            let slot_kind = match stage_def {
+                Some(st) => match st.slots().iter().find(|d| d.name == slot.as_str()) {
+                    Some(def) => Some(def.kind),
+                    None => {
+                        let names: Vec<&str> = st.slots().iter().map(|d| d.name).collect();
+                        let hint = nearest(slot, &names)
+                            .map(|n| format!("did you mean `{n}`? "))
+                            .unwrap_or_default();
+                        r.error(
+                            "lock",
+                            Some(slot),
+                            format!(
+                                "the {} stage has no slot `{slot}`; {hint}its slots are {}",
+                                st.kind().name(),
+                                names.join(", ")
+                            ),
+                        );
+                        continue;
+                    }
+                },
+                None => None,
+            };
+            let unit = match slot_kind {
+                Some(crate::stock::inventory::PartKind::Capacitor) => Unit::Farad,
+                Some(crate::stock::inventory::PartKind::Resistor) => Unit::Ohm,
+                None if slot.starts_with("c_") => Unit::Farad,
+                None => Unit::Ohm,
             };
             let parsed = match v {
                 Value::String(t) => parse_lock_value(t, unit),
-                Value::Integer(i) => Ok((*i as f64, None)),
-                Value::Float(f) => Ok((*f, None)),
-                _ => Err("expected a value such as \"47k\" or \"47k/5%\"".into()),
+                Value::Integer(i) => plausible(*i as f64, unit).map(|x| (x, None)),
+                Value::Float(f) => plausible(*f, unit).map(|x| (x, None)),
+                other => Err(format!(
+                    "found {}, expected a value such as \"47k\" or \"47k/5%\"",
+                    found(other)
+                )),
             };
             match parsed {
-                Ok((value, tolerance)) if value > 0.0 && value.is_finite() => locks.push(Lock {
-                    slot: slot.clone(),
-                    value,
-                    tolerance,
-                }),
-                Ok(_) => r.error("lock", Some(slot), "must be greater than zero".into()),
+                Ok((value, tolerance)) if value > 0.0 && value.is_finite() => {
+                    let line = r.line_of("lock", Some(slot));
+                    locks.push(Lock {
+                        slot: slot.clone(),
+                        value,
+                        tolerance,
+                        line,
+                    })
+                }
+                Ok((value, _)) => r.error(
+                    "lock",
+                    Some(slot),
+                    format!("found {value}, expected a value greater than zero"),
+                ),
                 Err(m) => r.error("lock", Some(slot), m),
             }
         }
@@ -981,6 +1243,19 @@ impl Spec {
     }
 }
 
+/// Largest spec file read (1 MiB): a hand-written spec is a few hundred bytes, so anything
+/// near this is the wrong file, and refusing it early keeps memory bounded.
+pub const MAX_SPEC_BYTES: usize = 1 << 20;
+
+/// The largest char boundary at or below `i` (a TOML error span may point inside a character).
+fn floor_boundary(text: &str, i: usize) -> usize {
+    let mut i = i.min(text.len());
+    while !text.is_char_boundary(i) {
+        i -= 1;
+    }
+    i
+}
+
 /// Default resistor range: below ~100 Ω the feedback network loads the op-amp output, above
 /// 10 MΩ leakage and bias currents dominate (common practice).
 pub const DEFAULT_RESISTOR_RANGE: (f64, f64) = (100.0, 10e6);
@@ -1085,6 +1360,176 @@ band = ["20 Hz", "20 kHz"]
     fn syntax_errors_have_a_line() {
         let err = Spec::from_toml("[stage]\nkind = \n").unwrap_err();
         assert_eq!(err.0[0].line, Some(2));
+    }
+
+    /// (line, key) of each error, for compact assertions.
+    fn places(text: &str) -> Vec<(Option<usize>, String)> {
+        match Spec::from_toml(text) {
+            Ok(_) => panic!("expected errors for {text:?}"),
+            Err(e) => e.0.into_iter().map(|e| (e.line, e.key)).collect(),
+        }
+    }
+
+    fn message(text: &str) -> String {
+        Spec::from_toml(text).unwrap_err().to_string()
+    }
+
+    #[test]
+    fn empty_and_comment_only_specs_are_one_located_error() {
+        for text in ["", "  \n\n", "# nothing yet\n", "\u{feff}"] {
+            assert_eq!(places(text), [(Some(1), "spec".to_string())], "{text:?}");
+        }
+        assert!(message("").contains("empty"));
+    }
+
+    #[test]
+    fn bom_and_crlf_are_accepted() {
+        let crlf = MINIMAL.replace('\n', "\r\n");
+        let plain = Spec::from_toml(MINIMAL).unwrap();
+        assert_eq!(Spec::from_toml(&crlf).unwrap(), plain);
+        assert_eq!(Spec::from_toml(&format!("\u{feff}{crlf}")).unwrap(), plain);
+        let mut bytes = b"\xEF\xBB\xBF".to_vec();
+        bytes.extend_from_slice(crlf.as_bytes());
+        assert_eq!(Spec::from_bytes(&bytes).unwrap(), plain);
+        // Line numbers count CRLF lines like LF lines.
+        let bad = crlf.replace("\"10k\"", "\"10 uF\"");
+        assert_eq!(places(&bad), [(Some(6), "stage.load".to_string())]);
+    }
+
+    #[test]
+    fn lone_carriage_returns_get_a_hint() {
+        let text = MINIMAL.replace('\n', "\r");
+        assert!(
+            message(&text).contains("carriage returns"),
+            "{}",
+            message(&text)
+        );
+    }
+
+    #[test]
+    fn invalid_utf8_names_line_and_column() {
+        let mut bytes = MINIMAL.as_bytes().to_vec();
+        // Line 5 is `load = "10k"`; put a Latin-1 µ (0xB5) in it.
+        let at = MINIMAL.find("10k").unwrap();
+        bytes[at] = 0xB5;
+        let e = Spec::from_bytes(&bytes).unwrap_err();
+        assert_eq!(e.0[0].line, Some(6));
+        assert!(e.0[0].message.contains("0xB5"), "{e}");
+        assert!(e.0[0].message.contains("column 9"), "{e}");
+    }
+
+    #[test]
+    fn oversized_specs_are_refused_before_parsing() {
+        let big = vec![b'#'; MAX_SPEC_BYTES + 1];
+        let e = Spec::from_bytes(&big).unwrap_err();
+        assert!(e.to_string().contains("more than"), "{e}");
+    }
+
+    #[test]
+    fn wrong_toml_types_say_what_was_found() {
+        let m = message(&MINIMAL.replace("load = \"10k\"", "load = true"));
+        assert!(m.contains("line 6, `stage.load`: found `true`"), "{m}");
+        let m = message(&MINIMAL.replace("kind = \"inverting\"", "kind = 3"));
+        assert!(
+            m.contains("found the number 3, expected a quoted string"),
+            "{m}"
+        );
+        let m = message(&format!("{MINIMAL}[goals]\ncost = \"x\"\n"));
+        assert!(m.contains("`goals.cost`: found the text \"x\""), "{m}");
+        let m = message(&MINIMAL.replace("gain = -10", "gain = [1]"));
+        assert!(m.contains("found a list of 1 value(s)"), "{m}");
+        let m = message("stage = 3\n");
+        assert!(
+            m.contains("found the number 3, expected a table `[stage]`"),
+            "{m}"
+        );
+    }
+
+    #[test]
+    fn arrays_of_the_wrong_length() {
+        let text = MINIMAL.replace("[\"20 Hz\", \"20 kHz\"]", "[1, 2, 3]");
+        assert_eq!(places(&text), [(Some(7), "stage.band".to_string())]);
+        assert!(message(&text).contains("found a list of 3 value(s), expected two"));
+        let text = format!("{MINIMAL}[stock]\nresistor_range = [\"1k\"]\n");
+        assert_eq!(
+            places(&text),
+            [(Some(9), "stock.resistor_range".to_string())]
+        );
+        let text = MINIMAL.replace("band = [\"20 Hz\", \"20 kHz\"]", "band = \"20 Hz\"");
+        assert!(message(&text).contains("expected a pair [low, high]"));
+    }
+
+    #[test]
+    fn values_of_the_wrong_kind_or_unit() {
+        // A capacitance where a resistance goes, and the other way round.
+        let m = message(&MINIMAL.replace("\"10k\"", "\"100n\""));
+        assert!(
+            m.contains("line 6, `stage.load`") && m.contains("capacitance"),
+            "{m}"
+        );
+        let m = message(&format!("{MINIMAL}[lock]\nc_in = \"4k7\"\n"));
+        assert!(m.contains("`lock.c_in`") && m.contains("resistance"), "{m}");
+        let m = message(&format!("{MINIMAL}[lock]\nr_in = \"10 uF\"\n"));
+        assert!(
+            m.contains("line 9, `lock.r_in`") && m.contains("is a capacitance"),
+            "{m}"
+        );
+        let m = message(&MINIMAL.replace("\"9 V\"", "\"9 Hz\""));
+        assert!(m.contains("is a frequency, expected a voltage"), "{m}");
+        let m = message(&MINIMAL.replace("\"10k\"", "\"4,7k\""));
+        assert!(m.contains("decimal comma") && m.contains("4k7"), "{m}");
+        let m = message(&MINIMAL.replace("\"10k\"", "\"-10k\""));
+        assert!(m.contains("negative"), "{m}");
+        let m = message(&format!("{MINIMAL}[lock]\nr_in = \"4k7/200%\"\n"));
+        assert!(m.contains("below 100 %"), "{m}");
+    }
+
+    #[test]
+    fn lock_slots_are_checked_against_the_stage_with_their_line() {
+        let text = format!("{MINIMAL}\n[lock]\nr_fb = \"100k\"\nr_inn = \"10k\"\n");
+        assert_eq!(places(&text), [(Some(11), "lock.r_inn".to_string())]);
+        let m = message(&text);
+        assert!(m.contains("no slot `r_inn`; did you mean `r_in`?"), "{m}");
+        assert!(m.contains("r_in, r_fb"), "{m}");
+        let ok = Spec::from_toml(&format!("{MINIMAL}\n[lock]\nr_fb = \"100k\"\n")).unwrap();
+        assert_eq!(ok.locks[0].line, Some(10));
+    }
+
+    #[test]
+    fn keys_are_located_however_toml_writes_them() {
+        // Dotted key at the top level.
+        let text = "stage.kind = \"inverting\"\nstage.supply = \"9 V\"\nstage.gain = -10\n\
+                    stage.load = \"10 uF\"\nstage.band = [\"20 Hz\", \"20 kHz\"]\n";
+        assert_eq!(places(text), [(Some(4), "stage.load".to_string())]);
+        // Inline table.
+        let text = "stage = { kind = \"inverting\", supply = \"9 V\", gain = -10, laod = \"1k\", \
+                    load = \"10k\", band = [\"20 Hz\", \"20 kHz\"] }\n";
+        assert_eq!(places(text), [(Some(1), "stage.laod".to_string())]);
+        // Quoted key and a dotted key inside a section.
+        let text = MINIMAL
+            .replace("load = ", "\"load\" = ")
+            .replace("\"10k\"", "\"1 V\"");
+        assert_eq!(places(&text), [(Some(6), "stage.load".to_string())]);
+        let text = format!("{MINIMAL}stock.resistors = \"E12\"\n");
+        assert_eq!(places(&text), [(Some(8), "stage.stock".to_string())]);
+        // A key name inside a value or a comment is not the key.
+        let text = MINIMAL
+            .replace("band =", "# load = here\nband =")
+            .replace("\"9 V\"", "\"9\"");
+        assert!(Spec::from_toml(&text).is_ok());
+    }
+
+    #[test]
+    fn several_problems_are_reported_together_in_line_order() {
+        let text = "[stage]\nkind = \"inverting\"\nsupply = true\ngain = -10\nload = \"10 uF\"\n\
+                    band = [1]\n[amplifier]\ngbw = \"fast\"\n[stock]\ncombine = \"twice\"\n";
+        let got = places(text);
+        let lines: Vec<Option<usize>> = got.iter().map(|(l, _)| *l).collect();
+        assert_eq!(
+            lines,
+            [Some(3), Some(5), Some(6), Some(8), Some(10)],
+            "{got:?}"
+        );
     }
 
     #[test]

@@ -560,7 +560,7 @@ fn checks(
             out.push(Check::new(
                 &format!("polarity_{}", c.slot),
                 format!(
-                    "{} forward bias ({worst}), + to {}",
+                    "{} forward bias, + to {}",
                     c.slot, c.positive_side
                 ),
                 least,

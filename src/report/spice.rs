@@ -267,7 +267,9 @@ pub fn netlist(spec: &Spec, stage: &dyn Stage, build: &Build) -> String {
     let _ = writeln!(out);
 
     // The stage's slots, piece by piece.
-    let (mut n_r, mut n_c, mut n_bleed) = (0usize, 0usize, 0usize);
+    // One numbering for the netlist, the schematic and the BOM (`report::designators`).
+    let designators = super::designators::designators(stage, build);
+    let mut n_bleed = 0usize;
     for e in stage.spice_elements() {
         let (slot, part) = (&slots[e.slot], &build.parts[e.slot]);
         let (a, b) = (node_name(e.a, input), node_name(e.b, input));
@@ -279,16 +281,7 @@ pub fn netlist(spec: &Spec, stage: &dyn Stage, build: &Build) -> String {
                 (Arrangement::Series, _) => (mid.as_str(), b),
                 _ => (a, b),
             };
-            let designator = match part.kind {
-                PartKind::Resistor => {
-                    n_r += 1;
-                    format!("R{n_r}")
-                }
-                PartKind::Capacitor => {
-                    n_c += 1;
-                    format!("C{n_c}")
-                }
-            };
+            let designator = &designators[e.slot][k];
             let which = match part.arrangement {
                 Arrangement::Single => String::new(),
                 Arrangement::Series => format!(" (series pair, piece {} of {count})", k + 1),

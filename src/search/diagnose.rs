@@ -412,7 +412,10 @@ fn limit_notes(req: &Request, limits: &[PartLimit]) -> Vec<String> {
             ));
         } else {
             let together = if needs.len() > 1 { " (together)" } else { "" };
-            notes.push(format!("needs {}{together}; the {what}", needs.join(" and ")));
+            notes.push(format!(
+                "needs {}{together}; the {what}",
+                needs.join(" and ")
+            ));
         }
     }
     notes

@@ -142,7 +142,9 @@ impl<'a> PairWalk<'a> {
         let outer_points: Vec<f64> = outer
             .iter()
             .enumerate()
-            .map(|(i, p)| analysis::slot_points(spec, p) + outer_extra.get(i).copied().unwrap_or(0.0))
+            .map(|(i, p)| {
+                analysis::slot_points(spec, p) + outer_extra.get(i).copied().unwrap_or(0.0)
+            })
             .collect();
         // Group the inner candidates by their slot points (exact bits): within a class the
         // key depends on the value alone, so each walk outward is monotone.

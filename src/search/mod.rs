@@ -239,7 +239,9 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
                         })
                     }
                 }
-                lists.push(Some(GroupList::Sorted(groups::product(spec, stage, g, slots, &cands))));
+                lists.push(Some(GroupList::Sorted(groups::product(
+                    spec, stage, g, slots, &cands,
+                ))));
                 plans.push(None);
             }
         }
@@ -258,7 +260,14 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
             let mut t = 0;
             while let Some((key, idx)) = list.get(t) {
                 let part = &cands[slots[0]][idx[0] as usize];
-                rows.push((if spec.worst_case() { part.min } else { part.value }, key));
+                rows.push((
+                    if spec.worst_case() {
+                        part.min
+                    } else {
+                        part.value
+                    },
+                    key,
+                ));
                 t += 1;
             }
             rows.sort_by(|a, b| a.0.total_cmp(&b.0));
@@ -286,7 +295,8 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
                     parts[plan.outer] = Some(outer);
                     let mut sum = 0.0;
                     for (h, rows) in cap_bounds.iter().enumerate().skip(1) {
-                        let (Some(rows), Some(c)) = (rows, stage.min_capacitance(spec, h, &parts)) else {
+                        let (Some(rows), Some(c)) = (rows, stage.min_capacitance(spec, h, &parts))
+                        else {
                             continue;
                         };
                         let i = rows.partition_point(|r| r.0 < c * (1.0 - 1e-6));
@@ -299,7 +309,9 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
         } else {
             Vec::new()
         };
-        lists[g] = Some(GroupList::Lazy(Box::new(PairWalk::new(spec, stage, g, plan, &cands, extra))));
+        lists[g] = Some(GroupList::Lazy(Box::new(PairWalk::new(
+            spec, stage, g, plan, &cands, extra,
+        ))));
     }
     let mut groups: Vec<(&'static [usize], GroupList)> = groups_def
         .iter()
@@ -371,7 +383,11 @@ impl<'a> Dfs<'a> {
             if let Some(rows) = &self.cap_bounds[g] {
                 // A capacitor smaller than its network needs fails every check that follows.
                 let part = self.assigned[slots[0]].expect("assigned");
-                let eff = if spec.worst_case() { part.min } else { part.value };
+                let eff = if spec.worst_case() {
+                    part.min
+                } else {
+                    part.value
+                };
                 if let Some(c) = stage.min_capacitance(spec, g, &self.assigned) {
                     if eff < c * (1.0 - 1e-6) && !rows.is_empty() {
                         self.assigned[slots[0]] = None;

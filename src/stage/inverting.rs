@@ -370,39 +370,39 @@ impl Stage for Inverting {
     /// the divider below on the + input, c_out to the load on the right.
     fn schematic_layout(&self) -> &'static super::layout::Layout {
         use super::layout::{opamp_pins, Layout, Placed, Side, P};
-        const U: P = P(420, 200);
+        const U: P = P(460, 200);
         const PINS: super::layout::OpAmpPins = opamp_pins(U);
         const LAYOUT: Layout = Layout {
-            size: (860, 510),
+            size: (900, 510),
             opamp: U,
             plus_on_top: false,
             source: P(60, 200),
-            load: P(740, 220),
+            load: P(780, 220),
             supplies: &[P(300, 270)],
             grounds: &[P(300, 470)],
             wires: &[
-                &[P(60, 200), P(100, 200)],
-                &[P(200, 200), P(220, 200)],
-                &[P(320, 200), PINS.upper],
-                &[P(380, 200), P(380, 90), P(420, 90)],
-                &[P(520, 90), P(580, 90), P(580, 220)],
-                &[PINS.out, P(600, 220)],
-                &[P(700, 220), P(740, 220)],
-                &[PINS.lower, P(400, 240), P(400, 370), P(300, 370)],
+                &[P(60, 200), P(90, 200)],
+                &[P(190, 200), P(240, 200)],
+                &[P(340, 200), PINS.upper],
+                &[P(400, 200), P(400, 90), P(450, 90)],
+                &[P(550, 90), P(620, 90), P(620, 220)],
+                &[PINS.out, P(640, 220)],
+                &[P(740, 220), P(780, 220)],
+                &[PINS.lower, P(430, 240), P(430, 370), P(300, 370)],
             ],
-            dots: &[P(380, 200), P(580, 220), P(300, 370)],
+            dots: &[P(400, 200), P(620, 220), P(300, 370)],
             parts: &[
                 Placed {
                     slot: R_IN,
-                    from: P(220, 200),
-                    to: P(320, 200),
+                    from: P(240, 200),
+                    to: P(340, 200),
                     label: Side::Above,
                     from_side: None,
                 },
                 Placed {
                     slot: R_FB,
-                    from: P(420, 90),
-                    to: P(520, 90),
+                    from: P(450, 90),
+                    to: P(550, 90),
                     label: Side::Above,
                     from_side: None,
                 },
@@ -422,15 +422,15 @@ impl Stage for Inverting {
                 },
                 Placed {
                     slot: C_IN,
-                    from: P(100, 200),
-                    to: P(200, 200),
+                    from: P(90, 200),
+                    to: P(190, 200),
                     label: Side::Above,
                     from_side: Some("source side"),
                 },
                 Placed {
                     slot: C_OUT,
-                    from: P(600, 220),
-                    to: P(700, 220),
+                    from: P(640, 220),
+                    to: P(740, 220),
                     label: Side::Above,
                     from_side: Some("op-amp side"),
                 },

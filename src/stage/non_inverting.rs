@@ -295,7 +295,8 @@ impl Stage for NonInverting {
         match g {
             2 => {
                 let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
-                let r = spec.source_resistance + Self::rp(end(spec, hi, false), end(spec, lo, false));
+                let r =
+                    spec.source_resistance + Self::rp(end(spec, hi, false), end(spec, lo, false));
                 super::needed_capacitance(spec, r, true)
             }
             3 => {
@@ -486,72 +487,72 @@ impl Stage for NonInverting {
     /// the op-amp with the gain leg r_g + c_g under the − input, c_out to the load on the right.
     fn schematic_layout(&self) -> &'static super::layout::Layout {
         use super::layout::{opamp_pins, Layout, Placed, Side, P};
-        const U: P = P(420, 200);
+        const U: P = P(460, 200);
         const PINS: super::layout::OpAmpPins = opamp_pins(U);
         const LAYOUT: Layout = Layout {
-            size: (860, 580),
+            size: (900, 580),
             opamp: U,
             plus_on_top: true,
             source: P(60, 200),
-            load: P(740, 220),
-            supplies: &[P(260, 100)],
-            grounds: &[P(260, 300), P(400, 530)],
+            load: P(780, 220),
+            supplies: &[P(280, 100)],
+            grounds: &[P(280, 300), P(430, 530)],
             wires: &[
-                &[P(60, 200), P(100, 200)],
-                &[P(200, 200), PINS.upper],
-                &[PINS.lower, P(400, 240), P(400, 330), P(440, 330)],
-                &[P(540, 330), P(580, 330), P(580, 220)],
-                &[PINS.out, P(600, 220)],
-                &[P(700, 220), P(740, 220)],
+                &[P(60, 200), P(90, 200)],
+                &[P(190, 200), PINS.upper],
+                &[PINS.lower, P(430, 240), P(430, 330), P(470, 330)],
+                &[P(570, 330), P(620, 330), P(620, 220)],
+                &[PINS.out, P(640, 220)],
+                &[P(740, 220), P(780, 220)],
             ],
-            dots: &[P(260, 200), P(400, 330), P(580, 220)],
+            dots: &[P(280, 200), P(430, 330), P(620, 220)],
             parts: &[
                 Placed {
                     slot: C_IN,
-                    from: P(100, 200),
-                    to: P(200, 200),
+                    from: P(90, 200),
+                    to: P(190, 200),
                     label: Side::Above,
                     from_side: Some("source side"),
                 },
                 Placed {
                     slot: R_BIAS_HI,
-                    from: P(260, 100),
-                    to: P(260, 200),
+                    from: P(280, 100),
+                    to: P(280, 200),
                     label: Side::Right,
                     from_side: None,
                 },
                 Placed {
                     slot: R_BIAS_LO,
-                    from: P(260, 200),
-                    to: P(260, 300),
+                    from: P(280, 200),
+                    to: P(280, 300),
                     label: Side::Right,
                     from_side: None,
                 },
                 Placed {
                     slot: R_FB,
-                    from: P(440, 330),
-                    to: P(540, 330),
+                    from: P(470, 330),
+                    to: P(570, 330),
                     label: Side::Below,
                     from_side: None,
                 },
                 Placed {
                     slot: R_G,
-                    from: P(400, 330),
-                    to: P(400, 430),
+                    from: P(430, 330),
+                    to: P(430, 430),
                     label: Side::Left,
                     from_side: None,
                 },
                 Placed {
                     slot: C_G,
-                    from: P(400, 430),
-                    to: P(400, 530),
+                    from: P(430, 430),
+                    to: P(430, 530),
                     label: Side::Left,
                     from_side: Some("r_g side"),
                 },
                 Placed {
                     slot: C_OUT,
-                    from: P(600, 220),
-                    to: P(700, 220),
+                    from: P(640, 220),
+                    to: P(740, 220),
                     label: Side::Above,
                     from_side: Some("op-amp side"),
                 },

@@ -94,18 +94,110 @@ pub struct RowError {
 /// Why an inventory could not be loaded.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum InventoryError {
-    #[error(
-        "missing required column(s) {missing:?} in the header (required: kind, value, tolerance, qty)"
-    )]
-    MissingColumns { missing: Vec<String> },
+    /// The header (the first row that is not blank or a comment) lacks required columns.
+    #[error("line {file_line}: {}", missing_message(.missing, .found))]
+    MissingColumns {
+        file_line: usize,
+        missing: Vec<String>,
+        /// The header's cells as written.
+        found: Vec<String>,
+    },
+    /// Nothing but blank lines and comments (or nothing at all).
+    #[error("line {file_line}: no header row: the file is empty or holds only comments and blank lines; expected a first row such as `kind,value,tolerance,qty`")]
+    NoHeader { file_line: usize },
     /// The text is not well-formed CSV (or could not be read at all).
     #[error("line {file_line}: malformed CSV: {message}")]
     Csv { file_line: usize, message: String },
     /// Every bad cell of every row, in file order.
     #[error("{}", rows_message(.0))]
     Rows(Vec<RowError>),
-    #[error("the inventory has a header but no data rows")]
-    Empty,
+    #[error("line {header_line}: the inventory has a header but no data rows")]
+    Empty { header_line: usize },
+    /// More than [`MAX_INVENTORY_BYTES`] bytes, or more than [`MAX_INVENTORY_LINES`] lines
+    /// (`file_line` is then the first line past the limit). Refused before parsing, so a wrong
+    /// file (a disk image, a log) costs bounded memory.
+    #[error("{}", too_large_message(*.file_line))]
+    TooLarge { file_line: Option<usize> },
+}
+
+/// Largest inventory read: 16 MiB. The largest shipped stock list is about 30 kB; a real
+/// store's full catalogue export stays well below this (common practice).
+pub const MAX_INVENTORY_BYTES: usize = 16 << 20;
+/// Most lines in an inventory file.
+pub const MAX_INVENTORY_LINES: usize = 1_000_000;
+
+fn too_large_message(file_line: Option<usize>) -> String {
+    match file_line {
+        Some(line) => format!(
+            "line {line}: the inventory has more than {MAX_INVENTORY_LINES} lines, more than this tool reads; is this the right file?"
+        ),
+        None => format!(
+            "the inventory is larger than {} MiB, more than this tool reads; is this the right file?",
+            MAX_INVENTORY_BYTES >> 20
+        ),
+    }
+}
+
+fn missing_message(missing: &[String], found: &[String]) -> String {
+    let names: Vec<String> = missing.iter().map(|m| format!("`{m}`")).collect();
+    let mut text = format!(
+        "the header has no column {} (required: kind, value, tolerance, qty); found {}",
+        names.join(", "),
+        if found.is_empty() {
+            "no columns".to_string()
+        } else {
+            found
+                .iter()
+                .map(|f| format!("{f:?}"))
+                .collect::<Vec<_>>()
+                .join(", ")
+        }
+    );
+    // A file whose first row is data: `r,4k7,5%,10`.
+    if found
+        .first()
+        .is_some_and(|f| PartKind::from_cell(f).is_some())
+    {
+        text.push_str("; the first row must be the header, e.g. `kind,value,tolerance,qty`");
+    }
+    text
+}
+
+/// Values this loader accepts as a resistor: 1 mΩ (a current-sense shunt) to 1 TΩ (an
+/// electrometer feedback resistor) — common practice. Outside, the value is most likely a
+/// capacitance typed on a resistor line (`100n` is 100 nΩ).
+pub const PLAUSIBLE_OHMS: (f64, f64) = (1e-3, 1e12);
+/// Values accepted as a capacitor: 1 fF to 100 mF (the largest aluminium electrolytic cans)
+/// — common practice. Above, the value is most likely a resistance or a bare number typed on a
+/// capacitor line (`4k7` is 4.7 kF, a bare `100` is 100 F).
+pub const PLAUSIBLE_FARADS: (f64, f64) = (1e-15, 0.1);
+
+/// Why `value` (SI units) cannot be a part of this kind, or `None` when it can.
+pub fn implausible(kind: PartKind, value: f64) -> Option<String> {
+    let (unit, (lo, hi), other) = match kind {
+        PartKind::Resistor => (Unit::Ohm, PLAUSIBLE_OHMS, "a capacitance"),
+        PartKind::Capacitor => (Unit::Farad, PLAUSIBLE_FARADS, "a resistance"),
+    };
+    if (lo..=hi).contains(&value) {
+        return None;
+    }
+    let f = |v| crate::value::format(v, unit);
+    let hint = match kind {
+        PartKind::Resistor if value < lo => {
+            format!("; is this {other}? (a small `m` is milli: write `M` for mega)")
+        }
+        PartKind::Capacitor if value > hi => {
+            format!("; is this {other}? A bare number is in farads: write `100n` or `4u7`")
+        }
+        _ => String::new(),
+    };
+    Some(format!(
+        "{} is outside the {} of any {kind} ({} … {}){hint}",
+        f(value),
+        unit.quantity(),
+        f(lo),
+        f(hi)
+    ))
 }
 
 fn rows_message(errors: &[RowError]) -> String {
@@ -247,10 +339,14 @@ impl KindSummary {
 }
 
 impl Inventory {
-    /// Loads an inventory from CSV bytes. Reads the whole input, then parses it like
+    /// Loads an inventory from CSV bytes. Reads the whole input (up to
+    /// [`MAX_INVENTORY_BYTES`]; more is [`InventoryError::TooLarge`]), then parses it like
     /// [`Inventory::parse_str`]; a read failure is reported as [`InventoryError::Csv`].
-    pub fn from_reader<R: Read>(mut reader: R) -> Result<Inventory, InventoryError> {
+    pub fn from_reader<R: Read>(reader: R) -> Result<Inventory, InventoryError> {
         let mut bytes = Vec::new();
+        // One byte past the limit tells "exactly at the limit" from "too large" without
+        // reading more than that into memory.
+        let mut reader = reader.take(MAX_INVENTORY_BYTES as u64 + 1);
         if let Err(error) = reader.read_to_end(&mut bytes) {
             return Err(InventoryError::Csv {
                 file_line: 1 + bytes.iter().filter(|&&b| b == b'\n').count(),
@@ -488,7 +584,27 @@ fn scan(bytes: &[u8]) -> Scan {
 
 const BOM: &[u8] = b"\xEF\xBB\xBF";
 
-fn parse_bytes(bytes: &[u8]) -> Result<Inventory, InventoryError> {
+/// Parses the bytes of an inventory file: what [`Inventory::from_reader`] does once the bytes
+/// are read. Public so that a caller holding the bytes already (to hash them, or to edit them
+/// with [`crate::stock::edit`]) parses exactly what it holds.
+pub fn parse_bytes(bytes: &[u8]) -> Result<Inventory, InventoryError> {
+    if bytes.len() > MAX_INVENTORY_BYTES {
+        return Err(InventoryError::TooLarge { file_line: None });
+    }
+    if let Some(offset) = bytes
+        .iter()
+        .enumerate()
+        .filter(|(_, &b)| b == b'\n')
+        .map(|(i, _)| i)
+        .nth(MAX_INVENTORY_LINES - 1)
+    {
+        // Line MAX+1 exists when anything follows the MAX-th line break.
+        if offset + 1 < bytes.len() {
+            return Err(InventoryError::TooLarge {
+                file_line: Some(MAX_INVENTORY_LINES + 1),
+            });
+        }
+    }
     let bytes = bytes.strip_prefix(BOM).unwrap_or(bytes);
     let uncommented;
     let bytes = match scan(bytes) {
@@ -516,6 +632,7 @@ fn parse_bytes(bytes: &[u8]) -> Result<Inventory, InventoryError> {
         .from_reader(bytes);
 
     let mut layout: Option<Layout> = None;
+    let mut header_line = 1;
     let mut errors = Vec::new();
     let mut inventory = Inventory::default();
     let mut row = 0;
@@ -535,7 +652,10 @@ fn parse_bytes(bytes: &[u8]) -> Result<Inventory, InventoryError> {
             continue;
         }
         match &layout {
-            None => layout = Some(read_header(&cells, file_line, &mut errors)?),
+            None => {
+                header_line = file_line;
+                layout = Some(read_header(&cells, file_line, &mut errors)?);
+            }
             Some(layout) => {
                 row += 1;
                 if let Some(line) = read_row(layout, &cells, row, file_line, &mut errors) {
@@ -546,19 +666,13 @@ fn parse_bytes(bytes: &[u8]) -> Result<Inventory, InventoryError> {
     }
 
     if layout.is_none() {
-        return Err(InventoryError::MissingColumns {
-            missing: Column::ALL
-                .into_iter()
-                .filter(|c| c.required())
-                .map(|c| c.name().to_string())
-                .collect(),
-        });
+        return Err(InventoryError::NoHeader { file_line: 1 });
     }
     if !errors.is_empty() {
         return Err(InventoryError::Rows(errors));
     }
     if row == 0 {
-        return Err(InventoryError::Empty);
+        return Err(InventoryError::Empty { header_line });
     }
     Ok(inventory)
 }
@@ -604,7 +718,11 @@ fn read_header(
         .map(|c| c.name().to_string())
         .collect();
     if !missing.is_empty() {
-        return Err(InventoryError::MissingColumns { missing });
+        return Err(InventoryError::MissingColumns {
+            file_line,
+            missing,
+            found: header,
+        });
     }
     Ok(Layout { index, header })
 }
@@ -774,6 +892,22 @@ fn read_row(
             ("a capacitance", "`100n` or `4.7 uF`"),
         ),
         None => None,
+    };
+    // A value of the other kind on this line (`c,4k7,…`) parses, but to no real part.
+    let value = match (kind, value) {
+        (Some(kind), Some(v)) => match implausible(kind, v) {
+            None => Some(v),
+            Some(why) => {
+                let text = r.cell(Column::Value).unwrap_or_default();
+                let what = match kind {
+                    PartKind::Resistor => "a resistance",
+                    PartKind::Capacitor => "a capacitance",
+                };
+                r.fail(Column::Value, text, format!("{what} ({why})"));
+                None
+            }
+        },
+        _ => None,
     };
 
     let tolerance = {
@@ -1009,28 +1143,45 @@ mod tests {
         assert_eq!(
             Inventory::parse_str("value,kind,location\nr,1k,A\n"),
             Err(InventoryError::MissingColumns {
-                missing: vec!["tolerance".into(), "qty".into()]
+                file_line: 1,
+                missing: vec!["tolerance".into(), "qty".into()],
+                found: ["value", "kind", "location"].map(String::from).to_vec(),
             })
         );
-        let all = InventoryError::MissingColumns {
-            missing: ["kind", "value", "tolerance", "qty"]
-                .map(String::from)
-                .to_vec(),
-        };
+        let none = InventoryError::NoHeader { file_line: 1 };
         assert_eq!(
             Inventory::parse_str(""),
-            Err(all.clone()),
+            Err(none.clone()),
             "no header at all"
         );
-        assert_eq!(Inventory::parse_str("# only a comment\n\n"), Err(all));
+        assert_eq!(Inventory::parse_str("# only a comment\n\n"), Err(none));
+        // A header after comments is reported on its own line.
+        match Inventory::parse_str("# stock\n\nkind,value,qty\nr,1k,1\n") {
+            Err(e @ InventoryError::MissingColumns { file_line: 3, .. }) => {
+                assert!(e.to_string().starts_with("line 3: "), "{e}");
+                assert!(e.to_string().contains("`tolerance`"), "{e}");
+            }
+            other => panic!("{other:?}"),
+        }
+    }
+
+    #[test]
+    fn data_where_the_header_should_be_is_explained() {
+        let e = Inventory::parse_str("r,4k7,5%,10\n").unwrap_err();
+        let text = e.to_string();
+        assert!(text.starts_with("line 1: "), "{text}");
+        assert!(text.contains("must be the header"), "{text}");
     }
 
     #[test]
     fn header_without_rows_is_empty() {
-        assert_eq!(Inventory::parse_str(HEADER), Err(InventoryError::Empty));
         assert_eq!(
-            Inventory::parse_str(&format!("{HEADER}\n# nothing yet\n,,,\n")),
-            Err(InventoryError::Empty)
+            Inventory::parse_str(HEADER),
+            Err(InventoryError::Empty { header_line: 1 })
+        );
+        assert_eq!(
+            Inventory::parse_str(&format!("# a\n{HEADER}\n# nothing yet\n,,,\n")),
+            Err(InventoryError::Empty { header_line: 2 })
         );
     }
 
@@ -1236,6 +1387,78 @@ mod tests {
     }
 
     #[test]
+    fn a_value_of_the_other_kind_is_refused() {
+        // `c,4k7` is 4.7 kF and `r,100n` 100 nΩ: both parse, neither is a part.
+        let errors = row_errors(&format!(
+            "{HEADER}c,4k7,10%,3\nr,100n,5%,2\nc,100,10%,1\nr,1m,1%,1\nc,100u,20%,1\n"
+        ));
+        assert_eq!(places(&errors), [(2, "value"), (3, "value"), (4, "value")]);
+        assert!(
+            errors[0].expected.contains("is this a resistance?"),
+            "{}",
+            errors[0]
+        );
+        assert_eq!(errors[0].found, "4k7");
+        assert!(
+            errors[1].expected.contains("is this a capacitance?"),
+            "{}",
+            errors[1]
+        );
+        assert!(
+            errors[2].expected.contains("bare number is in farads"),
+            "{}",
+            errors[2]
+        );
+        // A 1 mΩ shunt and a 100 µF capacitor are real parts.
+        assert_eq!(implausible(PartKind::Resistor, 1e-3), None);
+        assert_eq!(implausible(PartKind::Capacitor, 100e-6), None);
+        assert!(implausible(PartKind::Resistor, 1e13).is_some());
+    }
+
+    #[test]
+    fn wrong_unit_and_negative_and_decimal_comma_cells() {
+        let errors = row_errors(&format!(
+            "{HEADER}r,10uF,1%,1\nr,\"4,7k\",1%,1\nr,4k7,1%,-3\nc,-1u,10%,1\n"
+        ));
+        assert_eq!(
+            places(&errors),
+            [(2, "value"), (3, "value"), (4, "qty"), (5, "value")]
+        );
+        assert!(
+            errors[0].expected.contains("is a capacitance"),
+            "{}",
+            errors[0]
+        );
+        assert!(errors[1].expected.contains("4k7"), "{}", errors[1]);
+        assert_eq!(errors[2].found, "-3");
+        assert!(errors[3].expected.contains("negative"), "{}", errors[3]);
+    }
+
+    #[test]
+    fn endless_input_is_refused_in_bounded_memory() {
+        // An endless reader: the loader must stop one byte past its limit, not read forever.
+        let endless = std::io::repeat(b'x');
+        assert_eq!(
+            Inventory::from_reader(endless),
+            Err(InventoryError::TooLarge { file_line: None })
+        );
+        let too_many = "\n".repeat(MAX_INVENTORY_LINES) + "x";
+        match Inventory::parse_str(&too_many) {
+            Err(e @ InventoryError::TooLarge { file_line: Some(n) }) => {
+                assert_eq!(n, MAX_INVENTORY_LINES + 1);
+                assert!(e.to_string().contains("more than 1000000 lines"), "{e}");
+            }
+            other => panic!("{other:?}"),
+        }
+        // Exactly the limit is still read (and here has no header).
+        let at_limit = "\n".repeat(MAX_INVENTORY_LINES);
+        assert_eq!(
+            Inventory::parse_str(&at_limit),
+            Err(InventoryError::NoHeader { file_line: 1 })
+        );
+    }
+
+    #[test]
     fn from_reader_and_from_str_agree() {
         let text = format!("{HEADER}r,1k,1%,1\n");
         let a = Inventory::from_reader(text.as_bytes()).unwrap();
@@ -1282,10 +1505,13 @@ mod tests {
         assert!(lines[2].trim_start().starts_with("line 9,"));
         assert_eq!(
             InventoryError::MissingColumns {
-                missing: vec!["qty".into()]
+                file_line: 1,
+                missing: vec!["qty".into()],
+                found: vec!["kind".into(), "value".into(), "tolerance".into()],
             }
             .to_string(),
-            "missing required column(s) [\"qty\"] in the header (required: kind, value, tolerance, qty)"
+            "line 1: the header has no column `qty` (required: kind, value, tolerance, qty); \
+             found \"kind\", \"value\", \"tolerance\""
         );
     }
 
@@ -1535,7 +1761,7 @@ mod tests {
                 }
                 Err(error) => {
                     prop_assert!(expected.is_empty(), "{}", error);
-                    prop_assert_eq!(error, InventoryError::Empty);
+                    prop_assert_eq!(error, InventoryError::Empty { header_line: 1 });
                 }
             }
         }
