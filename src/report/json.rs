@@ -23,6 +23,8 @@ struct PartJson<'a> {
 struct BuildJson<'a> {
     rank: usize,
     score: f64,
+    /// Pareto-optimal over (gain error, part count, cost) among the ranked builds.
+    pareto: bool,
     pass: bool,
     parts: BTreeMap<&'static str, PartJson<'a>>,
     metrics: &'a Metrics,
@@ -59,12 +61,14 @@ struct Document<'a> {
 /// The builds as a pretty-printed JSON document.
 pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked]) -> String {
     let slots = stage.slots();
+    let front = crate::search::pareto(ranked);
     let builds = ranked
         .iter()
         .enumerate()
         .map(|(i, r)| BuildJson {
             rank: i + 1,
             score: r.evaluation.score,
+            pareto: front[i],
             pass: r.evaluation.pass,
             parts: r
                 .build

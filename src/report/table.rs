@@ -89,13 +89,29 @@ pub fn heading(spec: &Spec, stage: &dyn Stage, stock_text: &str) -> String {
     )
 }
 
+/// A part's label with the dielectric where the inventory names it, so that two builds that
+/// differ only in which line of a value they take can be told apart.
+fn table_label(part: &crate::build::Part) -> String {
+    let mut label = part.label();
+    let mut kinds: Vec<&str> = part
+        .pieces
+        .iter()
+        .filter_map(|p| p.dielectric.as_deref())
+        .collect();
+    kinds.dedup();
+    if !kinds.is_empty() {
+        label = format!("{label} {}", kinds.join("/"));
+    }
+    label
+}
+
 /// The ranked builds: a parts table, then a figures table.
 pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked], style: Style) -> String {
     let mut out = String::new();
     let slots = stage.slots();
     let labels: Vec<Vec<String>> = ranked
         .iter()
-        .map(|r| r.build.parts.iter().map(|p| p.label()).collect())
+        .map(|r| r.build.parts.iter().map(table_label).collect())
         .collect();
     // Column widths from the content, so two-part labels get the room they need.
     let widths: Vec<usize> = (0..slots.len())
@@ -159,6 +175,7 @@ pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked], style: Style) -
         )
         .trim_end()
     );
+    let front = crate::search::pareto(ranked);
     for (n, r) in ranked.iter().enumerate() {
         let m = &r.evaluation.metrics;
         let (lo, hi) = (
@@ -167,7 +184,7 @@ pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked], style: Style) -
         );
         let row = format!(
             "{}{}{}{}{}{}{}{}{}{}",
-            cell(&(n + 1).to_string(), 4),
+            cell(&format!("{}{}", n + 1, if front[n] { "◆" } else { "" }), 4),
             cell(&gain_text(m.gain), 9),
             cell(&format_sig(m.gain_error, Unit::Percent, 2), 9),
             cell(&format!("{} … {}", gain_text(lo), gain_text(hi)), 18),
@@ -183,6 +200,10 @@ pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked], style: Style) -
         );
         let _ = writeln!(out, "{}", row.trim_end());
     }
+    let _ = writeln!(
+        out,
+        "    ◆ Pareto-optimal over gain error, part count and cost"
+    );
     out
 }
 

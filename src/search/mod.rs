@@ -507,3 +507,66 @@ impl<'a> Dfs<'a> {
         }
     }
 }
+
+/// Which builds are Pareto-optimal over (gain error, part count, cost): no other build is at
+/// least as good in all three and better in one. Unknown cost counts as zero.
+pub fn pareto(builds: &[Ranked]) -> Vec<bool> {
+    let key = |r: &Ranked| {
+        let m = &r.evaluation.metrics;
+        (m.gain_error, m.part_count as f64, m.cost.unwrap_or(0.0))
+    };
+    builds
+        .iter()
+        .map(|a| {
+            let ka = key(a);
+            !builds.iter().any(|b| {
+                let kb = key(b);
+                kb.0 <= ka.0
+                    && kb.1 <= ka.1
+                    && kb.2 <= ka.2
+                    && (kb.0 < ka.0 || kb.1 < ka.1 || kb.2 < ka.2)
+            })
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod pareto_tests {
+    use super::*;
+    use crate::spec::Spec;
+
+    #[test]
+    fn dominated_builds_are_not_pareto() {
+        // Hand example (common practice): a build with more error and more parts than another
+        // is dominated; a trade-off (less error, more parts) is not.
+        let spec = Spec::from_toml(
+            "[stage]\nkind = \"inverting\"\nsupply = 9\ngain = -10\nload = 10000\nband = [20, 20000]\n",
+        )
+        .unwrap();
+        let stage = crate::stage::stage_for(spec.stage);
+        let r = |v: f64| Part::single(PartKind::Resistor, crate::build::Piece::plain(v, 0.01));
+        let c = |v: f64| Part::single(PartKind::Capacitor, crate::build::Piece::plain(v, 0.1));
+        let mk = |rin: f64, rfb: f64, pair: bool| {
+            let mut parts = vec![r(rin), r(rfb), r(100e3), r(100e3), c(10e-6), c(10e-6)];
+            if pair {
+                parts[1] = Part::pair(
+                    PartKind::Resistor,
+                    crate::build::Arrangement::Series,
+                    crate::build::Piece::plain(rfb / 2.0, 0.01),
+                    crate::build::Piece::plain(rfb / 2.0, 0.01),
+                );
+            }
+            let build = Build { parts };
+            let evaluation = analysis::evaluate(&spec, stage, &build, None);
+            Ranked { build, evaluation }
+        };
+        let builds = vec![
+            mk(10e3, 100e3, false),
+            mk(10e3, 99e3, true),
+            mk(10e3, 98e3, false),
+        ];
+        assert_eq!(pareto(&builds), vec![true, false, false]);
+        let trade = vec![mk(10e3, 98e3, false), mk(10e3, 100e3, true)];
+        assert_eq!(pareto(&trade), vec![true, true]);
+    }
+}
