@@ -559,10 +559,7 @@ fn checks(
             };
             out.push(Check::new(
                 &format!("polarity_{}", c.slot),
-                format!(
-                    "{} forward bias, + to {}",
-                    c.slot, c.positive_side
-                ),
+                format!("{} forward bias, + to {}", c.slot, c.positive_side),
                 least,
                 Bound::Min,
                 0.0,

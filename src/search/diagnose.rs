@@ -139,52 +139,41 @@ const KNOBS: &[Knob] = &[
     },
 ];
 
-fn feasible(req: &Request, spec: &Spec) -> Result<bool, SearchError> {
+/// The best build under `spec`, if any.
+fn best_under(req: &Request, spec: &Spec) -> Result<Option<Ranked>, SearchError> {
     let r = Request {
         spec,
         top: 1,
         ..*req
     };
-    Ok(!search(&r, &mut |_| {})?.builds.is_empty())
+    Ok(search(&r, &mut |_| {})?.builds.into_iter().next())
 }
 
-/// The blocker for `knob`, whose tightest feasible limit is `good`; `relaxed` is the spec
-/// with that limit.
-fn explain(
-    req: &Request,
-    knob: &Knob,
-    limit: f64,
-    good: f64,
-    relaxed: &Spec,
-) -> Result<Blocker, SearchError> {
+/// The blocker for `knob`, whose tightest feasible limit is `good`, met by `closest`.
+fn explain(req: &Request, knob: &Knob, limit: f64, good: f64, closest: &Build) -> Blocker {
     let amplifier = knob.key.starts_with("amplifier");
     let name = knob.key.rsplit('.').next().unwrap_or(knob.key);
     let f = |v: f64| format_sig(v, knob.unit, 3);
-    // The build that comes closest, judged against the real spec.
-    let r = Request {
-        spec: relaxed,
-        top: 1,
-        ..*req
+    // The closest build judged against the real spec.
+    let evaluation = analysis::evaluate(req.spec, req.stage, closest, None);
+    let judged: Vec<&Check> = knob_checks(knob, &evaluation.checks).collect();
+    // Where the check measures the same figure as the limit, its value is what the stock
+    // reaches.
+    let comparable = !amplifier && knob.key != "stage.gain_tolerance";
+    let reached = if comparable {
+        judged
+            .iter()
+            .filter(|c| !c.pass)
+            .min_by(|a, b| a.margin.total_cmp(&b.margin))
+            .map(|c| c.value)
+    } else {
+        None
     };
-    let closest = search(&r, &mut |_| {})?.builds.into_iter().next();
-    let mut reached = None;
-    let mut limits = Vec::new();
-    if let Some(best) = &closest {
-        let evaluation = analysis::evaluate(req.spec, req.stage, &best.build, None);
-        let judged: Vec<&Check> = knob_checks(knob, &evaluation.checks).collect();
-        // Same figure as the limit: the check's value is what the stock reaches.
-        let comparable = !amplifier && knob.key != "stage.gain_tolerance";
-        if comparable {
-            reached = judged
-                .iter()
-                .filter(|c| !c.pass)
-                .min_by(|a, b| a.margin.total_cmp(&b.margin))
-                .map(|c| c.value);
-        }
-        if !amplifier {
-            limits = part_limits(req, knob, &best.build);
-        }
-    }
+    let limits = if amplifier {
+        Vec::new()
+    } else {
+        part_limits(req, knob, closest)
+    };
 
     let relaxation = if amplifier {
         format!("an amplifier with {name} ≥ {}", f(good))
@@ -208,7 +197,7 @@ fn explain(
         ),
     };
     let notes = limit_notes(req, &limits);
-    Ok(Blocker {
+    Blocker {
         key: knob.key.to_string(),
         limit,
         reachable: good,
@@ -217,7 +206,7 @@ fn explain(
         limits,
         message,
         notes,
-    })
+    }
 }
 
 fn knob_checks<'c>(knob: &'c Knob, checks: &'c [Check]) -> impl Iterator<Item = &'c Check> {
@@ -461,36 +450,38 @@ pub fn diagnose(req: &Request) -> Result<Diagnosis, SearchError> {
         // GBW and slew rate are amplifier figures: "dropping" them means an ideal amplifier,
         // and loosening means a faster one. Requirements are dropped outright.
         (knob.set)(&mut relaxed, None);
-        if !feasible(req, &relaxed)? {
+        if best_under(req, &relaxed)?.is_none() {
             continue;
         }
-        // Bisection in log value between the failing limit and a passing one.
+        // Bisection in log value between the failing limit and a passing one; the build found
+        // at the passing end is the one that comes closest to the limit.
         let (mut bad, mut good) = (limit, limit);
         let step = if knob.larger_is_stricter { 0.5 } else { 2.0 };
-        let mut found = false;
+        let mut closest = None;
         for _ in 0..40 {
             good *= step;
             (knob.set)(&mut relaxed, Some(good));
-            if feasible(req, &relaxed)? {
-                found = true;
+            closest = best_under(req, &relaxed)?;
+            if closest.is_some() {
                 break;
             }
             bad = good;
         }
-        if !found {
+        let Some(mut closest) = closest else {
             continue;
-        }
+        };
         for _ in 0..14 {
             let mid = (bad * good).sqrt();
             (knob.set)(&mut relaxed, Some(mid));
-            if feasible(req, &relaxed)? {
-                good = mid;
-            } else {
-                bad = mid;
+            match best_under(req, &relaxed)? {
+                Some(b) => {
+                    good = mid;
+                    closest = b;
+                }
+                None => bad = mid,
             }
         }
-        (knob.set)(&mut relaxed, Some(good));
-        blockers.push(explain(req, knob, limit, good, &relaxed)?);
+        blockers.push(explain(req, knob, limit, good, &closest.build));
     }
     // The nearest build: every requirement dropped, judged against the spec.
     let mut open = req.spec.clone();
