@@ -311,6 +311,24 @@ pub fn capacitors(
             rating,
             kind
         );
+        // Class-2 ceramics (X7R, X5R, Y5V, Z5U …) lose capacitance under DC bias, often by half
+        // near their rated voltage (common practice): the corner moves up.
+        let class2 = part.pieces.iter().any(|p| {
+            p.dielectric.as_deref().is_some_and(|d| {
+                let d = d.to_ascii_uppercase();
+                ["X7R", "X5R", "X6S", "X7S", "Y5V", "Z5U", "X8R"]
+                    .iter()
+                    .any(|k| d.contains(k))
+            })
+        });
+        if class2 {
+            let _ = writeln!(
+                out,
+                "    {}: class-2 ceramic, its capacitance falls with DC bias; check the datasheet's DC-bias curve at {}",
+                c.slot,
+                format_sig(c.volts.abs(), Unit::Volt, 2)
+            );
+        }
     }
     out
 }

@@ -239,7 +239,9 @@ fn part_limits(req: &Request, knob: &Knob, build: &Build) -> Vec<PartLimit> {
             continue;
         };
         for (largest, end) in [(true, hi), (false, lo)] {
-            if same(part.value, end) {
+            // Only a part whose value, moved past the stock's end, would help this
+            // requirement is a limit worth naming.
+            if same(part.value, end) && helps(req, knob, build, i, largest) {
                 limits.push(PartLimit {
                     slot: slots[i].name.to_string(),
                     kind: part.kind,
@@ -267,6 +269,7 @@ fn part_limits(req: &Request, knob: &Knob, build: &Build) -> Vec<PartLimit> {
     }
     if !any {
         for largest in [true, false] {
+            // Slots of both kinds may need to move together (a corner is set by R·C).
             let mut group: Vec<usize> = limits
                 .iter()
                 .filter(|l| l.largest == largest)
@@ -300,6 +303,42 @@ fn part_limits(req: &Request, knob: &Knob, build: &Build) -> Vec<PartLimit> {
         }
     }
     limits
+}
+
+/// The worst margin of the requirement's checks on `build`, relative to each limit.
+fn worst_margin(req: &Request, knob: &Knob, build: &Build) -> Option<f64> {
+    let e = analysis::evaluate(req.spec, req.stage, build, None);
+    knob_checks(knob, &e.checks)
+        .map(|c| c.margin / c.limit.abs().max(1e-30))
+        .filter(|m| !m.is_nan())
+        .reduce(f64::min)
+}
+
+/// Moving slot `i` past the stock's end (×2 or ÷2) improves the requirement's worst margin.
+fn helps(req: &Request, knob: &Knob, build: &Build, i: usize, up: bool) -> bool {
+    let Some(now) = worst_margin(req, knob, build) else {
+        return false;
+    };
+    let mut moved = build.clone();
+    rescale(&mut moved.parts[i], if up { 2.0 } else { 0.5 });
+    worst_margin(req, knob, &moved).is_some_and(|m| m > now + 1e-9 * now.abs().max(1e-9))
+}
+
+/// Rounds away from the stock's end to two significant digits, so that the value printed
+/// is enough: up for a minimum (`≥`), down for a maximum (`≤`).
+fn round_sig2(x: f64, up: bool) -> f64 {
+    if !(x.is_finite() && x > 0.0) {
+        return x;
+    }
+    let scale = 10f64.powf(x.log10().floor() - 1.0);
+    // A hair of slack so that 150.000001 µF does not print as 160 µF.
+    let q = x / scale;
+    let q = if up {
+        (q - 1e-9).ceil()
+    } else {
+        (q + 1e-9).floor()
+    };
+    q * scale
 }
 
 /// [`needed_factor`] with every slot of `group` scaled by the same factor.
@@ -370,8 +409,16 @@ fn needed_factor(
 /// "needs c_in ≥ 150 µF; the largest capacitor in stock is 47 µF".
 fn limit_notes(req: &Request, limits: &[PartLimit]) -> Vec<String> {
     let mut notes = Vec::new();
-    for largest in [true, false] {
-        let group: Vec<&PartLimit> = limits.iter().filter(|l| l.largest == largest).collect();
+    for (kind, largest) in [
+        (PartKind::Resistor, true),
+        (PartKind::Resistor, false),
+        (PartKind::Capacitor, true),
+        (PartKind::Capacitor, false),
+    ] {
+        let group: Vec<&PartLimit> = limits
+            .iter()
+            .filter(|l| l.largest == largest && l.kind == kind)
+            .collect();
         let Some(first) = group.first() else {
             continue;
         };
@@ -388,16 +435,17 @@ fn limit_notes(req: &Request, limits: &[PartLimit]) -> Vec<String> {
         let needs: Vec<String> = group
             .iter()
             .filter_map(|l| {
-                l.needed
-                    .map(|n| format!("{} {op} {}", l.slot, format_sig(n, unit, 2)))
+                l.needed.map(|n| {
+                    let n = round_sig2(n, largest);
+                    format!("{} {op} {}", l.slot, format_sig(n, unit, 3))
+                })
             })
             .collect();
         let slots: Vec<&str> = group.iter().map(|l| l.slot.as_str()).collect();
         if needs.is_empty() {
             notes.push(format!(
-                "{} already {} the {what}",
+                "{} already at the stock's end: the {what}",
                 slots.join(" and "),
-                if slots.len() == 1 { "uses" } else { "use" }
             ));
         } else {
             let together = if needs.len() > 1 { " (together)" } else { "" };
