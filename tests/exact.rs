@@ -123,6 +123,7 @@ fn run_case(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCaseErr
         stock: &stock,
         locks: &locks,
         top: case.top,
+        max_nodes: None,
     };
     let fast = search(&req, &mut |_| {});
     let slow = brute_force(&req);

@@ -49,6 +49,31 @@ pub struct Output {
     pub seed: u64,
 }
 
+/// `stockfit take`: the pick's options, the inventory to take from, and the build to take.
+#[derive(Debug, clap::Args)]
+pub struct TakeArgs {
+    /// The spec (TOML).
+    pub spec: PathBuf,
+    /// The inventory CSV to take the pieces from (both kinds of part come from it).
+    #[arg(long, value_name = "FILE.csv")]
+    pub stock: PathBuf,
+    /// Which ranked build to take (1 = the best).
+    #[arg(long, default_value_t = 1)]
+    pub build: usize,
+    /// Fix a slot to a value, e.g. `r_in=47k` (repeatable); a locked slot takes nothing.
+    #[arg(long, value_name = "SLOT=VALUE")]
+    pub lock: Vec<String>,
+    /// How many builds to rank (as `pick`), so that --build can name any of them.
+    #[arg(long, default_value_t = 5)]
+    pub top: usize,
+    /// Write the new inventory. Without it, only show what would be taken and the file's hash.
+    #[arg(long)]
+    pub yes: bool,
+    /// Take only if the inventory's SHA-256 is still this (as printed by an earlier dry run).
+    #[arg(long, value_name = "HEX")]
+    pub expect_hash: Option<String>,
+}
+
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Rank the best builds of a spec from a stock.
@@ -91,6 +116,9 @@ pub enum Command {
     },
     /// Validate and summarise an inventory CSV.
     Stock { file: PathBuf },
+    /// Pick as `pick` does, then take the chosen build's pieces off the inventory CSV
+    /// (a dry run without --yes).
+    Take(TakeArgs),
     /// Run `pick` on a built-in example (a 9 V hydrophone preamp on E24/E6 stock).
     Demo {
         #[arg(long, default_value_t = 5)]
@@ -181,6 +209,40 @@ mod tests {
             }
             other => panic!("{other:?}"),
         }
+    }
+
+    #[test]
+    fn take_arguments() {
+        let a = Arguments::try_parse_from([
+            "stockfit",
+            "take",
+            "x.toml",
+            "--stock",
+            "s.csv",
+            "--build",
+            "2",
+            "--yes",
+            "--expect-hash",
+            "ab",
+            "--lock",
+            "r_in=10k",
+        ])
+        .unwrap();
+        match a.command {
+            Command::Take(t) => {
+                assert_eq!(t.stock, PathBuf::from("s.csv"));
+                assert_eq!((t.build, t.top, t.yes), (2, 5, true));
+                assert_eq!(t.expect_hash.as_deref(), Some("ab"));
+                assert_eq!(t.lock, vec!["r_in=10k"]);
+            }
+            other => panic!("{other:?}"),
+        }
+        let a = Arguments::try_parse_from(["stockfit", "take", "x.toml", "--stock", "s.csv"]);
+        match a.unwrap().command {
+            Command::Take(t) => assert_eq!((t.build, t.yes, t.expect_hash), (1, false, None)),
+            other => panic!("{other:?}"),
+        }
+        assert!(Arguments::try_parse_from(["stockfit", "take", "x.toml"]).is_err());
     }
 
     #[test]

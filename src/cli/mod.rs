@@ -3,6 +3,7 @@
 
 mod args;
 mod run;
+mod take;
 
 pub use args::Arguments;
 

@@ -62,22 +62,19 @@ pub fn run(args: Arguments) -> Result<i32, Failure> {
         }
         Command::Series { name, from, to } => series(&name, &from, &to),
         Command::Stock { file } => stock_summary(&file),
+        Command::Take(args) => super::take::take(&args),
     }
 }
 
-fn load_spec(path: &Path) -> Result<(Spec, PathBuf), Failure> {
-    let text = std::fs::read_to_string(path)
-        .with_context(|| format!("cannot read the spec {}", path.display()))?;
-    let spec = Spec::from_toml(&text).with_context(|| format!("in {}", path.display()))?;
+pub(super) fn load_spec(path: &Path) -> Result<(Spec, PathBuf), Failure> {
+    let bytes = super::take::read_bounded(path, spec::MAX_SPEC_BYTES, "spec")?;
+    let spec = Spec::from_bytes(&bytes).with_context(|| format!("in {}", path.display()))?;
     let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
     Ok((spec, base))
 }
 
 fn load_inventory(path: &Path) -> Result<Inventory, Failure> {
-    let file = std::fs::File::open(path)
-        .with_context(|| format!("cannot open the inventory {}", path.display()))?;
-    Ok(Inventory::from_reader(std::io::BufReader::new(file))
-        .with_context(|| format!("in {}", path.display()))?)
+    super::take::load_inventory(path)
 }
 
 /// The stock a run draws from, and a short description of it.
@@ -107,6 +104,16 @@ fn resolve_stock(spec: &Spec, base: &Path, over: Option<&str>) -> Result<(Stock,
                 }
             })
         };
+    if let Some(o) = over {
+        let t = o.trim();
+        let looks_like_series =
+            t.len() > 1 && t.starts_with(['E', 'e']) && t[1..].chars().all(|c| c.is_ascii_digit());
+        if looks_like_series && Series::parse(t).is_none() && !Path::new(t).exists() {
+            return Err(Failure::input(anyhow!(
+                "--stock {t}: unknown series; expected one of E3, E6, E12, E24, E48, E96, E192 or an inventory CSV"
+            )));
+        }
+    }
     let (r, c) = match over.map(SourceSpec::parse) {
         None => (
             source(&spec.stock.resistors, PartKind::Resistor, base)?,
@@ -127,7 +134,7 @@ fn resolve_stock(spec: &Spec, base: &Path, over: Option<&str>) -> Result<(Stock,
 }
 
 /// Parse `SLOT=VALUE[/TOL]` entries into locked parts by slot index.
-fn parse_slot_values(
+pub(super) fn parse_slot_values(
     stage: &dyn Stage,
     stock: &Stock,
     entries: &[(String, String)],
@@ -161,7 +168,7 @@ fn parse_slot_values(
     Ok(out)
 }
 
-fn split_entries(raw: &[String], flag: &str) -> Result<Vec<(String, String)>, Failure> {
+pub(super) fn split_entries(raw: &[String], flag: &str) -> Result<Vec<(String, String)>, Failure> {
     raw.iter()
         .map(|e| {
             e.split_once('=')
@@ -288,6 +295,7 @@ fn pick(
         stock: &stock,
         locks: &locked,
         top,
+        max_nodes: None,
     };
     let quiet_stdout = output.json.as_deref() == Some("-");
     let started = Instant::now();
@@ -411,8 +419,16 @@ fn check(
     }
     let mut parts: Vec<Option<Part>> = vec![None; stage.slots().len()];
     for (i, mut p) in given {
-        // A checked build is a build, not a board repair: its parts are not "locked".
+        // A checked build is a build, not a board repair: its parts are not "locked". A value
+        // found in the inventory takes that line's ratings, cost and polarity.
         p.locked = false;
+        let tol = entries
+            .iter()
+            .find(|(slot, _)| stage::slot_index(stage, slot) == Some(i))
+            .and_then(|(_, text)| text.contains('/').then_some(p.pieces[0].tolerance));
+        if let Some(piece) = stock.find_piece(p.kind, p.value, tol) {
+            p = Part::single(p.kind, piece);
+        }
         parts[i] = Some(p);
     }
     let build = stockfit::Build {

@@ -35,6 +35,7 @@ pub fn brute_force(req: &Request) -> Result<Outcome, SearchError> {
             candidates: cands.iter().map(|c| c.len()).collect(),
             nodes: evaluated,
             nodes_by_group: Vec::new(),
+            truncated: false,
             evaluated,
         },
     })

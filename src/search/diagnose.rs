@@ -139,11 +139,16 @@ const KNOBS: &[Knob] = &[
     },
 ];
 
+/// Nodes one diagnostic search may visit: a search that finds nothing has nothing to prune
+/// with, so an unbounded one can take long; past the budget "no build found" is taken.
+pub const DIAGNOSIS_NODES: u64 = 300_000;
+
 /// The best build under `spec`, if any.
 fn best_under(req: &Request, spec: &Spec) -> Result<Option<Ranked>, SearchError> {
     let r = Request {
         spec,
         top: 1,
+        max_nodes: Some(DIAGNOSIS_NODES),
         ..*req
     };
     Ok(search(&r, &mut |_| {})?.builds.into_iter().next())
@@ -267,7 +272,10 @@ fn part_limits(req: &Request, knob: &Knob, build: &Build) -> Vec<PartLimit> {
             }
         }
     }
-    if !any {
+    if any {
+        // One part alone is enough: name only the parts that are.
+        limits.retain(|l| l.needed.is_some());
+    } else {
         for largest in [true, false] {
             // Slots of both kinds may need to move together (a corner is set by R·C).
             let mut group: Vec<usize> = limits
@@ -506,7 +514,7 @@ pub fn diagnose(req: &Request) -> Result<Diagnosis, SearchError> {
         let (mut bad, mut good) = (limit, limit);
         let step = if knob.larger_is_stricter { 0.5 } else { 2.0 };
         let mut closest = None;
-        for _ in 0..40 {
+        for _ in 0..24 {
             good *= step;
             (knob.set)(&mut relaxed, Some(good));
             closest = best_under(req, &relaxed)?;
@@ -518,7 +526,7 @@ pub fn diagnose(req: &Request) -> Result<Diagnosis, SearchError> {
         let Some(mut closest) = closest else {
             continue;
         };
-        for _ in 0..14 {
+        for _ in 0..10 {
             let mid = (bad * good).sqrt();
             (knob.set)(&mut relaxed, Some(mid));
             match best_under(req, &relaxed)? {
@@ -539,6 +547,7 @@ pub fn diagnose(req: &Request) -> Result<Diagnosis, SearchError> {
     let r = Request {
         spec: &open,
         top: 1,
+        max_nodes: Some(DIAGNOSIS_NODES),
         ..*req
     };
     let nearest = search(&r, &mut |_| {})?
@@ -557,4 +566,109 @@ pub fn diagnose(req: &Request) -> Result<Diagnosis, SearchError> {
         blockers,
         nearest,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::stage;
+    use crate::stock::inventory::Inventory;
+    use crate::stock::Stock;
+    use std::sync::Arc;
+
+    /// A small invented drawer: resistors up to 1 MΩ, capacitors up to 47 µF.
+    const DRAWER: &str = "kind,value,tolerance,qty\n\
+        r,1k,1%,10\nr,2k2,1%,10\nr,10k,1%,10\nr,22k,1%,10\nr,100k,1%,10\nr,1M,1%,10\n\
+        c,100n,10%,5\nc,1u,10%,5\nc,10u,20%,5\nc,47u,20%,5\n";
+
+    fn diagnose_text(spec_text: &str) -> Diagnosis {
+        let spec = Spec::from_toml(spec_text).unwrap();
+        let inv = Arc::new(Inventory::parse_str(DRAWER).unwrap());
+        let stock = Stock::new(
+            Source::Inventory(inv.clone()),
+            Source::Inventory(inv),
+            &spec.stock,
+        );
+        let stage = stage::stage_for(spec.stage);
+        let req = Request {
+            spec: &spec,
+            stage,
+            stock: &stock,
+            locks: &[],
+            top: 1,
+            max_nodes: None,
+        };
+        assert!(
+            search(&req, &mut |_| {}).unwrap().builds.is_empty(),
+            "infeasible"
+        );
+        diagnose(&req).unwrap()
+    }
+
+    #[test]
+    fn input_resistance_blocked_by_the_largest_resistor() {
+        let d = diagnose_text(
+            "[stage]\nkind = \"inverting\"\nsupply = \"9 V\"\ngain = -1\n\
+             input_resistance_min = \"2.2M\"\nload = \"10k\"\nband = [\"20 Hz\", \"20 kHz\"]\n",
+        );
+        assert!(!d.several);
+        let b = &d.blockers[0];
+        assert_eq!(b.key, "stage.input_resistance_min");
+        // Inverting stage: input resistance = r_in (any op-amp text); the largest stock part is
+        // 1 MΩ at 1 %, so the worst case reaches 990 kΩ, and 2.2 MΩ needs r_in ≥ 2.2 M/0.99.
+        let reached = b.reached.unwrap();
+        assert!((reached - 990e3).abs() < 1.0, "{reached}");
+        assert!(b.reachable <= reached * (1.0 + 1e-3) && b.reachable > 980e3);
+        assert_eq!(b.limits.len(), 1, "{:?}", b.limits);
+        let l = &b.limits[0];
+        assert_eq!(
+            (l.slot.as_str(), l.largest, l.stock_value),
+            ("r_in", true, 1e6)
+        );
+        let needed = l.needed.unwrap();
+        assert!((needed - 2.2e6 / 0.99).abs() < 2.2e6 * 1e-6, "{needed}");
+        assert!(b.message.contains("reaches 990 kΩ"), "{}", b.message);
+        assert_eq!(
+            b.notes,
+            ["needs r_in ≥ 2.3 MΩ; the largest resistor in stock is 1 MΩ"]
+        );
+    }
+
+    #[test]
+    fn band_loss_blocked_by_the_largest_capacitor() {
+        // 1 kΩ load: the output coupling capacitor with the load sets the low edge.
+        let d = diagnose_text(
+            "[stage]\nkind = \"inverting\"\nsupply = \"9 V\"\ngain = -1\nload = \"1k\"\n\
+             band = [\"10 Hz\", \"20 kHz\"]\nband_loss_max = \"0.1 dB\"\n\
+             input_resistance_min = \"1k\"\n",
+        );
+        let b = d
+            .blockers
+            .iter()
+            .find(|b| b.key == "stage.band_loss_max")
+            .unwrap();
+        assert!(b.reached.unwrap() > 0.1);
+        let c_out = b.limits.iter().find(|l| l.slot == "c_out").unwrap();
+        assert!(c_out.largest && (c_out.stock_value - 47e-6).abs() < 1e-12);
+        // The needed value passes and 1 % less fails: it is the smallest that does.
+        let needed = c_out.needed.unwrap();
+        assert!(needed > 47e-6);
+        assert!(
+            b.notes.iter().any(|n| n.starts_with("needs c_out ≥ ")
+                && n.ends_with("the largest capacitor in stock is 47 µF")),
+            "{:?}",
+            b.notes
+        );
+        let json = serde_json::to_value(b).unwrap();
+        assert_eq!(json["limits"][0]["slot"], "c_out");
+        assert!(json["notes"].is_array());
+    }
+
+    #[test]
+    fn rounding_for_notes_never_understates_the_need() {
+        assert_eq!(round_sig2(2.2222e6, true), 2.3e6);
+        assert!((round_sig2(1.3e-4, true) - 1.3e-4).abs() < 1e-12);
+        assert!((round_sig2(1.3001e-4, true) - 1.4e-4).abs() < 1e-12);
+        assert_eq!(round_sig2(2.29e3, false), 2.2e3);
+    }
 }

@@ -46,6 +46,8 @@ pub struct Progress {
 pub struct Stats {
     pub candidates: Vec<usize>,
     pub nodes: u64,
+    /// True when `max_nodes` stopped the search before it was complete.
+    pub truncated: bool,
     /// Nodes per group, to see where a search spends its time.
     pub nodes_by_group: Vec<u64>,
     pub evaluated: u64,
@@ -79,6 +81,8 @@ pub struct Request<'a> {
     /// Parts fixed by the user, by slot index.
     pub locks: &'a [(usize, Part)],
     pub top: usize,
+    /// Stop after this many search nodes (the result is then not proven); `None`: no limit.
+    pub max_nodes: Option<u64>,
 }
 
 /// The candidates of every slot: the stock's realisations (one shared list per kind), or the
@@ -158,7 +162,13 @@ impl TopN {
         if self.items.len() >= self.cap && score >= self.bound() {
             return;
         }
-        let at = self.items.partition_point(|i| i.0 <= score);
+        // Equal scores: the tighter parts first (what a person would pick between twins).
+        let spread: f64 = ranked.build.parts.iter().map(Part::tolerance).sum();
+        let at = self.items.partition_point(|i| {
+            i.0 < score
+                || (i.0 == score
+                    && i.2.build.parts.iter().map(Part::tolerance).sum::<f64>() <= spread)
+        });
         self.items.insert(at, (score, key, ranked));
         self.items.truncate(self.cap);
     }
@@ -362,6 +372,10 @@ impl<'a> Dfs<'a> {
         let mut t = 0;
         while let Some((base, idx)) = self.groups[g].1.get(t) {
             t += 1;
+            if self.req.max_nodes.is_some_and(|m| self.stats.nodes >= m) {
+                self.stats.truncated = true;
+                break;
+            }
             if acc + base + rest_after >= self.top.bound() {
                 break;
             }

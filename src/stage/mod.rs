@@ -493,6 +493,11 @@ pub fn needed_capacitance(spec: &Spec, r: f64, loss: bool) -> Option<f64> {
     if let (true, Some(l)) = (loss, spec.band_loss_max) {
         fc = fc.min(spec.band.0 * (10f64.powf(l / 10.0) - 1.0).sqrt());
     }
+    if loss && spec.corner_low_max.is_none() && spec.band_loss_max.is_none() {
+        // Then the whole response's −3 dB corner must sit at or below the band's low edge,
+        // and a cascade's corner is above each first-order section's own corner.
+        fc = fc.min(spec.band.0);
+    }
     fc.is_finite()
         .then(|| 1.0 / (2.0 * std::f64::consts::PI * r * fc))
 }

@@ -184,6 +184,21 @@ impl Stock {
         }
     }
 
+    /// The inventory piece of a given value (and tolerance, when given), so that a part named
+    /// by value carries its line's ratings; among several lines the widest tolerance is taken
+    /// (the cautious choice). `None` for a series or when no line matches.
+    pub fn find_piece(&self, kind: PartKind, value: f64, tolerance: Option<f64>) -> Option<Piece> {
+        let Source::Inventory(inv) = self.source(kind) else {
+            return None;
+        };
+        inv.lines
+            .iter()
+            .filter(|l| l.kind == kind && (l.value - value).abs() <= 1e-9 * value.abs())
+            .filter(|l| tolerance.is_none_or(|t| (l.tolerance - t).abs() <= 1e-12))
+            .max_by(|a, b| a.tolerance.total_cmp(&b.tolerance).then(b.row.cmp(&a.row)))
+            .map(piece_of)
+    }
+
     /// True when the pieces of all parts together fit the quantities on hand.
     pub fn fits(&self, parts: &[&Part]) -> bool {
         let mut used: HashMap<LineKey, u32> = HashMap::new();

@@ -1,0 +1,534 @@
+//! `stockfit take`: run the pick, then take the chosen build's pieces off the inventory file —
+//! checked against a content hash, backed up, and replaced atomically so that the file is
+//! always either the old list or the new one, never a partial write.
+//!
+//! Also the bounded file reader the other subcommands use, so that a wrong file (a disk image,
+//! a log) is refused by its size before it is read into memory.
+
+use super::args::TakeArgs;
+use super::run::{load_spec, parse_slot_values, split_entries};
+use super::{Failure, EXIT_BAD_INPUT, EXIT_NO_BUILD, EXIT_OK};
+use anyhow::{anyhow, Context};
+use std::collections::BTreeMap;
+use std::fs::{self, File, OpenOptions};
+use std::io::{self, Read, Write};
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+use std::time::{SystemTime, UNIX_EPOCH};
+use stockfit::search::{self, Request};
+use stockfit::stage;
+use stockfit::stock::edit::{self, EditError};
+use stockfit::stock::inventory::{self, Inventory, PartKind, MAX_INVENTORY_BYTES};
+use stockfit::stock::sha256::hex_digest;
+use stockfit::stock::{Source, Stock};
+use stockfit::value::{self, Unit};
+
+/// Print to stdout; a closed pipe is not worth a panic.
+macro_rules! say {
+    ($($t:tt)*) => { let _ = writeln!(std::io::stdout().lock(), $($t)*); };
+}
+
+/// Reads a whole file of at most `limit` bytes. The size is checked with the file's metadata
+/// first, and the read itself stops one byte past the limit (a file may grow, or be a device
+/// without a size), so memory stays bounded whatever the path names.
+pub fn read_bounded(path: &Path, limit: usize, what: &str) -> Result<Vec<u8>, Failure> {
+    let too_big = |size: String| {
+        Failure::input(anyhow!(
+            "the {what} {} is {size}, more than the {} this tool reads; is this the right file?",
+            path.display(),
+            human_bytes(limit as u64)
+        ))
+    };
+    let file =
+        File::open(path).with_context(|| format!("cannot open the {what} {}", path.display()))?;
+    let meta = file
+        .metadata()
+        .with_context(|| format!("cannot read the {what} {}", path.display()))?;
+    if meta.is_dir() {
+        return Err(Failure::input(anyhow!(
+            "the {what} {} is a folder, not a file",
+            path.display()
+        )));
+    }
+    if meta.len() > limit as u64 {
+        return Err(too_big(human_bytes(meta.len())));
+    }
+    let mut bytes = Vec::with_capacity(usize::try_from(meta.len()).unwrap_or(0).min(limit));
+    file.take(limit as u64 + 1)
+        .read_to_end(&mut bytes)
+        .with_context(|| format!("cannot read the {what} {}", path.display()))?;
+    if bytes.len() > limit {
+        return Err(too_big("larger than that".into()));
+    }
+    Ok(bytes)
+}
+
+fn human_bytes(n: u64) -> String {
+    if n >= 1 << 20 {
+        format!("{:.1} MiB", n as f64 / f64::from(1u32 << 20))
+    } else if n >= 1 << 10 {
+        format!("{:.1} KiB", n as f64 / 1024.0)
+    } else {
+        format!("{n} bytes")
+    }
+}
+
+/// Loads an inventory CSV from a path, bounded in size, with the file name in every error.
+pub fn load_inventory(path: &Path) -> Result<Inventory, Failure> {
+    let bytes = read_bounded(path, MAX_INVENTORY_BYTES, "inventory")?;
+    Ok(inventory::parse_bytes(&bytes).with_context(|| format!("in {}", path.display()))?)
+}
+
+/// One inventory row the build takes from.
+struct Taking {
+    row: usize,
+    file_line: usize,
+    kind: PartKind,
+    value: f64,
+    tolerance: f64,
+    on_hand: u32,
+    pieces: u32,
+    slots: Vec<String>,
+}
+
+pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
+    let (spec, _base) = load_spec(&args.spec)?;
+    let path = &args.stock;
+    if path.extension().and_then(|e| e.to_str()).is_none()
+        && stockfit::series::Series::parse(&path.to_string_lossy()).is_some()
+    {
+        return Err(Failure::input(anyhow!(
+            "--stock {}: take needs an inventory CSV to take pieces from, not a series",
+            path.display()
+        )));
+    }
+    let original = read_bounded(path, MAX_INVENTORY_BYTES, "inventory")?;
+    let hash = hex_digest(&original);
+    if let Some(expected) = &args.expect_hash {
+        let expected = expected.trim().to_ascii_lowercase();
+        if expected.len() != 64 || !expected.bytes().all(|b| b.is_ascii_hexdigit()) {
+            return Err(Failure::input(anyhow!(
+                "--expect-hash {expected}: expected the 64 hex digits of a SHA-256, as `take` prints"
+            )));
+        }
+        if expected != hash {
+            return Err(Failure::input(anyhow!(
+                "the inventory {} changed since the pick (sha256 {expected} then, {hash} now); \
+                 nothing taken: run `stockfit take` again without --yes to see the new pick",
+                path.display()
+            )));
+        }
+    }
+    let inv = Arc::new(
+        inventory::parse_bytes(&original).with_context(|| format!("in {}", path.display()))?,
+    );
+
+    let stage = stage::stage_for(spec.stage);
+    let stock = Stock::new(
+        Source::Inventory(inv.clone()),
+        Source::Inventory(inv.clone()),
+        &spec.stock,
+    );
+    let mut entries: Vec<(String, String)> = Vec::new();
+    for l in &spec.locks {
+        let unit = if l.slot.starts_with("c_") {
+            Unit::Farad
+        } else {
+            Unit::Ohm
+        };
+        let mut t = value::format_sig(l.value, unit, 12);
+        if let Some(tol) = l.tolerance {
+            t = format!("{t}/{}", value::format_sig(tol, Unit::Percent, 12));
+        }
+        entries.push((l.slot.clone(), t));
+    }
+    entries.extend(split_entries(&args.lock, "--lock")?);
+    let locked = parse_slot_values(stage, &stock, &entries, "--lock")?;
+    if args.build == 0 {
+        return Err(Failure::input(anyhow!(
+            "--build 0: builds are numbered from 1"
+        )));
+    }
+    if args.top == 0 || args.build > args.top {
+        return Err(Failure::input(anyhow!(
+            "--build {} with --top {}: the build must be one of the ranked ones",
+            args.build,
+            args.top
+        )));
+    }
+    let req = Request {
+        spec: &spec,
+        stage,
+        stock: &stock,
+        locks: &locked,
+        top: args.top,
+        max_nodes: None,
+    };
+    let outcome = match search::search(&req, &mut |_| {}) {
+        Ok(o) => o,
+        Err(e @ search::SearchError::NoCandidates { .. }) => {
+            eprintln!("error: {e}; nothing taken");
+            return Ok(EXIT_NO_BUILD);
+        }
+        Err(e) => return Err(Failure::input(e)),
+    };
+    if outcome.builds.is_empty() {
+        eprintln!(
+            "error: no build from {} meets the spec; nothing taken (`stockfit pick` explains why)",
+            path.display()
+        );
+        return Ok(EXIT_NO_BUILD);
+    }
+    let Some(chosen) = outcome.builds.get(args.build - 1) else {
+        return Err(Failure::input(anyhow!(
+            "--build {}: only {} build(s) meet the spec",
+            args.build,
+            outcome.builds.len()
+        )));
+    };
+
+    // Pieces per inventory row; locked parts are on the board already and take nothing.
+    let mut rows: BTreeMap<usize, Taking> = BTreeMap::new();
+    for (part, slot) in chosen.build.parts.iter().zip(stage.slots()) {
+        if part.locked {
+            continue;
+        }
+        for piece in &part.pieces {
+            let Some(row) = piece.line else { continue };
+            let Some(line) = inv.lines.get(row.wrapping_sub(1)) else {
+                continue;
+            };
+            let t = rows.entry(row).or_insert_with(|| Taking {
+                row,
+                file_line: line.file_line,
+                kind: line.kind,
+                value: line.value,
+                tolerance: line.tolerance,
+                on_hand: line.qty,
+                pieces: 0,
+                slots: Vec::new(),
+            });
+            t.pieces += 1;
+            if !t.slots.iter().any(|s| s == slot.name) {
+                t.slots.push(slot.name.to_string());
+            }
+        }
+    }
+    let deductions: Vec<(usize, u32)> = rows.values().map(|t| (t.row, t.pieces)).collect();
+    let updated = edit::deduct(&original, &deductions).map_err(|e| match e {
+        EditError::TooFew(_) => {
+            Failure::input(anyhow!("in {}: {e}; nothing taken", path.display()))
+        }
+        e => Failure::input(anyhow!("in {}: {e}", path.display())),
+    })?;
+
+    let mut plan = Vec::new();
+    plan.push(format!(
+        "Build #{} from {} (sha256 {hash}):",
+        args.build,
+        path.display()
+    ));
+    let labels: Vec<String> = chosen
+        .build
+        .parts
+        .iter()
+        .zip(stage.slots())
+        .map(|(p, s)| {
+            format!(
+                "{} {}{}",
+                s.name,
+                p.label(),
+                if p.locked { "*" } else { "" }
+            )
+        })
+        .collect();
+    plan.push(format!("  {}", labels.join(" · ")));
+    for t in rows.values() {
+        let unit = match t.kind {
+            PartKind::Resistor => Unit::Ohm,
+            PartKind::Capacitor => Unit::Farad,
+        };
+        plan.push(format!(
+            "  line {:>4} (row {}): {} {} {}: {} on hand → {} (for {})",
+            t.file_line,
+            t.row,
+            t.kind,
+            value::format(t.value, unit),
+            value::format(t.tolerance, Unit::Percent),
+            t.on_hand,
+            t.on_hand - t.pieces,
+            t.slots.join(", ")
+        ));
+    }
+    if rows.is_empty() {
+        plan.push("  nothing to take: every slot is locked".into());
+    }
+
+    if !args.yes {
+        for line in &plan {
+            say!("{line}");
+        }
+        say!(
+            "Dry run: nothing written. Add --yes to take these pieces; to take them later only if \
+             the file is unchanged, add --yes --expect-hash {hash}"
+        );
+        return Ok(EXIT_OK);
+    }
+    if rows.is_empty() {
+        for line in &plan {
+            say!("{line}");
+        }
+        return Ok(EXIT_OK);
+    }
+
+    // The file must still be the one the pick was made from.
+    let again = read_bounded(path, MAX_INVENTORY_BYTES, "inventory")?;
+    if hex_digest(&again) != hash {
+        return Err(Failure::input(anyhow!(
+            "the inventory {} changed while stockfit was working on it; nothing taken: run again",
+            path.display()
+        )));
+    }
+    let target = fs::canonicalize(path)
+        .with_context(|| format!("cannot resolve the inventory path {}", path.display()))?;
+    let backup = write_backup(&target, &original, SystemTime::now())
+        .with_context(|| format!("cannot write a backup of {}; nothing taken", path.display()))?;
+    replace_atomically(&target, &updated, &mut env_hook())
+        .with_context(|| format!("cannot replace {}; it is unchanged", path.display()))
+        .map_err(|e| Failure {
+            code: EXIT_BAD_INPUT,
+            error: e,
+        })?;
+    for line in &plan {
+        say!("{line}");
+    }
+    let pieces: u32 = rows.values().map(|t| t.pieces).sum();
+    say!(
+        "Took {pieces} piece(s) from {} line(s); backup of the old list: {}",
+        rows.len(),
+        backup.display()
+    );
+    Ok(EXIT_OK)
+}
+
+/// `FILE.bak-YYYYmmddTHHMMSS` (UTC) next to the file, never overwriting an earlier backup:
+/// a second backup in the same second gets `-2`, `-3`, ….
+fn write_backup(target: &Path, bytes: &[u8], now: SystemTime) -> io::Result<PathBuf> {
+    let stamp = timestamp(now);
+    let name = target
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "inventory".into());
+    for n in 1..1000 {
+        let suffix = if n == 1 {
+            String::new()
+        } else {
+            format!("-{n}")
+        };
+        let path = target.with_file_name(format!("{name}.bak-{stamp}{suffix}"));
+        match OpenOptions::new().write(true).create_new(true).open(&path) {
+            Ok(mut file) => {
+                file.write_all(bytes)?;
+                file.sync_all()?;
+                return Ok(path);
+            }
+            Err(e) if e.kind() == io::ErrorKind::AlreadyExists => continue,
+            Err(e) => return Err(e),
+        }
+    }
+    Err(io::Error::other("too many backups with the same timestamp"))
+}
+
+/// `YYYYmmddTHHMMSS` in UTC.
+fn timestamp(t: SystemTime) -> String {
+    let secs = t.duration_since(UNIX_EPOCH).map_or(0, |d| d.as_secs());
+    let days = i64::try_from(secs / 86_400).unwrap_or(0);
+    let rem = secs % 86_400;
+    let (y, m, d) = civil_from_days(days);
+    format!(
+        "{y:04}{m:02}{d:02}T{:02}{:02}{:02}",
+        rem / 3600,
+        rem / 60 % 60,
+        rem % 60
+    )
+}
+
+/// Proleptic Gregorian date of a day count since 1970-01-01: H. Hinnant, "chrono-Compatible
+/// Low-Level Date Algorithms", `civil_from_days` (from memory; checked against `date -u`).
+fn civil_from_days(z: i64) -> (i64, u32, u32) {
+    let z = z + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z.rem_euclid(146_097); // [0, 146096]
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365; // [0, 399]
+    let y = yoe + era * 400;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100); // [0, 365]
+    let mp = (5 * doy + 2) / 153; // [0, 11]
+    let d = (doy - (153 * mp + 2) / 5 + 1) as u32; // [1, 31]
+    let m = if mp < 10 { mp + 3 } else { mp - 9 } as u32; // [1, 12]
+    (if m <= 2 { y + 1 } else { y }, m, d)
+}
+
+/// Points inside [`replace_atomically`] where a test can make it fail or pause.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum WriteStage {
+    /// Half of the new bytes are in the temporary file.
+    PartWritten,
+    /// The temporary file is complete and synced; the rename is next.
+    BeforeRename,
+}
+
+/// Replaces `target` with `bytes` so that a crash at any moment leaves either the old file or
+/// the new one (POSIX rename(2) is atomic within a file system): a temporary file in the same
+/// folder, written and fsynced, renamed over the target, then the folder fsynced so the rename
+/// itself is durable (common practice, cf. the rename(2) and fsync(2) manual pages). The
+/// temporary file takes the target's permissions. `hook` runs at each [`WriteStage`]; an error
+/// from it aborts the write like an I/O error (the temporary file is removed).
+pub fn replace_atomically(
+    target: &Path,
+    bytes: &[u8],
+    hook: &mut dyn FnMut(WriteStage) -> io::Result<()>,
+) -> io::Result<()> {
+    let dir = match target.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    let name = target
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "inventory".into());
+    let tmp = dir.join(format!(".{name}.stockfit-tmp-{}", std::process::id()));
+    let result = (|| {
+        let mut file = OpenOptions::new().write(true).create_new(true).open(&tmp)?;
+        if let Ok(meta) = fs::metadata(target) {
+            fs::set_permissions(&tmp, meta.permissions())?;
+        }
+        let half = bytes.len() / 2;
+        file.write_all(&bytes[..half])?;
+        file.flush()?;
+        hook(WriteStage::PartWritten)?;
+        file.write_all(&bytes[half..])?;
+        file.sync_all()?;
+        drop(file);
+        hook(WriteStage::BeforeRename)?;
+        fs::rename(&tmp, target)
+    })();
+    if result.is_err() {
+        let _ = fs::remove_file(&tmp);
+        return result;
+    }
+    // Folders cannot be opened for syncing everywhere (Windows); the rename is done either way.
+    if let Ok(d) = File::open(&dir) {
+        let _ = d.sync_all();
+    }
+    Ok(())
+}
+
+/// The hook the binary runs with. Debug builds only: `STOCKFIT_TEST_PAUSE=part:MS` or
+/// `rename:MS` sleeps at that stage, so an integration test can kill the process there.
+fn env_hook() -> impl FnMut(WriteStage) -> io::Result<()> {
+    #[cfg(debug_assertions)]
+    let pause: Option<(WriteStage, u64)> =
+        std::env::var("STOCKFIT_TEST_PAUSE").ok().and_then(|v| {
+            let (at, ms) = v.split_once(':')?;
+            let stage = match at {
+                "part" => WriteStage::PartWritten,
+                "rename" => WriteStage::BeforeRename,
+                _ => return None,
+            };
+            Some((stage, ms.parse().ok()?))
+        });
+    #[cfg(not(debug_assertions))]
+    let pause: Option<(WriteStage, u64)> = None;
+    move |stage| {
+        if let Some((at, ms)) = pause {
+            if at == stage {
+                std::thread::sleep(std::time::Duration::from_millis(ms));
+            }
+        }
+        Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn timestamps_match_date_u() {
+        // `date -u -d @N +%Y%m%dT%H%M%S` for each N.
+        let at = |s: u64| timestamp(UNIX_EPOCH + std::time::Duration::from_secs(s));
+        assert_eq!(at(0), "19700101T000000");
+        assert_eq!(at(951_782_400), "20000229T000000");
+        assert_eq!(at(1_700_000_000), "20231114T221320");
+        assert_eq!(at(4_102_444_799), "20991231T235959");
+        assert_eq!(at(4_107_542_400), "21000301T000000");
+    }
+
+    #[test]
+    fn a_failure_before_the_rename_leaves_the_old_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let target = dir.path().join("stock.csv");
+        fs::write(&target, b"old contents\r\n").unwrap();
+        for stage in [WriteStage::PartWritten, WriteStage::BeforeRename] {
+            let mut hook = |s: WriteStage| {
+                if s == stage {
+                    Err(io::Error::other("injected"))
+                } else {
+                    Ok(())
+                }
+            };
+            let err = replace_atomically(&target, b"new contents, longer\n", &mut hook);
+            assert!(err.is_err(), "{stage:?}");
+            assert_eq!(fs::read(&target).unwrap(), b"old contents\r\n", "{stage:?}");
+            // No temporary file is left behind.
+            let names: Vec<_> = fs::read_dir(dir.path()).unwrap().collect();
+            assert_eq!(names.len(), 1, "{stage:?}: {names:?}");
+        }
+        replace_atomically(&target, b"new contents, longer\n", &mut |_| Ok(())).unwrap();
+        assert_eq!(fs::read(&target).unwrap(), b"new contents, longer\n");
+    }
+
+    #[cfg(unix)]
+    #[test]
+    fn the_new_file_keeps_the_permissions() {
+        use std::os::unix::fs::PermissionsExt;
+        let dir = tempfile::tempdir().unwrap();
+        let target = dir.path().join("stock.csv");
+        fs::write(&target, b"a").unwrap();
+        fs::set_permissions(&target, fs::Permissions::from_mode(0o640)).unwrap();
+        replace_atomically(&target, b"b", &mut |_| Ok(())).unwrap();
+        let mode = fs::metadata(&target).unwrap().permissions().mode() & 0o777;
+        assert_eq!(mode, 0o640);
+    }
+
+    #[test]
+    fn backups_never_overwrite_each_other() {
+        let dir = tempfile::tempdir().unwrap();
+        let target = dir.path().join("stock.csv");
+        let now = UNIX_EPOCH + std::time::Duration::from_secs(1_700_000_000);
+        let a = write_backup(&target, b"one", now).unwrap();
+        let b = write_backup(&target, b"two", now).unwrap();
+        assert_eq!(a.file_name().unwrap(), "stock.csv.bak-20231114T221320");
+        assert_eq!(b.file_name().unwrap(), "stock.csv.bak-20231114T221320-2");
+        assert_eq!(fs::read(a).unwrap(), b"one");
+        assert_eq!(fs::read(b).unwrap(), b"two");
+    }
+
+    #[test]
+    fn read_bounded_refuses_large_files_by_their_size() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("big.csv");
+        // A sparse file: its size says 1 GiB, nothing is written or read.
+        let f = File::create(&path).unwrap();
+        f.set_len(1 << 30).unwrap();
+        let e = read_bounded(&path, 16 << 20, "inventory").unwrap_err();
+        let text = format!("{:#}", e.error);
+        assert!(
+            text.contains("1024.0 MiB") && text.contains("16.0 MiB"),
+            "{text}"
+        );
+        fs::write(&path, b"small").unwrap();
+        assert_eq!(read_bounded(&path, 16, "inventory").unwrap(), b"small");
+        assert!(read_bounded(dir.path(), 16, "inventory").is_err());
+    }
+}

@@ -1,0 +1,581 @@
+//! Byte-exact stock updates: take pieces off inventory rows, changing nothing in the file but
+//! the digits of the affected `qty` cells.
+//!
+//! A stock list is the one file its owner cares about, often kept in a spreadsheet with their
+//! own columns, comments and quoting. [`deduct`] therefore does not re-write the CSV: it finds
+//! the byte span of each affected `qty` cell with a tokenizer that follows the loader's rules
+//! (RFC 4180 quoting, `#` comment lines, blank rows, a UTF-8 byte-order mark, LF, CRLF or CR
+//! line ends) and replaces only the digits inside it. Every other byte — column order, unknown
+//! columns, comments, row order, quotes, spaces, line ends — is copied as it was.
+//!
+//! The result is checked before it is returned: it must load, with the same lines in the same
+//! order, each equal to the original except for the quantity taken. Like the rest of the library
+//! this module does no I/O; the binary reads, hashes and replaces the file.
+
+use std::collections::BTreeMap;
+
+use super::inventory::{parse_bytes, Inventory, InventoryError, Line};
+
+/// One line that has fewer pieces than a deduction asks for.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Shortfall {
+    /// Data row ([`Line::row`]).
+    pub row: usize,
+    pub file_line: usize,
+    pub on_hand: u32,
+    pub wanted: u64,
+}
+
+/// Why a deduction was refused. Nothing is changed when any deduction fails.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum EditError {
+    /// The original does not load as an inventory.
+    #[error("{0}")]
+    Inventory(#[from] InventoryError),
+    #[error("data row {row} does not exist (the inventory has {rows} rows)")]
+    NoSuchRow { row: usize, rows: usize },
+    /// Every line with too few pieces, in row order.
+    #[error("{}", shortfall_message(.0))]
+    TooFew(Vec<Shortfall>),
+    /// The `qty` cell of a row could not be located as plain digits in the raw bytes.
+    #[error("line {file_line}: cannot edit the qty cell in place: {reason}")]
+    Layout { file_line: usize, reason: String },
+    /// The edited file does not load back as the original with only the quantities changed.
+    /// A bug guard: the edit is refused rather than written.
+    #[error("the edited inventory does not read back as expected ({0}); nothing was changed")]
+    Verify(String),
+}
+
+fn shortfall_message(list: &[Shortfall]) -> String {
+    let mut text = format!(
+        "{} line{} without enough pieces:",
+        list.len(),
+        if list.len() == 1 { "" } else { "s" }
+    );
+    for s in list {
+        text.push_str(&format!(
+            "\n  line {} (row {}): {} on hand, the build takes {}",
+            s.file_line, s.row, s.on_hand, s.wanted
+        ));
+    }
+    text
+}
+
+/// A field's place in the raw bytes.
+#[derive(Debug, Clone, Copy)]
+struct Field {
+    /// Whole field, quotes included: `[start, end)`.
+    start: usize,
+    end: usize,
+    /// Opened with a quote.
+    quoted: bool,
+}
+
+/// One record as the tokenizer saw it.
+#[derive(Debug, Clone)]
+struct Record {
+    file_line: usize,
+    fields: Vec<Field>,
+}
+
+/// The text of a field: quotes removed, `""` read as `"` (RFC 4180 §2.7). A field that goes on
+/// after its closing quote (`"ab"c`) keeps the rest, as the csv reader does.
+fn field_text(bytes: &[u8], f: Field) -> Vec<u8> {
+    let raw = &bytes[f.start..f.end];
+    if !f.quoted {
+        return raw.to_vec();
+    }
+    let mut out = Vec::with_capacity(raw.len());
+    let mut i = 1;
+    let mut inside = true;
+    while i < raw.len() {
+        let b = raw[i];
+        if inside && b == b'"' {
+            if raw.get(i + 1) == Some(&b'"') {
+                out.push(b'"');
+                i += 2;
+                continue;
+            }
+            inside = false;
+            i += 1;
+            continue;
+        }
+        out.push(b);
+        i += 1;
+    }
+    out
+}
+
+/// Splits the bytes into records with the loader's rules (see the module docs). Comment lines
+/// produce no record; a line with only blanks produces one, judged blank later.
+fn tokenize(bytes: &[u8], from: usize) -> Vec<Record> {
+    let mut records = Vec::new();
+    let mut line = 1 + bytes[..from].iter().filter(|&&b| b == b'\n').count();
+    let mut i = from;
+    let n = bytes.len();
+    while i < n {
+        // Line ends between records (the csv reader skips empty lines).
+        if bytes[i] == b'\n' || bytes[i] == b'\r' {
+            if bytes[i] == b'\n' {
+                line += 1;
+            }
+            i += 1;
+            continue;
+        }
+        if bytes[i] == b'#' {
+            while i < n && bytes[i] != b'\n' && bytes[i] != b'\r' {
+                i += 1;
+            }
+            continue;
+        }
+        let file_line = line;
+        let mut fields = Vec::new();
+        loop {
+            let start = i;
+            let quoted = i < n && bytes[i] == b'"';
+            if quoted {
+                i += 1;
+                // Inside quotes until a quote that is not doubled.
+                while i < n {
+                    match bytes[i] {
+                        b'"' if bytes.get(i + 1) == Some(&b'"') => i += 2,
+                        b'"' => {
+                            i += 1;
+                            break;
+                        }
+                        b'\n' => {
+                            line += 1;
+                            i += 1;
+                        }
+                        _ => i += 1,
+                    }
+                }
+            }
+            while i < n && !matches!(bytes[i], b',' | b'\n' | b'\r') {
+                i += 1;
+            }
+            fields.push(Field {
+                start,
+                end: i,
+                quoted,
+            });
+            if i < n && bytes[i] == b',' {
+                i += 1;
+                continue;
+            }
+            break;
+        }
+        records.push(Record { file_line, fields });
+    }
+    records
+}
+
+/// The loader's rule for records that carry no data: all cells blank, or the first cell starts
+/// with `#` after blanks (an indented comment).
+fn is_blank(bytes: &[u8], r: &Record) -> bool {
+    let texts: Vec<Vec<u8>> = r.fields.iter().map(|f| field_text(bytes, *f)).collect();
+    let first_is_comment = texts
+        .first()
+        .is_some_and(|t| t.trim_ascii_start().starts_with(b"#"));
+    first_is_comment || texts.iter().all(|t| t.trim_ascii().is_empty())
+}
+
+/// The loader's header matching: trimmed, case-insensitive, blanks and dashes as underscores.
+fn is_qty_header(text: &[u8]) -> bool {
+    let name: String = String::from_utf8_lossy(text)
+        .trim()
+        .chars()
+        .map(|c| match c {
+            ' ' | '-' => '_',
+            c => c.to_ascii_lowercase(),
+        })
+        .collect();
+    name == "qty"
+}
+
+/// The byte span of the digits inside a qty cell (`12`, ` 12 `, `"+12"`), or why there is none.
+fn digit_span(bytes: &[u8], f: Field) -> Result<(usize, usize), String> {
+    let (mut lo, mut hi) = (f.start, f.end);
+    if f.quoted {
+        lo += 1;
+        // The closing quote must end the field for the digits to be all there is inside.
+        if hi <= lo || bytes[hi - 1] != b'"' {
+            return Err("the quoted cell goes on after its closing quote".into());
+        }
+        hi -= 1;
+    }
+    let cell = &bytes[lo..hi];
+    let first = cell
+        .iter()
+        .position(u8::is_ascii_digit)
+        .ok_or("no digits in the cell")?;
+    let last = cell
+        .iter()
+        .rposition(u8::is_ascii_digit)
+        .ok_or("no digits in the cell")?;
+    if !cell[first..=last].iter().all(u8::is_ascii_digit) {
+        return Err("the cell is not one number".into());
+    }
+    Ok((lo + first, lo + last + 1))
+}
+
+/// Takes `n` pieces off each data row ([`Line::row`], 1-based) and returns the new file bytes.
+/// The same row may appear several times; its deductions add up. Rows with `n == 0` are left
+/// alone byte for byte. Refuses — changing nothing — when the original does not load, a row
+/// does not exist, or any line has fewer pieces than asked (all such lines are listed).
+pub fn deduct(original: &[u8], deductions: &[(usize, u32)]) -> Result<Vec<u8>, EditError> {
+    let inventory = parse_bytes(original)?;
+    let mut wanted: BTreeMap<usize, u64> = BTreeMap::new();
+    for &(row, n) in deductions {
+        if row == 0 || row > inventory.lines.len() {
+            return Err(EditError::NoSuchRow {
+                row,
+                rows: inventory.lines.len(),
+            });
+        }
+        if n > 0 {
+            *wanted.entry(row).or_insert(0) += u64::from(n);
+        }
+    }
+    let line_of = |row: usize| -> &Line { &inventory.lines[row - 1] };
+    let short: Vec<Shortfall> = wanted
+        .iter()
+        .filter(|(&row, &n)| u64::from(line_of(row).qty) < n)
+        .map(|(&row, &n)| Shortfall {
+            row,
+            file_line: line_of(row).file_line,
+            on_hand: line_of(row).qty,
+            wanted: n,
+        })
+        .collect();
+    if !short.is_empty() {
+        return Err(EditError::TooFew(short));
+    }
+    if wanted.is_empty() {
+        return Ok(original.to_vec());
+    }
+
+    let from = if original.starts_with(b"\xEF\xBB\xBF") {
+        3
+    } else {
+        0
+    };
+    let records: Vec<Record> = tokenize(original, from)
+        .into_iter()
+        .filter(|r| !is_blank(original, r))
+        .collect();
+    let Some((header, rows)) = records.split_first() else {
+        return Err(EditError::Verify("no header found".into()));
+    };
+    let qty_column = header
+        .fields
+        .iter()
+        .position(|f| is_qty_header(&field_text(original, *f)))
+        .ok_or_else(|| EditError::Verify("no qty column found".into()))?;
+
+    let mut edits: Vec<(usize, usize, String)> = Vec::new();
+    for (&row, &n) in &wanted {
+        let line = line_of(row);
+        let record = rows
+            .get(row - 1)
+            .ok_or_else(|| EditError::Verify(format!("row {row} not found")))?;
+        if record.file_line != line.file_line {
+            return Err(EditError::Verify(format!(
+                "row {row} is on line {} for the loader and {} for the editor",
+                line.file_line, record.file_line
+            )));
+        }
+        let field = record
+            .fields
+            .get(qty_column)
+            .copied()
+            .ok_or_else(|| EditError::Layout {
+                file_line: line.file_line,
+                reason: "the row has no qty cell".into(),
+            })?;
+        let (lo, hi) = digit_span(original, field).map_err(|reason| EditError::Layout {
+            file_line: line.file_line,
+            reason,
+        })?;
+        // `wanted ≤ qty` was checked above, so this does not underflow.
+        let left = u64::from(line.qty) - n;
+        edits.push((lo, hi, left.to_string()));
+    }
+    edits.sort_by_key(|e| e.0);
+
+    let mut out = Vec::with_capacity(original.len());
+    let mut at = 0;
+    for (lo, hi, text) in &edits {
+        out.extend_from_slice(&original[at..*lo]);
+        out.extend_from_slice(text.as_bytes());
+        at = *hi;
+    }
+    out.extend_from_slice(&original[at..]);
+
+    verify(&inventory, &wanted, &out)?;
+    Ok(out)
+}
+
+/// The edited bytes load to the original lines with only the quantities taken.
+fn verify(
+    before: &Inventory,
+    wanted: &BTreeMap<usize, u64>,
+    after: &[u8],
+) -> Result<(), EditError> {
+    let after = parse_bytes(after).map_err(|e| EditError::Verify(e.to_string()))?;
+    if after.lines.len() != before.lines.len() {
+        return Err(EditError::Verify(format!(
+            "{} lines before, {} after",
+            before.lines.len(),
+            after.lines.len()
+        )));
+    }
+    for (old, new) in before.lines.iter().zip(&after.lines) {
+        let taken = wanted.get(&old.row).copied().unwrap_or(0);
+        let mut expected = old.clone();
+        expected.qty =
+            u32::try_from(u64::from(old.qty) - taken.min(u64::from(old.qty))).unwrap_or(0);
+        if &expected != new {
+            return Err(EditError::Verify(format!("line {} changed", old.file_line)));
+        }
+    }
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    fn qtys(bytes: &[u8]) -> Vec<u32> {
+        parse_bytes(bytes)
+            .unwrap()
+            .lines
+            .iter()
+            .map(|l| l.qty)
+            .collect()
+    }
+
+    #[test]
+    fn only_the_qty_digits_change() {
+        let before = "\u{feff}# drawer list\r\nValue,Kind,Where,QTY,Tolerance,extra\r\n\
+                      4k7,r,\"A, left\",12,5%,x\r\n\r\n# moved\r\n10n,c,B,\" 7 \",10%,\"y\"\"z\"\r\n";
+        let after = deduct(before.as_bytes(), &[(1, 2), (2, 7)]).unwrap();
+        let expected = before.replace(",12,", ",10,").replace("\" 7 \"", "\" 0 \"");
+        assert_eq!(String::from_utf8(after).unwrap(), expected);
+    }
+
+    #[test]
+    fn deductions_on_one_row_add_up_and_zero_is_no_change() {
+        let before = b"kind,value,tolerance,qty\nr,1k,1%,007\nr,2k,1%,5\n";
+        assert_eq!(deduct(before, &[]).unwrap(), before.to_vec());
+        assert_eq!(deduct(before, &[(1, 0)]).unwrap(), before.to_vec());
+        let after = deduct(before, &[(2, 1), (2, 2)]).unwrap();
+        assert_eq!(
+            after,
+            b"kind,value,tolerance,qty\nr,1k,1%,007\nr,2k,1%,2\n".to_vec()
+        );
+        // Taking from a zero-padded cell replaces its digits.
+        let after = deduct(before, &[(1, 2)]).unwrap();
+        assert_eq!(qtys(&after), [5, 5]);
+    }
+
+    #[test]
+    fn too_few_pieces_are_all_listed_and_nothing_changes() {
+        let before = b"kind,value,tolerance,qty\nr,1k,1%,1\nr,2k,1%,5\nr,3k,1%,0\n";
+        match deduct(before, &[(1, 2), (2, 5), (3, 1)]) {
+            Err(EditError::TooFew(list)) => {
+                let rows: Vec<(usize, usize, u32, u64)> = list
+                    .iter()
+                    .map(|s| (s.row, s.file_line, s.on_hand, s.wanted))
+                    .collect();
+                assert_eq!(rows, [(1, 2, 1, 2), (3, 4, 0, 1)]);
+            }
+            other => panic!("{other:?}"),
+        }
+        assert_eq!(
+            deduct(before, &[(4, 1)]),
+            Err(EditError::NoSuchRow { row: 4, rows: 3 })
+        );
+        assert_eq!(
+            deduct(before, &[(0, 1)]),
+            Err(EditError::NoSuchRow { row: 0, rows: 3 })
+        );
+    }
+
+    #[test]
+    fn an_inventory_that_does_not_load_is_not_edited() {
+        let bad = b"kind,value,tolerance,qty\nr,1k,1%,many\n";
+        assert!(matches!(
+            deduct(bad, &[(1, 1)]),
+            Err(EditError::Inventory(InventoryError::Rows(_)))
+        ));
+    }
+
+    #[test]
+    fn multi_line_quoted_cells_and_lone_cr_line_ends() {
+        let before =
+            "kind,note,value,tolerance,qty\nr,\"two\nlines, \"\"quoted\"\"\",1k,1%,3\nc,,1n,5%,4\n";
+        let after = deduct(before.as_bytes(), &[(2, 1)]).unwrap();
+        assert_eq!(
+            String::from_utf8(after).unwrap(),
+            before.replace(",4\n", ",3\n")
+        );
+        let cr = "kind,value,tolerance,qty\rr,1k,1%,3\rc,1n,5%,4\r";
+        let after = deduct(cr.as_bytes(), &[(1, 3)]).unwrap();
+        assert_eq!(
+            String::from_utf8(after).unwrap(),
+            cr.replace(",3\r", ",0\r")
+        );
+    }
+
+    // ---- generated CSVs -----------------------------------------------------------------
+
+    /// One generated data row: its cells as text (unquoted), and how it is written.
+    #[derive(Debug, Clone)]
+    struct Row {
+        kind: &'static str,
+        value: &'static str,
+        tol: &'static str,
+        qty: u32,
+        extra: String,
+        quote_qty: bool,
+        pad_qty: bool,
+        comment_before: bool,
+        blank_before: bool,
+    }
+
+    /// Writes a CSV from the rows; `qty_of` gives the qty printed for each row, so the same
+    /// layout can be rendered with the quantities before and after.
+    fn render(
+        rows: &[Row],
+        order: &[usize; 5],
+        eol: &str,
+        bom: bool,
+        qty_of: &dyn Fn(usize) -> u32,
+    ) -> String {
+        let names = ["kind", "value", "tolerance", " Qty ", "supplier note"];
+        let mut text = String::new();
+        if bom {
+            text.push('\u{feff}');
+        }
+        text.push_str("# generated\n");
+        let header: Vec<&str> = order.iter().map(|&i| names[i]).collect();
+        text.push_str(&header.join(","));
+        text.push_str(eol);
+        for (i, r) in rows.iter().enumerate() {
+            if r.comment_before {
+                text.push_str(&format!("# row {i}, \"quoted\"{eol}"));
+            }
+            if r.blank_before {
+                text.push_str(eol);
+            }
+            let q = qty_of(i);
+            let qty = match (r.quote_qty, r.pad_qty) {
+                (true, true) => format!("\" {q} \""),
+                (true, false) => format!("\"{q}\""),
+                (false, true) => format!(" {q}"),
+                (false, false) => q.to_string(),
+            };
+            // Starts with a letter: a first cell starting with `#` would make the row a comment.
+            let extra = format!("\"x{}\"", r.extra.replace('"', "\"\""));
+            let cells = [
+                r.kind.to_string(),
+                r.value.to_string(),
+                format!("\"{}\"", r.tol),
+                qty,
+                extra,
+            ];
+            let line: Vec<&str> = order.iter().map(|&i| cells[i].as_str()).collect();
+            text.push_str(&line.join(","));
+            text.push_str(eol);
+        }
+        text
+    }
+
+    fn row() -> impl Strategy<Value = Row> {
+        (
+            prop::sample::select(vec![
+                ("r", "4k7"),
+                ("resistor", "10 kΩ"),
+                ("c", "100n"),
+                ("cap", "4u7"),
+            ]),
+            prop::sample::select(vec!["1%", "5 %", "10"]),
+            0u32..1000,
+            "[a-z ,\"\n#]{0,12}",
+            any::<(bool, bool, bool, bool)>(),
+        )
+            .prop_map(|((kind, value), tol, qty, extra, (q, p, c, b))| Row {
+                kind,
+                value,
+                tol,
+                qty,
+                extra,
+                quote_qty: q,
+                pad_qty: p,
+                comment_before: c,
+                blank_before: b,
+            })
+    }
+
+    proptest! {
+        /// Deducting from a generated CSV (random quoting, padding, CRLF or LF, comments, blank
+        /// lines, an unknown column with quotes, commas and line breaks in it, any column
+        /// order, with or without BOM) changes exactly the qty cells: the output is the same
+        /// CSV rendered with the new quantities.
+        #[test]
+        fn deduct_changes_only_the_qty_cells(
+            rows in prop::collection::vec(row(), 1..12),
+            order in Just([0usize, 1, 2, 3, 4]).prop_shuffle(),
+            crlf in any::<bool>(),
+            bom in any::<bool>(),
+            picks in prop::collection::vec((0usize..12, 0u32..50), 0..6),
+        ) {
+            let eol = if crlf { "\r\n" } else { "\n" };
+            let before = render(&rows, &order, eol, bom, &|i| rows[i].qty);
+            let mut taken = vec![0u64; rows.len()];
+            let mut deductions = Vec::new();
+            for (i, n) in picks {
+                let i = i % rows.len();
+                taken[i] += u64::from(n);
+                deductions.push((i + 1, n));
+            }
+            let result = deduct(before.as_bytes(), &deductions);
+            let enough = rows.iter().zip(&taken).all(|(r, &t)| u64::from(r.qty) >= t);
+            if enough {
+                let after = result.unwrap();
+                let expected = render(&rows, &order, eol, bom, &|i| {
+                    if taken[i] == 0 { rows[i].qty } else { rows[i].qty - taken[i] as u32 }
+                });
+                // Rows not deducted keep their exact text, so render them with the old qty;
+                // rows deducted by 0 likewise.
+                prop_assert_eq!(String::from_utf8(after).unwrap(), expected);
+            } else {
+                let is_too_few = matches!(result, Err(EditError::TooFew(_)));
+                prop_assert!(is_too_few, "{:?}", result);
+            }
+        }
+
+        /// Arbitrary bytes and deductions never panic.
+        #[test]
+        fn arbitrary_input_never_panics(
+            bytes in prop::collection::vec(any::<u8>(), 0..400),
+            deductions in prop::collection::vec((0usize..20, any::<u32>()), 0..5),
+        ) {
+            let _ = deduct(&bytes, &deductions);
+        }
+
+        /// CSV-shaped noise behind a valid header: whatever deduct returns loads back.
+        #[test]
+        fn whatever_deduct_returns_loads(
+            body in "([rc],(1k|4u7|\"2k2\"),(1%|\"5 %\"),( 3|\"4\"|12|0)(,[a-z\"#]{0,4})?(\r\n|\n|\r)|#[a-z,\"]{0,5}\n|\n){1,12}",
+            deductions in prop::collection::vec((1usize..8, 0u32..4), 0..4),
+        ) {
+            let text = format!("kind,value,tolerance,qty,note\n{body}");
+            if let Ok(after) = deduct(text.as_bytes(), &deductions) {
+                prop_assert!(parse_bytes(&after).is_ok());
+            }
+        }
+    }
+}
