@@ -241,8 +241,7 @@ impl Build {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
 pub enum LineKey {
     Row(PartKind, usize),
-    /// A series value or lock: value in units of 1e-15 (exact for IEC 60063 decimals) and
-    /// tolerance in ppm.
+    /// A series value or lock: value in steps of [`quantum`] and tolerance in ppm.
     Value(PartKind, i64, i64),
 }
 
@@ -252,18 +251,19 @@ impl LineKey {
             Some(row) => LineKey::Row(kind, row),
             None => LineKey::Value(
                 kind,
-                (piece.value * 1e15 / value_scale(kind)).round() as i64,
+                (piece.value / quantum(kind)).round() as i64,
                 (piece.tolerance * 1e6).round() as i64,
             ),
         }
     }
 }
 
-/// Keeps the fixed-point key inside i64 for both resistors (up to TΩ) and capacitors (down to fF).
-fn value_scale(kind: PartKind) -> f64 {
+/// Fixed-point step of a value key: 1 µΩ up to 9 TΩ, 1 aF up to 9 F, exact for every
+/// IEC 60063 decimal in those ranges and inside i64.
+fn quantum(kind: PartKind) -> f64 {
     match kind {
-        PartKind::Resistor => 1e6,
-        PartKind::Capacitor => 1e-12,
+        PartKind::Resistor => 1e-6,
+        PartKind::Capacitor => 1e-18,
     }
 }
 
@@ -302,6 +302,16 @@ mod tests {
         let b = a.clone();
         let part = Part::pair(PartKind::Capacitor, Arrangement::Series, a, b);
         assert_relative_eq!(part.voltage_rating().unwrap(), 32.0);
+    }
+
+    #[test]
+    fn large_capacitors_are_distinct_lines() {
+        // 10 µF and 22 µF are two values to stock, not one (regression: the key overflowed).
+        let c = |v| Part::single(PartKind::Capacitor, Piece::plain(v, 0.2));
+        let build = Build {
+            parts: vec![c(10e-6), c(22e-6), c(10e-6), c(1e-3)],
+        };
+        assert_eq!(build.bom_lines(), 3);
     }
 
     #[test]

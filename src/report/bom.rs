@@ -245,7 +245,13 @@ pub fn cells(item: usize, r: &BomRow) -> Vec<String> {
         r.quantity.to_string(),
         r.on_hand.map_or(String::new(), |q| q.to_string()),
         rating,
-        if r.polarized { "yes" } else { "no" }.into(),
+        // A series value says nothing about polarity: blank, not "no".
+        match (r.polarized, r.inventory_row) {
+            (true, _) => "yes",
+            (false, Some(_)) => "no",
+            (false, None) => "",
+        }
+        .into(),
         r.dielectric.clone().unwrap_or_default(),
         r.inventory_row.map_or(String::new(), |q| q.to_string()),
         r.location.clone().unwrap_or_default(),
