@@ -185,6 +185,8 @@ pub struct Spec {
     pub input_peak: Option<f64>,
     pub output_peak: Option<f64>,
     pub tolerance_mode: ToleranceMode,
+    /// Most current the bias divider may draw from the supply (battery life), A.
+    pub bias_current_max: Option<f64>,
     pub amplifier: Amplifier,
     pub stock: StockSpec,
     pub goals: Goals,
@@ -266,6 +268,7 @@ const STAGE_KEYS: &[&str] = &[
     "input_peak",
     "output_peak",
     "tolerance_mode",
+    "bias_current_max",
 ];
 const AMPLIFIER_KEYS: &[&str] = &[
     "gbw",
@@ -943,6 +946,7 @@ impl Spec {
             .unwrap_or(0.0);
         let input_peak = r.positive(s, stage_t, "input_peak", Unit::Volt);
         let output_peak = r.positive(s, stage_t, "output_peak", Unit::Volt);
+        let bias_current_max = r.positive(s, stage_t, "bias_current_max", Unit::Ampere);
         let tolerance_mode = match r.text(s, stage_t, "tolerance_mode").as_deref() {
             None => ToleranceMode::Worst,
             Some("worst") | Some("worst-case") | Some("worst_case") => ToleranceMode::Worst,
@@ -1226,6 +1230,7 @@ impl Spec {
             input_peak,
             output_peak,
             tolerance_mode,
+            bias_current_max,
             amplifier,
             stock: StockSpec {
                 resistors,

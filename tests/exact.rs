@@ -74,7 +74,7 @@ fn case_strategy(combine: &'static str, n_res: usize, n_cap: usize) -> impl Stra
                     t += &format!("gbw = {gbw}\n");
                 }
                 t += &format!(
-                    "[stock]\nresistor_range = [1, 1e9]\ncapacitor_range = [1e-13, 1]\ncombine = \"{combine}\"\n"
+                    "[stock]\nresistor_range = [1, 1e8]\ncapacitor_range = [1e-12, 0.01]\ncombine = \"{combine}\"\n"
                 );
                 t += "[goals]\ncost = 0.5\n";
                 let tols = ["1%", "5%", "0.1%"];

@@ -69,15 +69,19 @@ fn run_case(dir: &Path, case: &Case) -> Result<(), String> {
     std::fs::write(&path, &case.bytes).unwrap();
     let mut cmd = Command::cargo_bin("stockfit").unwrap();
     match case.run {
-        Run::Spec => cmd.arg("pick").arg(&path),
+        Run::Spec => cmd.arg("pick").arg(&path).arg("--quiet"),
         Run::Stock => cmd.arg("stock").arg(&path),
         Run::PickStock => {
             let spec = dir.join("valid-for-stock.toml");
             std::fs::write(&spec, BASE).unwrap();
-            cmd.arg("pick").arg(&spec).arg("--stock").arg(&path)
+            cmd.arg("pick")
+                .arg(&spec)
+                .arg("--stock")
+                .arg(&path)
+                .arg("--quiet")
         }
     };
-    let out = cmd.arg("--quiet").output().unwrap();
+    let out = cmd.output().unwrap();
     let stdout = String::from_utf8_lossy(&out.stdout);
     let stderr = String::from_utf8_lossy(&out.stderr);
     let mut problems = Vec::new();

@@ -142,6 +142,8 @@ pub struct Metrics {
     /// Worst-case input peak: swing / |gain|max.
     pub input_range_peak_v: f64,
     pub divider_current_a: f64,
+    /// Highest divider current over the tolerance corners.
+    pub divider_current_worst_a: f64,
     pub part_count: usize,
     pub bom_lines: usize,
     pub cost: Option<f64>,
@@ -367,6 +369,10 @@ pub fn evaluate(
         swing_peak_v: swing,
         input_range_peak_v: input_range,
         divider_current_a: dc.divider_current,
+        divider_current_worst_a: dc_points
+            .iter()
+            .map(|(_, p)| p.divider_current)
+            .fold(0.0, f64::max),
         part_count: build.piece_count(),
         bom_lines: build.bom_lines(),
         cost: build.cost(),
@@ -579,6 +585,16 @@ fn checks(
             ));
         }
     }
+    if let Some(max) = spec.bias_current_max {
+        out.push(Check::new(
+            "divider_current",
+            format!("{worst} bias divider current"),
+            m.divider_current_worst_a,
+            Bound::Max,
+            max,
+            Unit::Ampere,
+        ));
+    }
     if let Some(fits) = fits {
         out.push(Check::new(
             "quantity",
@@ -590,4 +606,40 @@ fn checks(
         ));
     }
     out
+}
+
+#[cfg(test)]
+mod divider_current_tests {
+    use super::*;
+    use crate::build::Piece;
+
+    #[test]
+    fn divider_current_is_checked_against_its_limit() {
+        // Ohm's law (common practice): 9 V across 10 k + 10 k draws 450 µA; across
+        // 1 M + 1 M, 4.5 µA. With 1 % parts the worst case is 9 V / (2 · 9.9 kΩ).
+        let spec = Spec::from_toml(
+            "[stage]\nkind = \"inverting\"\nsupply = 9\ngain = -10\nload = 10000\nband = [20, 20000]\nbias_current_max = \"100 uA\"\n",
+        )
+        .unwrap();
+        let stage = crate::stage::stage_for(spec.stage);
+        let r = |v: f64| Part::single(PartKind::Resistor, Piece::plain(v, 0.01));
+        let c = |v: f64| Part::single(PartKind::Capacitor, Piece::plain(v, 0.1));
+        let judge = |div: f64| {
+            let build = Build {
+                parts: vec![r(10e3), r(100e3), r(div), r(div), c(10e-6), c(10e-6)],
+            };
+            let e = evaluate(&spec, stage, &build, None);
+            let check = e
+                .checks
+                .iter()
+                .find(|c| c.name == "divider_current")
+                .cloned()
+                .unwrap();
+            (e.metrics.divider_current_worst_a, check.pass)
+        };
+        let (i, pass) = judge(10e3);
+        assert!((i - 9.0 / 19.8e3).abs() < 1e-12);
+        assert!(!pass);
+        assert!(judge(1e6).1);
+    }
 }

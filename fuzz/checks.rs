@@ -1,0 +1,104 @@
+//! What each fuzz target checks on one input. Shared (by `#[path]`) between the cargo-fuzz
+//! targets in `fuzz_targets/` and the bounded proptest run in `tests/fuzz_props.rs`, so that
+//! the CI run on stable Rust exercises exactly what a long nightly campaign does.
+//!
+//! Every check panics on a broken promise — that is how both libFuzzer and proptest see a
+//! finding — and never on mere bad input, which the library must answer with an error.
+
+#![allow(dead_code)]
+
+use stockfit::spec::Spec;
+use stockfit::stock::edit::{self, EditError};
+use stockfit::stock::inventory::{self, Inventory};
+use stockfit::value::{self, Unit};
+
+/// The value parser: no panic for any text and unit; whatever parses is finite, and prints
+/// back (17 significant digits, enough for any f64) to text that parses to the same value.
+pub fn value(data: &[u8]) {
+    let Ok(text) = std::str::from_utf8(data) else {
+        return;
+    };
+    for unit in Unit::ALL {
+        let Ok(v) = value::parse(text, unit) else {
+            continue;
+        };
+        assert!(v.is_finite(), "{text:?} as {unit:?} gave {v}");
+        let printed = value::format_sig(v, unit, 17);
+        match value::parse(&printed, unit) {
+            Ok(back) => assert!(
+                back == v,
+                "{text:?} as {unit:?}: {v:e} printed {printed:?} parsed back as {back:e}"
+            ),
+            Err(e) => panic!("{text:?} as {unit:?}: {v:e} printed {printed:?} does not parse: {e}"),
+        }
+    }
+}
+
+/// The inventory loader and the stock editor: no panic for any bytes; every loaded line keeps
+/// the documented ranges; taking a piece from every line that has one either changes exactly
+/// those quantities or is refused as not editable in place — never a different file.
+pub fn inventory(data: &[u8]) {
+    let inv = match Inventory::from_reader(data) {
+        Ok(inv) => inv,
+        Err(e) => {
+            let _ = e.to_string();
+            return;
+        }
+    };
+    for l in &inv.lines {
+        assert!(l.value.is_finite() && l.value > 0.0, "{l:?}");
+        assert!(l.tolerance > 0.0 && l.tolerance < 1.0, "{l:?}");
+        assert!(l.file_line >= 1 && l.row >= 1, "{l:?}");
+    }
+    let deductions: Vec<(usize, u32)> = inv
+        .lines
+        .iter()
+        .filter(|l| l.qty > 0)
+        .map(|l| (l.row, 1))
+        .collect();
+    match edit::deduct(data, &deductions) {
+        Ok(after) => {
+            let again = inventory::parse_bytes(&after).expect("the edited file loads");
+            assert_eq!(again.lines.len(), inv.lines.len());
+            for (old, new) in inv.lines.iter().zip(&again.lines) {
+                let mut expected = old.clone();
+                expected.qty = old.qty.saturating_sub(1);
+                assert_eq!(&expected, new);
+            }
+            // Nothing but digits changed: same bytes outside the digit runs.
+            let strip = |b: &[u8]| -> Vec<u8> {
+                b.iter().copied().filter(|c| !c.is_ascii_digit()).collect()
+            };
+            assert_eq!(strip(data), strip(&after), "only digits change");
+        }
+        // A qty cell written in a way the editor will not touch (`"1"2`): refused, fine.
+        Err(EditError::Layout { .. }) => {}
+        Err(e) => panic!("a loadable inventory could not be edited: {e}"),
+    }
+}
+
+/// The spec loader: no panic for any bytes; a spec that loads keeps its invariants; every error
+/// that names a line names one inside the file.
+pub fn spec(data: &[u8]) {
+    let lines = 1 + data.iter().filter(|&&b| b == b'\n').count();
+    match Spec::from_bytes(data) {
+        Ok(s) => {
+            assert!(s.supply > 0.0 && s.supply.is_finite(), "{s:?}");
+            assert!(s.load > 0.0, "{s:?}");
+            assert!(s.band.0 > 0.0 && s.band.1 > s.band.0, "{s:?}");
+            assert!(s.headroom.0 + s.headroom.1 < s.supply, "{s:?}");
+            for l in &s.locks {
+                assert!(l.value > 0.0 && l.value.is_finite(), "{l:?}");
+            }
+        }
+        Err(errors) => {
+            assert!(!errors.0.is_empty());
+            for e in &errors.0 {
+                if let Some(line) = e.line {
+                    assert!((1..=lines).contains(&line), "{e} (the file has {lines} lines)");
+                }
+            }
+            let _ = errors.to_string();
+        }
+    }
+}
