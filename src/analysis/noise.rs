@@ -27,11 +27,10 @@
 //! A source resistance sits where the signal enters, so its transfer is the stage's signal
 //! response; the tests hold the two together.
 
-use crate::spec::{Spec, StageKind};
-use crate::stage::{common, inverting, non_inverting, OpAmp, Stage};
+use crate::spec::Spec;
+use crate::stage::{OpAmp, Stage};
 use num_complex::Complex64;
 use serde::Serialize;
-use std::f64::consts::PI;
 
 /// Boltzmann constant, J/K: exact in the 2019 SI (SI Brochure, 9th edition).
 pub const BOLTZMANN: f64 = 1.380649e-23;
@@ -100,89 +99,16 @@ pub struct NoiseReport {
     pub by_source: Vec<SourceNoise>,
 }
 
-/// Where a resistor's noise voltage sits (see the module docs).
-#[derive(Debug, Clone, Copy)]
-enum Place {
-    /// In series with Z_f.
-    Feedback,
-    /// In series with Z_s.
-    Shunt,
-    /// In series with a branch of this impedance from the + input to AC ground.
-    Plus(Complex64),
-}
-
-/// The impedances around the op-amp at one frequency, and the resistors that make noise.
-struct Circuit {
-    z_f: Complex64,
-    z_s: Complex64,
-    z_p: Complex64,
-    h_out: Complex64,
-    resistors: Vec<(&'static str, f64, Place)>,
-}
-
-fn cap(c: f64, f: f64) -> Complex64 {
-    Complex64::new(0.0, -1.0 / (2.0 * PI * f * c))
-}
+pub use crate::stage::{NoiseCircuit as Circuit, NoisePlace as Place};
 
 fn re(r: f64) -> Complex64 {
     Complex64::new(r, 0.0)
 }
 
-/// Name of a slot, for the breakdown.
-fn name(stage: &dyn Stage, slot: usize) -> &'static str {
-    stage.slots()[slot].name
-}
-
-/// The noise circuit of each stage. These belong in the `Stage` trait (one method returning
-/// Z_f, Z_s, Z_p, H_out and the resistors' places); kept here until it has one.
+/// The stage's noise circuit at `f` (each stage describes its own, see
+/// [`Stage::noise_circuit`]).
 fn circuit(stage: &dyn Stage, spec: &Spec, v: &[f64], f: f64) -> Circuit {
-    let rs = spec.source_resistance;
-    let mut resistors = Vec::new();
-    match stage.kind() {
-        StageKind::Inverting => {
-            use inverting::*;
-            // − input: R_fb to the output; R_in, c_in and the source's resistance to the
-            // source (AC ground for noise). + input: the divider (the supply is AC ground).
-            let (hi, lo) = (v[R_BIAS_HI], v[R_BIAS_LO]);
-            resistors.push((name(stage, R_IN), v[R_IN], Place::Shunt));
-            if rs > 0.0 {
-                resistors.push(("source_resistance", rs, Place::Shunt));
-            }
-            resistors.push((name(stage, R_FB), v[R_FB], Place::Feedback));
-            resistors.push((name(stage, R_BIAS_HI), hi, Place::Plus(re(hi))));
-            resistors.push((name(stage, R_BIAS_LO), lo, Place::Plus(re(lo))));
-            Circuit {
-                z_f: re(v[R_FB]),
-                z_s: re(rs + v[R_IN]) + cap(v[C_IN], f),
-                z_p: re(common::parallel(hi, lo)),
-                h_out: common::high_pass(spec.load, v[C_OUT], f),
-                resistors,
-            }
-        }
-        StageKind::NonInverting => {
-            use non_inverting::*;
-            // − input: R_fb to the output, R_g + c_g to ground. + input: the divider in
-            // parallel with the input branch (c_in and the source's resistance).
-            let (hi, lo) = (v[R_BIAS_HI], v[R_BIAS_LO]);
-            let branch = re(rs) + cap(v[C_IN], f);
-            let one = re(1.0);
-            let z_p = one / (one / hi + one / lo + one / branch);
-            resistors.push((name(stage, R_BIAS_HI), hi, Place::Plus(re(hi))));
-            resistors.push((name(stage, R_BIAS_LO), lo, Place::Plus(re(lo))));
-            if rs > 0.0 {
-                resistors.push(("source_resistance", rs, Place::Plus(branch)));
-            }
-            resistors.push((name(stage, R_FB), v[R_FB], Place::Feedback));
-            resistors.push((name(stage, R_G), v[R_G], Place::Shunt));
-            Circuit {
-                z_f: re(v[R_FB]),
-                z_s: re(v[R_G]) + cap(v[C_G], f),
-                z_p,
-                h_out: common::high_pass(spec.load, v[C_OUT], f),
-                resistors,
-            }
-        }
-    }
+    stage.noise_circuit(spec, v, f)
 }
 
 /// Noise power density at the load (V²/Hz) of each source at `f`: the resistors (in the

@@ -233,6 +233,31 @@ impl Stage for Inverting {
         }
     }
 
+    fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> super::NoiseCircuit {
+        use super::NoisePlace as Place;
+        let re = |r: f64| Complex64::new(r, 0.0);
+        let name = |slot: usize| SLOTS[slot].name;
+        let rs = spec.source_resistance;
+        let mut resistors = Vec::new();
+        // − input: R_fb to the output; R_in, c_in and the source's resistance to the
+        // source (AC ground for noise). + input: the divider (the supply is AC ground).
+        let (hi, lo) = (v[R_BIAS_HI], v[R_BIAS_LO]);
+        resistors.push((name(R_IN), v[R_IN], Place::Shunt));
+        if rs > 0.0 {
+            resistors.push(("source_resistance", rs, Place::Shunt));
+        }
+        resistors.push((name(R_FB), v[R_FB], Place::Feedback));
+        resistors.push((name(R_BIAS_HI), hi, Place::Plus(re(hi))));
+        resistors.push((name(R_BIAS_LO), lo, Place::Plus(re(lo))));
+        super::NoiseCircuit {
+            z_f: re(v[R_FB]),
+            z_s: re(rs + v[R_IN]) + super::cap_z(v[C_IN], f),
+            z_p: re(common::parallel(hi, lo)),
+            h_out: common::high_pass(spec.load, v[C_OUT], f),
+            resistors,
+        }
+    }
+
     fn pair_plan<'s>(&self, spec: &'s Spec, g: usize) -> Option<PairPlan<'s>> {
         match g {
             0 => Some(plans::gain(

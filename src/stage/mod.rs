@@ -243,6 +243,10 @@ pub trait Stage: Send + Sync {
     /// wires run. A test there checks that its connections are exactly `spice_elements`.
     fn schematic_layout(&self) -> &'static layout::Layout;
 
+    /// The impedances around the op-amp at `f` and where each resistor's noise sits, for the
+    /// noise analysis (`analysis::noise`; its module docs give the transfer of each place).
+    fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> NoiseCircuit;
+
     /// For a one-capacitor group whose requirements only get easier with more capacitance: the
     /// least capacitance its part must keep at the low end of its tolerance (nominal in
     /// nominal mode), given the parts assigned so far; `None` while unknown. The search uses
@@ -256,6 +260,33 @@ pub trait Stage: Send + Sync {
     fn pair_plan<'s>(&self, _spec: &'s Spec, _g: usize) -> Option<PairPlan<'s>> {
         None
     }
+}
+
+/// Where a resistor's noise voltage sits (see `analysis::noise`).
+#[derive(Debug, Clone, Copy)]
+pub enum NoisePlace {
+    /// In series with Z_f.
+    Feedback,
+    /// In series with Z_s.
+    Shunt,
+    /// In series with a branch of this impedance from the + input to AC ground.
+    Plus(Complex64),
+}
+
+/// The impedances around the op-amp at one frequency — Z_f (output to −), Z_s (− to AC
+/// ground), Z_p (+ to AC ground) — the output coupling H_out, and the resistors that make
+/// noise, by name, value and place.
+pub struct NoiseCircuit {
+    pub z_f: Complex64,
+    pub z_s: Complex64,
+    pub z_p: Complex64,
+    pub h_out: Complex64,
+    pub resistors: Vec<(&'static str, f64, NoisePlace)>,
+}
+
+/// A capacitor's impedance 1/(jωC).
+pub(crate) fn cap_z(c: f64, f: f64) -> Complex64 {
+    Complex64::new(0.0, -1.0 / (2.0 * std::f64::consts::PI * f * c))
 }
 
 /// The inner value an outer part wants (see [`PairPlan`]).

@@ -325,6 +325,34 @@ impl Stage for NonInverting {
         }
     }
 
+    fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> super::NoiseCircuit {
+        use super::NoisePlace as Place;
+        let re = |r: f64| Complex64::new(r, 0.0);
+        let name = |slot: usize| SLOTS[slot].name;
+        let rs = spec.source_resistance;
+        let mut resistors = Vec::new();
+        // − input: R_fb to the output, R_g + c_g to ground. + input: the divider in
+        // parallel with the input branch (c_in and the source's resistance).
+        let (hi, lo) = (v[R_BIAS_HI], v[R_BIAS_LO]);
+        let branch = re(rs) + super::cap_z(v[C_IN], f);
+        let one = re(1.0);
+        let z_p = one / (one / hi + one / lo + one / branch);
+        resistors.push((name(R_BIAS_HI), hi, Place::Plus(re(hi))));
+        resistors.push((name(R_BIAS_LO), lo, Place::Plus(re(lo))));
+        if rs > 0.0 {
+            resistors.push(("source_resistance", rs, Place::Plus(branch)));
+        }
+        resistors.push((name(R_FB), v[R_FB], Place::Feedback));
+        resistors.push((name(R_G), v[R_G], Place::Shunt));
+        super::NoiseCircuit {
+            z_f: re(v[R_FB]),
+            z_s: re(v[R_G]) + super::cap_z(v[C_G], f),
+            z_p,
+            h_out: common::high_pass(spec.load, v[C_OUT], f),
+            resistors,
+        }
+    }
+
     fn pair_plan<'s>(&self, spec: &'s Spec, g: usize) -> Option<PairPlan<'s>> {
         match g {
             // With a source resistance the divider attenuates the gain, which group 0 cannot
