@@ -95,7 +95,10 @@ pub fn spec(data: &[u8]) {
             assert!(!errors.0.is_empty());
             for e in &errors.0 {
                 if let Some(line) = e.line {
-                    assert!((1..=lines).contains(&line), "{e} (the file has {lines} lines)");
+                    assert!(
+                        (1..=lines).contains(&line),
+                        "{e} (the file has {lines} lines)"
+                    );
                 }
             }
             let _ = errors.to_string();

@@ -3,7 +3,9 @@
 //! A spec is TOML with the sections `[stage]`, `[amplifier]`, `[stock]`, `[goals]` and `[lock]`.
 //! Every value may be written as the trade writes it (`"9 V"`, `"4k7"`, `"20 Hz"`, `"1%"`) or as
 //! a plain number in SI base units. Every problem found is collected, each with its key and the
-//! line it is on, so that a hand-typed spec is fixed in one round.
+//! line it is on, so that a hand-typed spec is fixed in one round. [`Spec::from_bytes`] takes
+//! the bytes of a file: a byte-order mark is skipped, non-UTF-8 text is located, and more than
+//! [`MAX_SPEC_BYTES`] is refused before parsing.
 
 use crate::series::Series;
 use crate::value::{self, Unit};
@@ -986,14 +988,32 @@ impl Spec {
         };
 
         let st = "stock";
-        let resistors = r
-            .text(st, stock_t, "resistors")
-            .map(|t| SourceSpec::parse(&t))
-            .unwrap_or(SourceSpec::Series(Series::E24));
-        let capacitors = r
-            .text(st, stock_t, "capacitors")
-            .map(|t| SourceSpec::parse(&t))
-            .unwrap_or(SourceSpec::Series(Series::E6));
+        let mut source = |key: &str, default: Series| -> SourceSpec {
+            let Some(t) = r.text(st, stock_t, key) else {
+                return SourceSpec::Series(default);
+            };
+            // `"E25"` is a typo for a series, not the name of a CSV file.
+            let name = t.trim();
+            let series_like = name.len() > 1
+                && name.starts_with(['E', 'e'])
+                && name[1..].bytes().all(|b| b.is_ascii_digit());
+            match SourceSpec::parse(name) {
+                SourceSpec::File(_) if series_like || name.is_empty() => {
+                    r.error(
+                        st,
+                        Some(key),
+                        format!(
+                            "found {t:?}, expected a series (E3, E6, E12, E24, E48, E96 or \
+                             E192, IEC 60063) or the path of an inventory CSV"
+                        ),
+                    );
+                    SourceSpec::Series(default)
+                }
+                other => other,
+            }
+        };
+        let resistors = source("resistors", Series::E24);
+        let capacitors = source("capacitors", Series::E6);
         let resistor_range = r
             .pair(st, stock_t, "resistor_range", Unit::Ohm, false)
             .unwrap_or(DEFAULT_RESISTOR_RANGE);
@@ -1535,6 +1555,25 @@ band = ["20 Hz", "20 kHz"]
             [Some(3), Some(5), Some(6), Some(8), Some(10)],
             "{got:?}"
         );
+    }
+
+    #[test]
+    fn an_unknown_series_is_not_taken_for_a_file() {
+        let text = format!("{MINIMAL}[stock]\nresistors = \"E25\"\ncapacitors = \"\"\n");
+        assert_eq!(
+            places(&text),
+            [
+                (Some(9), "stock.resistors".to_string()),
+                (Some(10), "stock.capacitors".to_string())
+            ]
+        );
+        assert!(message(&text).contains("E192"));
+        let ok = Spec::from_toml(&format!(
+            "{MINIMAL}[stock]\nresistors = \"e96\"\ncapacitors = \"my-stock.csv\"\n"
+        ))
+        .unwrap();
+        assert_eq!(ok.stock.resistors, SourceSpec::Series(Series::E96));
+        assert_eq!(ok.stock.capacitors, SourceSpec::File("my-stock.csv".into()));
     }
 
     #[test]

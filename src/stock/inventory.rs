@@ -7,6 +7,9 @@
 //! own bookkeeping columns. Column names are matched trimmed and case-insensitively, with spaces
 //! and dashes read as underscores (`Unit Cost` is `unit_cost`). Lines starting with `#` are
 //! comments, empty lines are skipped, a UTF-8 byte-order mark and CRLF line ends are accepted.
+//! A value outside what any part of its kind can be ([`PLAUSIBLE_OHMS`], [`PLAUSIBLE_FARADS`])
+//! is reported as a value of the other kind typed on the wrong line (`c,4k7,…`). Input beyond
+//! [`MAX_INVENTORY_BYTES`] or [`MAX_INVENTORY_LINES`] is refused before it is parsed.
 //!
 //! Like the rest of the library this module does no I/O: [`Inventory::from_reader`] takes any
 //! `impl Read` and [`Inventory::parse_str`] a string; the binary adds the file name to errors.
