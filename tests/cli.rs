@@ -1429,7 +1429,6 @@ fn json_file_equals_json_stdout() {
 /// (Without `/TOL` a set value takes the widest tolerance of its kind in the file, the cautious
 /// choice `Stock::default_tolerance` documents; then the same build even fails `gain_high`.)
 #[test]
-#[ignore = "bug: `check` from an inventory ignores the stock lines' voltage/power ratings (help: \"for their tolerances and ratings\"), so it judges fewer requirements than `pick` did for the same build"]
 fn check_of_picks_best_inventory_build_judges_the_same_requirements() {
     let ex = example_runs()
         .iter()
@@ -1474,7 +1473,6 @@ fn check_of_picks_best_inventory_build_judges_the_same_requirements() {
 /// A spec with neither `band_loss_max` nor `corner_low_max` (only the low-corner check) should
 /// be picked as quickly as one with a loss budget; it ran for over 5 minutes in release.
 #[test]
-#[ignore = "bug: pick of a spec without band_loss_max/corner_low_max runs for minutes (capacitor pairs not pruned)"]
 fn pick_without_a_loss_budget_is_fast() {
     let dir = tempfile::tempdir().unwrap();
     let text = BASE.replace("band_loss_max = \"1 dB\"\n", "");
@@ -1488,7 +1486,6 @@ fn pick_without_a_loss_budget_is_fast() {
 /// An infeasible pick from a full series should be diagnosed in seconds; this lock makes the
 /// geophone example infeasible (no E96 r_fb meets ±2.5 % with 33 kΩ) and ran over 15 minutes.
 #[test]
-#[ignore = "bug: diagnosing an infeasible pick (here geophone-inverting-e96 --lock r_in=33k) runs for many minutes"]
 fn infeasible_diagnosis_is_fast() {
     let mut cmd = stockfit();
     cmd.timeout(Duration::from_secs(60)).args([
@@ -1505,7 +1502,6 @@ fn infeasible_diagnosis_is_fast() {
 /// a series should be reported as an unknown series with the known ones listed, as `series`
 /// does.
 #[test]
-#[ignore = "bug: `--stock E25` reports a missing file, not an unknown series"]
 fn unknown_series_for_stock_lists_the_series() {
     stockfit()
         .args(["pick", "examples/piezo-knock-5v.toml", "--stock", "E25"])
