@@ -47,7 +47,11 @@ pub const CAUTIONS: &[&str] = &[
 fn cell(text: &str, width: usize) -> String {
     let n = text.chars().count();
     if n >= width {
-        text.chars().take(width).collect()
+        // Cut with an ellipsis and keep one space, so a long label never runs into the next
+        // column.
+        let mut cut: String = text.chars().take(width.saturating_sub(2)).collect();
+        cut.push_str("… ");
+        cut
     } else {
         format!("{text}{}", " ".repeat(width - n))
     }
@@ -65,6 +69,20 @@ fn gain_text(g: f64) -> String {
 
 fn opt_hz(v: Option<f64>) -> String {
     v.map_or_else(|| "—".to_string(), |f| format(f, Unit::Hertz))
+}
+
+/// A relative error: percent, or ppm below 0.01 %, and 0 below 0.01 ppm (float rounding).
+fn error_text(e: f64) -> String {
+    if e < 1e-8 {
+        "0 %".to_string()
+    } else if e < 1e-4 {
+        format!(
+            "{} ppm",
+            format_sig(e * 1e6, Unit::Decibel, 2).replace(" dB", "")
+        )
+    } else {
+        format_sig(e, Unit::Percent, 2)
+    }
 }
 
 fn yield_text(y: Option<f64>) -> String {
@@ -189,7 +207,7 @@ pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked], style: Style) -
             "{}{}{}{}{}{}{}{}{}{}",
             cell(&format!("{}{}", n + 1, if front[n] { "◆" } else { "" }), 4),
             cell(&gain_text(m.gain), 9),
-            cell(&format_sig(m.gain_error, Unit::Percent, 2), 9),
+            cell(&error_text(m.gain_error), 9),
             cell(&format!("{} … {}", gain_text(lo), gain_text(hi)), 18),
             cell(&opt_hz(m.low_corner_hz), 11),
             cell(&format!("±{}", format(m.swing_peak_v, Unit::Volt)), 13),
@@ -343,7 +361,7 @@ pub fn figures(spec: &Spec, evaluation: &Evaluation) -> String {
         "  gain {} (target {}, error {}), noise gain {}",
         gain_text(m.gain),
         gain_text(spec.gain),
-        format_sig(m.gain_error, Unit::Percent, 2),
+        error_text(m.gain_error),
         gain_text(m.noise_gain)
     );
     let _ = writeln!(

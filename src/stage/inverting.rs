@@ -297,6 +297,9 @@ impl Stage for Inverting {
             }
             1 => {
                 let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+                if !common::divider_current_ok(spec, hi, lo) {
+                    return None;
+                }
                 let (vmin, vmax) = common::divider_range(spec, hi, lo);
                 if spec.output_peak.is_some()
                     && !common::swing_ok(spec, common::swing(spec, vmin, vmax), 1.0)

@@ -426,6 +426,12 @@ pub(crate) mod common {
         (vmin, vmax)
     }
 
+    /// Relaxed `bias_current_max`: the nominal divider current (the worst case is higher).
+    pub fn divider_current_ok(spec: &Spec, hi: &Part, lo: &Part) -> bool {
+        spec.bias_current_max
+            .is_none_or(|max| spec.supply / (hi.value + lo.value) <= max * (1.0 + SLACK))
+    }
+
     /// Output peak the headroom allows around a DC range.
     pub fn swing(spec: &Spec, dc_min: f64, dc_max: f64) -> f64 {
         (dc_min - spec.headroom.0).min(spec.supply - spec.headroom.1 - dc_max)
@@ -562,6 +568,15 @@ pub(crate) mod plans {
                 if let Some(min) = rp_min {
                     if r_lo < target(p.value)
                         && common::parallel(p.value, r_lo) < min * (1.0 - SLACK)
+                    {
+                        return None;
+                    }
+                }
+                if let Some(max) = spec.bias_current_max {
+                    // The divider current grows as R_lo falls: below the target, once it is
+                    // too much it stays too much.
+                    if r_lo < target(p.value)
+                        && spec.supply / (p.value + r_lo) > max * (1.0 + SLACK)
                     {
                         return None;
                     }

@@ -386,6 +386,9 @@ impl Stage for NonInverting {
             }
             1 => {
                 let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+                if !common::divider_current_ok(spec, hi, lo) {
+                    return None;
+                }
                 if let Some(min) = spec.input_resistance_min {
                     let rp = Self::rp(end(spec, hi, false), end(spec, lo, false));
                     if rp < min * (1.0 - SLACK) {
