@@ -193,6 +193,13 @@ fn explain(req: &Request, knob: &Knob, limit: f64, good: f64, closest: &Build) -
     } else {
         part_limits(req, knob, closest)
     };
+    // The closest build meets a limit equal to its own figure, so that is the tightest
+    // relaxation known, sharper than the bisection's bracket.
+    let good = match reached {
+        Some(v) if knob.larger_is_stricter => good.max(v),
+        Some(v) => good.min(v),
+        None => good,
+    };
 
     let relaxation = if amplifier {
         format!("an amplifier with {name} ≥ {}", f(good))
