@@ -168,6 +168,29 @@ pub(super) fn parse_slot_values(
     Ok(out)
 }
 
+/// The spec's `[lock]` table and the `--lock` flags as `SLOT=VALUE` entries, flags last (so
+/// they win).
+pub(super) fn lock_entries(
+    spec: &Spec,
+    flags: &[String],
+) -> Result<Vec<(String, String)>, Failure> {
+    let mut entries: Vec<(String, String)> = Vec::new();
+    for l in &spec.locks {
+        let unit = if l.slot.starts_with("c_") {
+            Unit::Farad
+        } else {
+            Unit::Ohm
+        };
+        let mut t = value::format_sig(l.value, unit, 12);
+        if let Some(tol) = l.tolerance {
+            t = format!("{t}/{}", value::format_sig(tol, Unit::Percent, 12));
+        }
+        entries.push((l.slot.clone(), t));
+    }
+    entries.extend(split_entries(flags, "--lock")?);
+    Ok(entries)
+}
+
 pub(super) fn split_entries(raw: &[String], flag: &str) -> Result<Vec<(String, String)>, Failure> {
     raw.iter()
         .map(|e| {
@@ -269,20 +292,7 @@ fn pick(
 ) -> Result<i32, Failure> {
     let stage = stage::stage_for(spec.stage);
     let (stock, stock_text) = resolve_stock(spec, base, stock_over)?;
-    let mut entries: Vec<(String, String)> = Vec::new();
-    for l in &spec.locks {
-        let unit = if l.slot.starts_with("c_") {
-            Unit::Farad
-        } else {
-            Unit::Ohm
-        };
-        let mut t = value::format_sig(l.value, unit, 12);
-        if let Some(tol) = l.tolerance {
-            t = format!("{t}/{}", value::format_sig(tol, Unit::Percent, 12));
-        }
-        entries.push((l.slot.clone(), t));
-    }
-    entries.extend(split_entries(locks, "--lock")?);
+    let entries = lock_entries(spec, locks)?;
     let locked = parse_slot_values(stage, &stock, &entries, "--lock")?;
     if top == 0 {
         return Err(Failure::input(anyhow!(

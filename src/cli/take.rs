@@ -6,7 +6,7 @@
 //! a log) is refused by its size before it is read into memory.
 
 use super::args::TakeArgs;
-use super::run::{load_spec, parse_slot_values, split_entries};
+use super::run::{load_spec, lock_entries, parse_slot_values};
 use super::{Failure, EXIT_BAD_INPUT, EXIT_NO_BUILD, EXIT_OK};
 use anyhow::{anyhow, Context};
 use std::collections::BTreeMap;
@@ -129,20 +129,7 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
         Source::Inventory(inv.clone()),
         &spec.stock,
     );
-    let mut entries: Vec<(String, String)> = Vec::new();
-    for l in &spec.locks {
-        let unit = if l.slot.starts_with("c_") {
-            Unit::Farad
-        } else {
-            Unit::Ohm
-        };
-        let mut t = value::format_sig(l.value, unit, 12);
-        if let Some(tol) = l.tolerance {
-            t = format!("{t}/{}", value::format_sig(tol, Unit::Percent, 12));
-        }
-        entries.push((l.slot.clone(), t));
-    }
-    entries.extend(split_entries(&args.lock, "--lock")?);
+    let entries = lock_entries(&spec, &args.lock)?;
     let locked = parse_slot_values(stage, &stock, &entries, "--lock")?;
     if args.build == 0 {
         return Err(Failure::input(anyhow!(
