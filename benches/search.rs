@@ -228,7 +228,7 @@ fn prepare(case: Case) -> Prepared {
                 "the reduced instance has a build; if a change to the analysis made it \
                  infeasible, adjust REDUCED",
             );
-            let gain_pair = &p.stage.groups()[0];
+            let gain_pair = &p.stage.groups(&p.spec)[0];
             p.locks = (0..p.stage.slots().len())
                 .filter(|s| !gain_pair.contains(s))
                 .map(|s| (s, best.build.parts[s].clone()))

@@ -83,9 +83,55 @@ pub struct Part {
     pub locked: bool,
 }
 
+/// Voltage a realisation can stand. Parallel pieces each see the full voltage; series
+/// capacitors share it inversely to their capacitance (C1·V1 = C2·V2), so each piece's rating
+/// limits the total to rating_i · (C1 + C2) / C_other. `None` when a piece has no rating.
+pub fn voltage_rating(
+    kind: PartKind,
+    arrangement: Arrangement,
+    a: &Piece,
+    b: Option<&Piece>,
+) -> Option<f64> {
+    let ra = a.voltage?;
+    let Some(b) = b else {
+        return Some(ra);
+    };
+    let rb = b.voltage?;
+    match (arrangement, kind) {
+        (Arrangement::Series, PartKind::Capacitor) => {
+            let total = a.value + b.value;
+            Some((ra * total / b.value).min(rb * total / a.value))
+        }
+        _ => Some(ra.min(rb)),
+    }
+}
+
+/// What the stage's equations see of a part: nominal value, the extremes its tolerances allow,
+/// and (capacitors) the voltage it can stand. Small and `Copy`, so the search can hand the
+/// stage its candidates without building a [`Part`] for each.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SlotValue {
+    pub value: f64,
+    pub min: f64,
+    pub max: f64,
+    /// Capacitor voltage rating, `None` when unknown (or a resistor).
+    pub rating: Option<f64>,
+}
+
+impl SlotValue {
+    /// The value at one end of the tolerance band.
+    pub fn at(&self, high: bool) -> f64 {
+        if high {
+            self.max
+        } else {
+            self.min
+        }
+    }
+}
+
 /// Series and parallel combination of two values of one kind. Resistors add in series;
 /// capacitors add in parallel (circuit theory, common practice).
-fn combine(kind: PartKind, arrangement: Arrangement, a: f64, b: f64) -> f64 {
+pub fn combine(kind: PartKind, arrangement: Arrangement, a: f64, b: f64) -> f64 {
     let sum = matches!(
         (kind, arrangement),
         (PartKind::Resistor, Arrangement::Series) | (PartKind::Capacitor, Arrangement::Parallel)
@@ -172,19 +218,27 @@ impl Part {
         self.pieces.iter().any(|p| p.polarized)
     }
 
-    /// Voltage the realisation can stand. Parallel pieces each see the full voltage; series
-    /// capacitors share it inversely to their capacitance (C1·V1 = C2·V2), so each piece's
-    /// rating limits the total to rating_i · (C1 + C2) / C_other.
+    /// Voltage the realisation can stand (see [`voltage_rating`]).
     pub fn voltage_rating(&self) -> Option<f64> {
-        let ratings: Option<Vec<f64>> = self.pieces.iter().map(|p| p.voltage).collect();
-        let ratings = ratings?;
-        match (self.arrangement, self.kind) {
-            (Arrangement::Series, PartKind::Capacitor) => {
-                let (a, b) = (&self.pieces[0], &self.pieces[1]);
-                let total = a.value + b.value;
-                Some((ratings[0] * total / b.value).min(ratings[1] * total / a.value))
-            }
-            _ => ratings.into_iter().reduce(f64::min),
+        voltage_rating(
+            self.kind,
+            self.arrangement,
+            &self.pieces[0],
+            self.pieces.get(1),
+        )
+    }
+
+    /// What the stage's equations see of this part.
+    pub fn slot_value(&self) -> SlotValue {
+        SlotValue {
+            value: self.value,
+            min: self.min,
+            max: self.max,
+            rating: if self.kind == PartKind::Capacitor {
+                self.voltage_rating()
+            } else {
+                None
+            },
         }
     }
 

@@ -192,18 +192,45 @@ pub fn complete(
 
 /// Generic per-slot share of the objective: pieces, capacitance and cost.
 pub fn slot_points(spec: &Spec, part: &Part) -> f64 {
+    pieces_points(
+        spec,
+        part.kind,
+        &part.pieces[0],
+        part.pieces.get(1),
+        part.locked,
+    )
+}
+
+/// [`slot_points`] of a realisation given by its pieces (one, or two), so that the search can
+/// score a realisation without building its [`Part`]; both use this one function, so the
+/// figures agree to the last bit.
+pub fn pieces_points(
+    spec: &Spec,
+    kind: PartKind,
+    a: &crate::build::Piece,
+    b: Option<&crate::build::Piece>,
+    locked: bool,
+) -> f64 {
     let g = &spec.goals;
-    let mut points = g.part_count * part.piece_count() as f64;
-    if part.kind == PartKind::Capacitor {
-        // log10 of C in pF, per piece: one decade smaller is one unit cheaper and smaller.
-        points += g.capacitance
-            * part
-                .pieces
-                .iter()
-                .map(|p| (p.value / 1e-12).log10().max(0.0))
-                .sum::<f64>();
+    let n = 1 + usize::from(b.is_some());
+    let mut points = g.part_count * n as f64;
+    // log10 of C in pF, per piece: one decade smaller is one unit cheaper and smaller.
+    let decades = |p: &crate::build::Piece| (p.value / 1e-12).log10().max(0.0);
+    if kind == PartKind::Capacitor {
+        points += g.capacitance * (decades(a) + b.map_or(0.0, decades));
     }
-    points + g.cost * part.cost().unwrap_or(0.0)
+    // Locked parts are on the board already and cost nothing; a realisation with a piece of
+    // unknown cost counts no cost at all (as `Part::cost`).
+    let cost = if locked {
+        0.0
+    } else {
+        match (a.unit_cost, b.map(|b| b.unit_cost)) {
+            (Some(x), None) => x,
+            (Some(x), Some(Some(y))) => x + y,
+            _ => 0.0,
+        }
+    };
+    points + g.cost * cost
 }
 
 /// The ranking objective of a build (README, "Goals").

@@ -322,10 +322,11 @@ fn pick(
             {
                 b.set_style(style);
             }
-            b.set_message(stage.slots()[stage.groups()[0][0]].name.to_string() + " pairs");
             bar = Some(b);
         }
         if let Some(b) = &bar {
+            b.set_message(format!("{} candidates", stage.slots()[p.slot].name));
+            b.set_length(p.total as u64);
             b.set_position(p.done as u64);
         }
     };
@@ -335,7 +336,6 @@ fn pick(
             eprintln!("error: {e}");
             return Ok(EXIT_NO_BUILD);
         }
-        Err(e) => return Err(Failure::input(e)),
     };
     if let Some(b) = bar.take() {
         b.finish_and_clear();

@@ -157,7 +157,6 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
             eprintln!("error: {e}; nothing taken");
             return Ok(EXIT_NO_BUILD);
         }
-        Err(e) => return Err(Failure::input(e)),
     };
     if outcome.builds.is_empty() {
         eprintln!(

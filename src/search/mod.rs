@@ -1,30 +1,31 @@
-//! The exact search: the stock's candidates per slot → branch and bound over the stage's
-//! groups → the top N builds, each re-checked by the exact analysis.
+//! The exact search: the stock's candidates per slot → a depth-first branch and bound over
+//! the stage's groups, one slot at a time, each slot's candidates read lazily in order of a
+//! lower bound of what they add → the top N builds, each re-checked by the exact analysis.
 //!
-//! The objective is a sum of shares: each slot's own points (pieces, capacitance, cost), each
-//! group's stage terms (gain error, offset), and the distinct lines added. The groups are
-//! decided in the stage's order; within a group the candidates are sorted by a context-free
-//! lower bound, so a whole tail is cut once `so far + bound + best of the rest` reaches the
-//! N-th best build found. Stage filters are relaxations, and every build that reaches the end
-//! is judged by `analysis::evaluate`: the result is the exact top N (a property test compares
-//! it with brute force).
+//! The objective is a sum of shares: each slot's own points (pieces, capacitance, cost), the
+//! stock lines each slot adds to the build, and each group's stage terms (gain error, offset)
+//! once the group is complete. A slot's walk (`walk.rs`) starts at the value the stage asks
+//! for given the parts chosen so far (`Stage::walk`) and goes outward; a node is cut once
+//! `score so far + its bound + a bound of the slots still open` reaches the N-th best build
+//! found, and the walk stops at the first candidate whose bound does. Stage filters are
+//! relaxations, and every build that reaches the end is judged by `analysis::evaluate`: the
+//! result is the exact top N (`tests/exact.rs` compares it with brute force).
 
 pub mod brute;
 pub mod diagnose;
-pub mod groups;
+pub mod table;
+pub mod walk;
 
 use crate::analysis::{self, Evaluation};
-use crate::build::{Build, LineKey, Part};
+use crate::build::{Build, LineKey, Part, SlotValue};
 use crate::spec::Spec;
 use crate::stage::Stage;
 use crate::stock::inventory::PartKind;
 use crate::stock::Stock;
-use groups::{GroupList, PairWalk, MAX_GROUP_SLOTS};
 use std::collections::HashMap;
 use std::sync::Arc;
-
-/// More tuples than this in one group would take too long to sort and too much memory.
-pub const MAX_GROUP_TUPLES: usize = 40_000_000;
+use table::{Real, Table};
+use walk::Walk;
 
 /// One ranked build.
 #[derive(Debug, Clone)]
@@ -36,7 +37,9 @@ pub struct Ranked {
 /// Search progress, for a bar in the binary.
 #[derive(Debug, Clone, Copy)]
 pub struct Progress {
-    /// First-group candidates tried so far and in all.
+    /// The slot being searched at the top of the tree (index into the stage's slots).
+    pub slot: usize,
+    /// Its candidates read so far, and how many it has.
     pub done: usize,
     pub total: usize,
 }
@@ -69,8 +72,6 @@ pub enum SearchError {
         kind: String,
         range: String,
     },
-    #[error("slot group {slots} would need {tuples} combinations, more than this release searches ({MAX_GROUP_TUPLES}); narrow `resistor_range`, use `combine = \"single\"`, or lock a slot")]
-    TooLarge { slots: String, tuples: usize },
 }
 
 /// A request: what to search and how many builds to keep.
@@ -150,6 +151,11 @@ impl TopN {
         }
     }
 
+    /// True when `cap` builds are held.
+    pub fn full(&self) -> bool {
+        self.items.len() >= self.cap
+    }
+
     pub fn offer(&mut self, ranked: Ranked) {
         let score = ranked.evaluation.score;
         let key = look_key(&ranked.build);
@@ -191,165 +197,193 @@ fn look_key(build: &Build) -> Vec<u64> {
     key
 }
 
+/// Rounds of the rising cut before the last, uncut one.
+const ROUNDS: usize = 8;
+/// The first round's cut above the root's bound, in points (half a stock line at the default
+/// weights); it doubles each round.
+const FIRST_GAP: f64 = 0.05;
+
+fn kind_index(kind: PartKind) -> usize {
+    match kind {
+        PartKind::Resistor => 0,
+        PartKind::Capacitor => 1,
+    }
+}
+
+fn no_candidates(req: &Request, slot: usize) -> SearchError {
+    let def = req.stage.slots()[slot];
+    let (lo, hi) = req.stock.range(def.kind);
+    let unit = parts_unit(def.kind);
+    SearchError::NoCandidates {
+        slot: def.name.to_string(),
+        kind: format!("{:?}", def.kind).to_lowercase(),
+        range: format!(
+            "{} … {}",
+            crate::value::format(lo, unit),
+            crate::value::format(hi, unit)
+        ),
+    }
+}
+
+/// One step of the depth-first search: one slot of one group.
+#[derive(Debug, Clone, Copy)]
+struct Level {
+    slot: usize,
+    group: usize,
+    /// Position in the group.
+    k: usize,
+    /// The group is complete after this slot: its share is known.
+    last: bool,
+    /// The slot's group has this slot alone (a look-ahead bound from its plan is cheap).
+    alone: bool,
+}
+
+/// A line in the build: pieces of it in all, pieces of it taken from stock (locked parts
+/// take none), and its piece in the kind's table when it has one.
+#[derive(Debug, Clone, Copy)]
+struct LineUse {
+    key: LineKey,
+    kind: usize,
+    all: u32,
+    stock: u32,
+    piece: Option<u32>,
+}
+
 struct Dfs<'a> {
     req: &'a Request<'a>,
-    cands: &'a [&'a [Part]],
-    groups: Vec<(&'static [usize], GroupList<'a>)>,
-    rest: Vec<f64>,
-    /// Per group: for one-capacitor groups, (least effective capacitance, best key of every
-    /// candidate at least that large) ascending, for the look-ahead bound.
-    cap_bounds: Vec<Option<Vec<(f64, f64)>>>,
-    assigned: Vec<Option<&'a Part>>,
-    /// Pieces in use per line; a build has a dozen pieces at most, so a short list beats a map.
-    lines: Vec<(LineKey, u32)>,
+    tables: [Option<&'a Table>; 2],
+    levels: Vec<Level>,
+    locked: Vec<Option<&'a Part>>,
+    /// What the stage sees: locked parts from the start, chosen parts as they are chosen.
+    vals: Vec<Option<SlotValue>>,
+    chosen: Vec<Option<Real>>,
+    lines: Vec<LineUse>,
+    /// Per kind: lines in the build, and the table pieces of those lines.
+    kind_lines: [u32; 2],
+    used: [Vec<u32>; 2],
+    /// Per level: least slot points of the levels from here on (0 for locked slots, which
+    /// are counted up front).
+    rest_static: Vec<f64>,
+    /// Per level: which kinds the unlocked levels from here on have (bit per kind).
+    rest_kinds: Vec<u8>,
     top: TopN,
+    /// The current round's cut: nodes whose bound reaches it wait for a later round.
+    cut: f64,
+    /// Some node was cut by `cut` alone (not by the N-th best build): the round did not see
+    /// everything.
+    cut_hit: bool,
     stats: Stats,
     progress: &'a mut dyn FnMut(Progress),
 }
 
-/// Run the exact search. `progress` is called now and then with how far the first group is.
+/// Run the exact search. `progress` is called now and then with how far the first walk is.
 pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
-    let owned = slot_candidates(req)?;
-    let cands: Vec<&[Part]> = owned.iter().map(|c| c.as_slice()).collect();
     let spec = req.spec;
     let stage = req.stage;
-    let n = stage.slots().len();
-    // Pass 1: the groups enumerated as sorted products; two-slot groups with a plan wait.
-    let mut lists: Vec<Option<GroupList>> = Vec::new();
-    let mut plans = Vec::new();
-    for (g, &slots) in stage.groups().iter().enumerate() {
-        let names = || {
-            slots
-                .iter()
-                .map(|&s| stage.slots()[s].name)
-                .collect::<Vec<_>>()
-                .join("+")
-        };
-        if slots.len() > MAX_GROUP_SLOTS {
-            return Err(SearchError::TooLarge {
-                slots: names(),
-                tuples: usize::MAX,
+    let slots = stage.slots();
+    let n = slots.len();
+    let mut locked: Vec<Option<&Part>> = vec![None; n];
+    for (slot, part) in req.locks {
+        if *slot < n {
+            locked[*slot] = Some(part);
+        }
+    }
+    // A table per kind that an unlocked slot needs; the first empty one (in slot order, as
+    // `slot_candidates` reports it) is an error.
+    let mut owned: [Option<Table>; 2] = [None, None];
+    for (i, def) in slots.iter().enumerate() {
+        if locked[i].is_some() {
+            continue;
+        }
+        let k = kind_index(def.kind);
+        let table = owned[k].get_or_insert_with(|| Table::new(spec, req.stock, def.kind));
+        if table.reals.is_empty() {
+            return Err(no_candidates(req, i));
+        }
+    }
+    let tables = [owned[0].as_ref(), owned[1].as_ref()];
+    let groups = stage.groups(spec);
+    let mut levels = Vec::new();
+    for (g, group) in groups.iter().enumerate() {
+        for (k, &slot) in group.iter().enumerate() {
+            levels.push(Level {
+                slot,
+                group: g,
+                k,
+                last: k + 1 == group.len(),
+                alone: group.len() == 1,
             });
         }
-        match stage.pair_plan(spec, g).filter(|_| slots.len() == 2) {
-            Some(plan) => {
-                lists.push(None);
-                plans.push(Some(plan));
-            }
+    }
+    let mut rest_static = vec![0.0; levels.len() + 1];
+    let mut rest_kinds = vec![0u8; levels.len() + 1];
+    for l in (0..levels.len()).rev() {
+        let slot = levels[l].slot;
+        let (pts, bits) = match locked[slot] {
+            Some(_) => (0.0, 0),
             None => {
-                let total = slots
-                    .iter()
-                    .try_fold(1usize, |a, &s| a.checked_mul(cands[s].len()));
-                match total {
-                    Some(t) if t <= MAX_GROUP_TUPLES => {}
-                    _ => {
-                        return Err(SearchError::TooLarge {
-                            slots: names(),
-                            tuples: total.unwrap_or(usize::MAX),
-                        })
-                    }
-                }
-                lists.push(Some(GroupList::Sorted(groups::product(
-                    spec, stage, g, slots, &cands,
-                ))));
-                plans.push(None);
+                let k = kind_index(slots[slot].kind);
+                (tables[k].map_or(0.0, |t| t.min_pts), 1u8 << k)
             }
-        }
-    }
-    let groups_def = stage.groups();
-    let cap_bounds: Vec<Option<Vec<(f64, f64)>>> = lists
-        .iter_mut()
-        .enumerate()
-        .map(|(g, list)| {
-            let slots = groups_def[g];
-            let list = list.as_mut()?;
-            if slots.len() != 1 || stage.slots()[slots[0]].kind != PartKind::Capacitor {
-                return None;
-            }
-            let mut rows = Vec::new();
-            let mut t = 0;
-            while let Some((key, idx)) = list.get(t) {
-                let part = &cands[slots[0]][idx[0] as usize];
-                rows.push((
-                    if spec.worst_case() {
-                        part.min
-                    } else {
-                        part.value
-                    },
-                    key,
-                ));
-                t += 1;
-            }
-            rows.sort_by(|a, b| a.0.total_cmp(&b.0));
-            // Suffix minimum: the cheapest candidate among those at least this large.
-            for i in (0..rows.len().saturating_sub(1)).rev() {
-                rows[i].1 = rows[i].1.min(rows[i + 1].1);
-            }
-            Some(rows)
-        })
-        .collect();
-    // Pass 2: the lazy walks. The first group's walk also counts, per outer part, how much
-    // more than their cheapest the later capacitor groups must cost once that part is fixed
-    // (a constant per outer part keeps each walk monotone; no earlier group can count it).
-    for (g, plan) in plans.into_iter().enumerate() {
-        let Some(plan) = plan else { continue };
-        let extra: Vec<f64> = if g == 0 {
-            let statics: Vec<f64> = lists
-                .iter_mut()
-                .map(|l| l.as_mut().and_then(|l| l.get(0)).map_or(0.0, |t| t.0))
-                .collect();
-            let mut parts: Vec<Option<&Part>> = vec![None; n];
-            cands[plan.outer]
-                .iter()
-                .map(|outer| {
-                    parts[plan.outer] = Some(outer);
-                    let mut sum = 0.0;
-                    for (h, rows) in cap_bounds.iter().enumerate().skip(1) {
-                        let (Some(rows), Some(c)) = (rows, stage.min_capacitance(spec, h, &parts))
-                        else {
-                            continue;
-                        };
-                        let i = rows.partition_point(|r| r.0 < c * (1.0 - 1e-6));
-                        let lb = rows.get(i).map_or(f64::INFINITY, |r| r.1);
-                        sum += (lb - statics[h]).max(0.0);
-                    }
-                    sum
-                })
-                .collect()
-        } else {
-            Vec::new()
         };
-        lists[g] = Some(GroupList::Lazy(Box::new(PairWalk::new(
-            spec, stage, g, plan, &cands, extra,
-        ))));
-    }
-    let mut groups: Vec<(&'static [usize], GroupList)> = groups_def
-        .iter()
-        .zip(lists)
-        .map(|(&slots, l)| (slots, l.expect("every group built")))
-        .collect();
-    let mut rest = vec![0.0; groups.len() + 1];
-    for g in (0..groups.len()).rev() {
-        let best = groups[g].1.get(0).map_or(f64::INFINITY, |t| t.0);
-        rest[g] = rest[g + 1] + best;
+        rest_static[l] = rest_static[l + 1] + pts;
+        rest_kinds[l] = rest_kinds[l + 1] | bits;
     }
     let mut dfs = Dfs {
         req,
-        cands: &cands,
-        groups,
-        rest,
-        cap_bounds,
-        assigned: vec![None; n],
+        tables,
+        levels,
+        locked: locked.clone(),
+        vals: locked.iter().map(|p| p.map(Part::slot_value)).collect(),
+        chosen: vec![None; n],
         lines: Vec::new(),
+        kind_lines: [0; 2],
+        used: [Vec::new(), Vec::new()],
+        rest_static,
+        rest_kinds,
         top: TopN::new(req.top),
+        cut: f64::INFINITY,
+        cut_hit: false,
         stats: Stats {
-            candidates: cands.iter().map(|c| c.len()).collect(),
+            candidates: (0..n)
+                .map(|i| match locked[i] {
+                    Some(_) => 1,
+                    None => tables[kind_index(slots[i].kind)].map_or(0, |t| t.reals.len()),
+                })
+                .collect(),
+            nodes_by_group: vec![0; groups.len()],
             ..Stats::default()
         },
         progress,
     };
-    if dfs.rest[0].is_finite() {
-        dfs.descend(0, 0.0);
+    // Locked parts are on the board: their points and lines count from the start.
+    let mut acc = 0.0;
+    for part in locked.iter().flatten() {
+        acc += analysis::slot_points(spec, part);
+        for piece in &part.pieces {
+            if dfs.add_piece(part.kind, LineKey::of(part.kind, piece), false) {
+                acc += spec.goals.bom_lines;
+            }
+        }
+    }
+    // Rounds with a rising cut, so that the first builds found are already good ones and
+    // the N-th best soon bounds the search: a round with cut T sees every build scoring
+    // below T, so once it holds N builds below T (or no node waited for a later round) the
+    // result is the exact top N. The cut starts a little above the root's bound and its
+    // distance from it doubles each round; the last round has none.
+    let root = acc + dfs.rest_lb(0, None);
+    for round in 0..=ROUNDS {
+        dfs.cut = if round < ROUNDS {
+            root + FIRST_GAP * 2f64.powi(round as i32)
+        } else {
+            f64::INFINITY
+        };
+        dfs.cut_hit = false;
+        dfs.descend(0, acc);
+        let done = dfs.top.full() && dfs.top.bound() < dfs.cut;
+        if done || !dfs.cut_hit || dfs.stats.truncated || !root.is_finite() {
+            break;
+        }
     }
     Ok(Outcome {
         stats: dfs.stats,
@@ -358,154 +392,244 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
 }
 
 impl<'a> Dfs<'a> {
-    fn descend(&mut self, g: usize, acc: f64) {
-        let spec = self.req.spec;
-        let stage = self.req.stage;
-        if g == self.groups.len() {
+    fn descend(&mut self, level: usize, acc: f64) {
+        if level == self.levels.len() {
             self.leaf(acc);
             return;
         }
-        let slots = self.groups[g].0;
-        // What the later groups cost at least, given what earlier groups fixed.
-        let rest_after = self.rest[g + 1].max(self.look_ahead(g));
-        let total: usize = slots.iter().map(|&s| self.cands[s].len()).product();
-        let mut t = 0;
-        while let Some((base, idx)) = self.groups[g].1.get(t) {
-            t += 1;
+        let lv = self.levels[level];
+        if let Some(part) = self.locked[lv.slot] {
+            // Already counted; only the group's share is new.
+            let _ = part;
+            let share = if lv.last {
+                self.req
+                    .stage
+                    .group_partial(self.req.spec, lv.group, &self.vals)
+            } else {
+                Some(0.0)
+            };
+            if let Some(share) = share {
+                let score = acc + share;
+                if self.admits(score + self.rest_lb(level + 1, None)) {
+                    self.descend(level + 1, score);
+                }
+            }
+            return;
+        }
+        let spec = self.req.spec;
+        let stage = self.req.stage;
+        let kind = stage.slots()[lv.slot].kind;
+        let ki = kind_index(kind);
+        let table = self.tables[ki].expect("a table for every unlocked slot's kind");
+        let plan = stage.walk(spec, lv.group, lv.k, &self.vals);
+        let mut walk = Walk::new(spec, table, plan, &self.used[ki]);
+        // What the open slots after this one add at least, given the parts chosen so far (a
+        // candidate here only tightens it); the kind of this slot has a line once any
+        // candidate is taken.
+        let rest = self.rest_lb(level + 1, Some(ki));
+        let lambda = spec.goals.bom_lines;
+        let first = self.levels[..level]
+            .iter()
+            .all(|l| self.locked[l.slot].is_some());
+        let mut read = 0usize;
+        loop {
             if self.req.max_nodes.is_some_and(|m| self.stats.nodes >= m) {
                 self.stats.truncated = true;
                 break;
             }
-            if acc + base + rest_after >= self.top.bound() {
+            let Some(item) = walk.next_below(self.bound() - acc - rest) else {
+                if !walk.exhausted() {
+                    self.note_cut(f64::NEG_INFINITY);
+                }
                 break;
-            }
-            if g == 0 && t % 256 == 0 {
+            };
+            read += 1;
+            if first && read % 4096 == 0 {
                 (self.progress)(Progress {
-                    done: t.min(total),
-                    total,
+                    slot: lv.slot,
+                    done: read,
+                    total: table.reals.len(),
                 });
             }
             self.stats.nodes += 1;
-            if self.stats.nodes_by_group.len() <= g {
-                self.stats.nodes_by_group.resize(g + 1, 0);
-            }
-            self.stats.nodes_by_group[g] += 1;
-            let cands = self.cands;
-            for (k, &s) in slots.iter().enumerate() {
-                self.assigned[s] = Some(&cands[s][idx[k] as usize]);
-            }
-            if let Some(rows) = &self.cap_bounds[g] {
-                // A capacitor smaller than its network needs fails every check that follows.
-                let part = self.assigned[slots[0]].expect("assigned");
-                let eff = if spec.worst_case() {
-                    part.min
-                } else {
-                    part.value
-                };
-                if let Some(c) = stage.min_capacitance(spec, g, &self.assigned) {
-                    if eff < c * (1.0 - 1e-6) && !rows.is_empty() {
-                        self.assigned[slots[0]] = None;
-                        continue;
-                    }
-                }
-            }
-            let (fits, new_lines) = self.take(slots);
+            self.stats.nodes_by_group[lv.group] += 1;
+            let real = item.real;
+            let (fits, new_lines) = self.take(ki, &real);
             if fits {
-                if let Some(share) = stage.group_partial(spec, g, &self.assigned) {
-                    let own: f64 = slots
-                        .iter()
-                        .filter_map(|&s| self.assigned[s])
-                        .map(|p| analysis::slot_points(spec, p))
-                        .sum();
-                    let score = acc + share + own + spec.goals.bom_lines * new_lines as f64;
-                    if score + rest_after < self.top.bound()
-                        && score + self.look_ahead(g) < self.top.bound()
+                self.vals[lv.slot] = Some(real.slot_value());
+                self.chosen[lv.slot] = Some(real);
+                let share = if lv.last {
+                    stage.group_partial(spec, lv.group, &self.vals)
+                } else {
+                    walk.bound_of(&item)
+                };
+                if let Some(share) = share {
+                    let own = real.pts + lambda * new_lines as f64;
+                    // The share is exact once the group is complete; before, it only bounds.
+                    let score = acc + own + if lv.last { share } else { 0.0 };
+                    let lb = score + if lv.last { 0.0 } else { share };
+                    if self
+                        .admits(lb + self.rest_static[level + 1] + self.lines_lb(level + 1, None))
+                        && self.admits(lb + self.rest_lb(level + 1, None))
                     {
-                        self.descend(g + 1, score);
+                        self.descend(level + 1, score);
                     }
                 }
+                self.vals[lv.slot] = None;
+                self.chosen[lv.slot] = None;
             }
-            self.give_back(slots);
-            for &s in slots {
-                self.assigned[s] = None;
-            }
+            self.give_back(ki, &real);
         }
-        if g == 0 {
-            (self.progress)(Progress { done: total, total });
+        if first {
+            (self.progress)(Progress {
+                slot: lv.slot,
+                done: table.reals.len(),
+                total: table.reals.len(),
+            });
         }
     }
 
-    /// Lower bound of the groups after `g` given what is assigned: the static best of each,
-    /// raised for a capacitor group to the best candidate large enough for its network.
-    fn look_ahead(&self, g: usize) -> f64 {
-        let spec = self.req.spec;
-        let mut total = 0.0;
-        for h in g + 1..self.groups.len() {
-            let stat = self.rest[h] - self.rest[h + 1];
-            let mut best = stat;
-            if let Some(rows) = &self.cap_bounds[h] {
-                if let Some(c) = self.req.stage.min_capacitance(spec, h, &self.assigned) {
-                    let i = rows.partition_point(|r| r.0 < c * (1.0 - 1e-6));
-                    best = best.max(rows.get(i).map_or(f64::INFINITY, |r| r.1));
-                }
+    /// The score a node must stay under: the N-th best build so far, and this round's cut.
+    fn bound(&self) -> f64 {
+        self.top.bound().min(self.cut)
+    }
+
+    /// Whether a node with lower bound `lb` is worth visiting; notes when only the cut
+    /// stops it.
+    fn admits(&mut self, lb: f64) -> bool {
+        if lb < self.bound() {
+            return true;
+        }
+        self.note_cut(lb);
+        false
+    }
+
+    /// A node with bound `lb` was stopped: by the cut alone when `lb` is under the N-th
+    /// best (always assumed for a walk's end, `lb` = −∞).
+    fn note_cut(&mut self, lb: f64) {
+        if self.cut < self.top.bound() && lb < self.top.bound() {
+            self.cut_hit = true;
+        }
+    }
+
+    /// At least one new line for each kind the open levels need that has no line yet
+    /// (`except`: a kind about to get one).
+    fn lines_lb(&self, level: usize, except: Option<usize>) -> f64 {
+        let bits = self.rest_kinds[level];
+        let mut n = 0;
+        for k in 0..2 {
+            if bits >> k & 1 == 1 && self.kind_lines[k] == 0 && except != Some(k) {
+                n += 1;
             }
-            total += best;
+        }
+        self.req.spec.goals.bom_lines * n as f64
+    }
+
+    /// Lower bound of what the levels from `level` on add: each open slot's least points, a
+    /// one-slot group's least points among the candidates its plan (given the parts chosen
+    /// so far) lets through, and the first line of each kind still without one.
+    fn rest_lb(&self, level: usize, except: Option<usize>) -> f64 {
+        let spec = self.req.spec;
+        let mut total = self.lines_lb(level, except);
+        for l in level..self.levels.len() {
+            let lv = self.levels[l];
+            if self.locked[lv.slot].is_some() {
+                continue;
+            }
+            let ki = kind_index(self.req.stage.slots()[lv.slot].kind);
+            let table = self.tables[ki].expect("table");
+            let mut lb = table.min_pts;
+            if lv.alone {
+                let plan = self.req.stage.walk(spec, lv.group, lv.k, &self.vals);
+                lb = lb.max(plan_floor(table, &plan));
+            }
+            total += lb;
         }
         total
     }
 
-    /// Count the pieces of `slots` against the stock; returns whether they fit and how many
-    /// lines are new to the build.
-    fn take(&mut self, slots: &[usize]) -> (bool, usize) {
+    /// Add one piece of a line; true when the line is new to the build.
+    fn add_piece(&mut self, kind: PartKind, key: LineKey, from_stock: bool) -> bool {
+        let ki = kind_index(kind);
+        if let Some(l) = self.lines.iter_mut().find(|l| l.key == key) {
+            l.all += 1;
+            l.stock += u32::from(from_stock);
+            return false;
+        }
+        let piece = self.tables[ki].and_then(|t| t.by_line.get(&key).copied());
+        self.lines.push(LineUse {
+            key,
+            kind: ki,
+            all: 1,
+            stock: u32::from(from_stock),
+            piece,
+        });
+        self.kind_lines[ki] += 1;
+        if let Some(p) = piece {
+            self.used[ki].push(p);
+        }
+        true
+    }
+
+    fn remove_piece(&mut self, key: LineKey, from_stock: bool) {
+        if let Some(i) = self.lines.iter().position(|l| l.key == key) {
+            let l = &mut self.lines[i];
+            l.all -= 1;
+            l.stock -= u32::from(from_stock);
+            if l.all == 0 {
+                let l = self.lines.swap_remove(i);
+                self.kind_lines[l.kind] -= 1;
+                if let Some(p) = l.piece {
+                    if let Some(j) = self.used[l.kind].iter().position(|&q| q == p) {
+                        self.used[l.kind].remove(j);
+                    }
+                }
+            }
+        }
+    }
+
+    /// Take a realisation's pieces from stock; returns whether they fit the quantities on
+    /// hand and how many lines are new to the build.
+    fn take(&mut self, ki: usize, real: &Real) -> (bool, usize) {
+        let table = self.tables[ki].expect("table");
         let mut fits = true;
         let mut new_lines = 0;
-        for &s in slots {
-            let part = self.assigned[s].expect("assigned");
-            for piece in &part.pieces {
-                let key = LineKey::of(part.kind, piece);
-                let n = match self.lines.iter().position(|(k, _)| *k == key) {
-                    Some(i) => {
-                        self.lines[i].1 += 1;
-                        self.lines[i].1
-                    }
-                    None => {
-                        new_lines += 1;
-                        self.lines.push((key, 1));
-                        1
-                    }
-                };
-                if !part.locked {
-                    if let Some(limit) = self.req.stock.quantity(key) {
-                        if n > limit {
-                            fits = false;
-                        }
-                    }
+        for p in real.pieces() {
+            let row = &table.pieces[p as usize];
+            if self.add_piece(table.kind, row.line, true) {
+                new_lines += 1;
+            }
+            if let Some(q) = row.qty {
+                let used = self
+                    .lines
+                    .iter()
+                    .find(|l| l.key == row.line)
+                    .map_or(0, |l| l.stock);
+                if used > q {
+                    fits = false;
                 }
             }
         }
         (fits, new_lines)
     }
 
-    fn give_back(&mut self, slots: &[usize]) {
-        for &s in slots {
-            let part = self.assigned[s].expect("assigned");
-            for piece in &part.pieces {
-                let key = LineKey::of(part.kind, piece);
-                if let Some(i) = self.lines.iter().position(|(k, _)| *k == key) {
-                    self.lines[i].1 -= 1;
-                    if self.lines[i].1 == 0 {
-                        self.lines.swap_remove(i);
-                    }
-                }
-            }
+    fn give_back(&mut self, ki: usize, real: &Real) {
+        let table = self.tables[ki].expect("table");
+        for p in real.pieces() {
+            self.remove_piece(table.pieces[p as usize].line, true);
         }
     }
 
     fn leaf(&mut self, acc: f64) {
-        let parts: Vec<Part> = self
-            .assigned
-            .iter()
-            .map(|p| p.expect("every slot assigned").clone())
+        let slots = self.req.stage.slots();
+        let parts: Vec<Part> = (0..slots.len())
+            .map(|i| match (self.locked[i], &self.chosen[i]) {
+                (Some(p), _) => p.clone(),
+                (None, Some(r)) => self.tables[kind_index(slots[i].kind)]
+                    .expect("table")
+                    .part(r),
+                (None, None) => unreachable!("every slot assigned at a leaf"),
+            })
             .collect();
         let build = Build { parts };
         self.stats.evaluated += 1;
@@ -519,6 +643,24 @@ impl<'a> Dfs<'a> {
         if evaluation.pass {
             self.top.offer(Ranked { build, evaluation });
         }
+    }
+}
+
+/// Least slot points plus stage bound of any candidate a plan lets through: on each side of
+/// the target, the least points there plus the bound at the first value met (the bound only
+/// grows outward).
+fn plan_floor(table: &Table, plan: &crate::stage::WalkPlan) -> f64 {
+    let m = table.merged(plan.coord);
+    let p = m.start(plan.target);
+    let up = (p < m.len())
+        .then(|| (plan.bound)(m.coord[p], true).map(|b| m.up[p] + b))
+        .flatten();
+    let down = (p > 0)
+        .then(|| (plan.bound)(m.coord[p - 1], false).map(|b| m.down[p - 1] + b))
+        .flatten();
+    match (up, down) {
+        (Some(a), Some(b)) => a.min(b),
+        (a, b) => a.or(b).unwrap_or(f64::INFINITY),
     }
 }
 

@@ -13,8 +13,9 @@
 //! bias-current compensation asks R_bias_hi ∥ R_bias_lo = R_fb (the DC resistance at −).
 
 use super::common::{self, end, SLACK};
-use super::{plans, CapBias, DcErrors, DcPoint, Group, Network, OpAmp, PairPlan, SlotDef, Stage};
-use crate::build::Part;
+use super::plans::{self, DividerContext, GainForm};
+use super::{CapBias, Coord, DcErrors, DcPoint, Group, Network, OpAmp, SlotDef, Stage, WalkPlan};
+use crate::build::SlotValue;
 use crate::spec::{Spec, StageKind};
 use crate::stock::inventory::PartKind;
 use num_complex::Complex64;
@@ -63,13 +64,13 @@ const SLOTS: &[SlotDef] = &[
 
 const GROUPS: &[Group] = &[&[R_IN, R_FB], &[R_BIAS_HI, R_BIAS_LO], &[C_IN], &[C_OUT]];
 
-fn get<'a>(parts: &[Option<&'a Part>], i: usize) -> Option<&'a Part> {
-    parts.get(i).copied().flatten()
+fn get(parts: &[Option<SlotValue>], i: usize) -> Option<&SlotValue> {
+    parts.get(i).and_then(Option::as_ref)
 }
 
 impl Inverting {
     /// Worst-case gain magnitude range of the gain pair: |G| = R_fb / (R_s + R_in).
-    fn gain_range(spec: &Spec, r_in: &Part, r_fb: &Part) -> (f64, f64) {
+    fn gain_range(spec: &Spec, r_in: &SlotValue, r_fb: &SlotValue) -> (f64, f64) {
         let rs = spec.source_resistance;
         (
             end(spec, r_fb, false) / (rs + end(spec, r_in, true)),
@@ -77,7 +78,7 @@ impl Inverting {
         )
     }
 
-    fn input_network_ok(spec: &Spec, r_in: &Part, c_in: &Part) -> Option<f64> {
+    fn input_network_ok(spec: &Spec, r_in: &SlotValue, c_in: &SlotValue) -> Option<f64> {
         let r = spec.source_resistance + end(spec, r_in, false);
         let c = end(spec, c_in, false);
         let corner = 1.0 / (2.0 * std::f64::consts::PI * r * c);
@@ -85,7 +86,7 @@ impl Inverting {
         common::network_ok(spec, corner, loss).then_some(loss)
     }
 
-    fn output_network_ok(spec: &Spec, c_out: &Part) -> Option<f64> {
+    fn output_network_ok(spec: &Spec, c_out: &SlotValue) -> Option<f64> {
         let c = end(spec, c_out, false);
         let corner = 1.0 / (2.0 * std::f64::consts::PI * spec.load * c);
         let loss = common::high_pass_loss_db(spec.load, c, spec.band.0);
@@ -218,19 +219,8 @@ impl Stage for Inverting {
         ]
     }
 
-    fn groups(&self) -> &'static [Group] {
+    fn groups(&self, _spec: &Spec) -> &'static [Group] {
         GROUPS
-    }
-
-    fn min_capacitance(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
-        match g {
-            2 => {
-                let r = spec.source_resistance + end(spec, get(parts, R_IN)?, false);
-                super::needed_capacitance(spec, r, true)
-            }
-            3 => super::needed_capacitance(spec, spec.load, true),
-            _ => None,
-        }
     }
 
     fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> super::NoiseCircuit {
@@ -258,25 +248,73 @@ impl Stage for Inverting {
         }
     }
 
-    fn pair_plan<'s>(&self, spec: &'s Spec, g: usize) -> Option<PairPlan<'s>> {
-        match g {
-            0 => Some(plans::gain(
-                spec,
-                R_IN,
-                R_FB,
-                spec.source_resistance,
-                0.0,
-                move |r_in| {
-                    spec.input_resistance_min
-                        .is_none_or(|min| end(spec, r_in, false) >= min * (1.0 - SLACK))
-                },
-            )),
-            1 => Some(plans::divider(spec, R_BIAS_HI, R_BIAS_LO, None)),
-            _ => None,
+    fn walk<'s>(
+        &self,
+        spec: &'s Spec,
+        g: usize,
+        k: usize,
+        parts: &[Option<SlotValue>],
+    ) -> WalkPlan<'s> {
+        let form = GainForm {
+            att: 1.0,
+            plus: 0.0,
+            offset: spec.source_resistance,
+        };
+        // The input resistance is r_in itself: a nominal value below the minimum fails at
+        // any tolerance.
+        let floor = spec.input_resistance_min.map_or(0.0, |m| m * (1.0 - SLACK));
+        match (g, k) {
+            (0, 0) => match get(parts, R_FB) {
+                Some(fb) => plans::gain_other_given_fb(spec, form, fb.value, floor, None),
+                None => plans::gain_other_first(spec, form, floor, None),
+            },
+            (0, _) => match get(parts, R_IN) {
+                Some(r_in) => plans::gain_fb(spec, form, r_in.value, None),
+                None => WalkPlan::free(),
+            },
+            (1, k) => {
+                let ctx = DividerContext {
+                    r_fb: get(parts, R_FB).map(|p| p.value),
+                    rp_min: None,
+                    gain: match (get(parts, R_IN), get(parts, R_FB)) {
+                        (Some(i), Some(f)) => f.value / (spec.source_resistance + i.value),
+                        _ => 0.0,
+                    },
+                };
+                let (me, other) = if k == 0 {
+                    (R_BIAS_HI, R_BIAS_LO)
+                } else {
+                    (R_BIAS_LO, R_BIAS_HI)
+                };
+                match get(parts, other) {
+                    Some(o) => plans::divider_member(spec, o.value, me == R_BIAS_HI, ctx),
+                    None if me == R_BIAS_HI => plans::divider_first(spec, ctx),
+                    None => WalkPlan::free(),
+                }
+            }
+            (2, _) => {
+                let need = get(parts, R_IN).and_then(|r| {
+                    super::needed_capacitance(
+                        spec,
+                        spec.source_resistance + end(spec, r, false),
+                        true,
+                    )
+                });
+                WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
+            }
+            _ => {
+                // The loss budget left once c_in's network has taken its share.
+                let spent = match (get(parts, R_IN), get(parts, C_IN)) {
+                    (Some(r), Some(c)) => Self::input_network_ok(spec, r, c).unwrap_or(0.0),
+                    _ => 0.0,
+                };
+                let need = super::needed_capacitance_after(spec, spec.load, spent);
+                WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
+            }
         }
     }
 
-    fn group_base(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
+    fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<SlotValue>]) -> Option<f64> {
         match g {
             0 => {
                 let (r_in, r_fb) = (get(parts, R_IN)?, get(parts, R_FB)?);
@@ -289,38 +327,17 @@ impl Stage for Inverting {
                 if !common::gain_window_ok(spec, lo, hi) {
                     return None;
                 }
-                let v = [r_in.value, r_fb.value];
                 Some(common::gain_points(
                     spec,
-                    -v[1] / (spec.source_resistance + v[0]),
+                    -r_fb.value / (spec.source_resistance + r_in.value),
                 ))
             }
             1 => {
+                let (r_in, r_fb) = (get(parts, R_IN)?, get(parts, R_FB)?);
                 let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
                 if !common::divider_current_ok(spec, hi, lo) {
                     return None;
                 }
-                let (vmin, vmax) = common::divider_range(spec, hi, lo);
-                if spec.output_peak.is_some()
-                    && !common::swing_ok(spec, common::swing(spec, vmin, vmax), 1.0)
-                {
-                    return None;
-                }
-                Some(common::offset_points(
-                    spec,
-                    common::divider_error(spec, hi.value, lo.value),
-                ))
-            }
-            _ => Some(0.0),
-        }
-    }
-
-    fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
-        match g {
-            0 => self.group_base(spec, 0, parts),
-            1 => {
-                let (r_in, r_fb) = (get(parts, R_IN)?, get(parts, R_FB)?);
-                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
                 let (vmin, vmax) = common::divider_range(spec, hi, lo);
                 let (_, g_max) = Self::gain_range(spec, r_in, r_fb);
                 if !common::swing_ok(spec, common::swing(spec, vmin, vmax), g_max) {

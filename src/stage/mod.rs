@@ -8,7 +8,7 @@ pub mod inverting;
 pub mod layout;
 pub mod non_inverting;
 
-use crate::build::Part;
+use crate::build::{Part, SlotValue};
 use crate::spec::{Spec, StageKind};
 use crate::stock::inventory::PartKind;
 use num_complex::Complex64;
@@ -222,15 +222,27 @@ pub trait Stage: Send + Sync {
     /// The textbook values before any rounding to stock, where the stage can say.
     fn ideal(&self, spec: &Spec) -> Vec<Option<f64>>;
 
-    /// Search plan: groups of coupled slots, decided in this order. Every slot is in one group.
-    fn groups(&self) -> &'static [Group];
-    /// Context-free part of group `g`'s objective (its slots only), `None` when the group's
-    /// own slots already break a requirement. A lower bound of `partial`.
-    fn group_base(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64>;
-    /// Group `g`'s share of the objective once it and every earlier group are assigned, `None`
-    /// when a requirement is surely broken. Must never reject a build the exact analysis
-    /// accepts (a relaxation), and the shares must add up to the objective's stage terms.
-    fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64>;
+    /// Search plan: groups of coupled slots, decided in this order (one or two slots each;
+    /// in a pair the first slot is walked first). Every slot is in exactly one group. The
+    /// order may depend on the spec (a group whose share needs another group's parts comes
+    /// after it).
+    fn groups(&self, spec: &Spec) -> &'static [Group];
+    /// Group `g`'s share of the objective's stage terms once it and every earlier group are
+    /// assigned, `None` when a requirement is surely broken. Must never reject a build the
+    /// exact analysis accepts (a relaxation), and the shares of all groups must add up to the
+    /// objective's stage terms (gain and offset points). `parts` may also hold later slots
+    /// that are locked; a group's share must not depend on them.
+    fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<SlotValue>]) -> Option<f64>;
+    /// How the search should walk the `k`-th slot of group `g`, given the parts assigned so
+    /// far (earlier groups, earlier slots of this group, and locked slots): around which
+    /// value, and a lower bound of the group's share for a candidate (see [`WalkPlan`]).
+    fn walk<'s>(
+        &self,
+        spec: &'s Spec,
+        g: usize,
+        k: usize,
+        parts: &[Option<SlotValue>],
+    ) -> WalkPlan<'s>;
 
     /// The circuit for the SPICE netlist (`report::spice`): between which nodes each slot
     /// sits, every slot once, in slot order. The source, supply, op-amp (its pins are
@@ -246,20 +258,6 @@ pub trait Stage: Send + Sync {
     /// The impedances around the op-amp at `f` and where each resistor's noise sits, for the
     /// noise analysis (`analysis::noise`; its module docs give the transfer of each place).
     fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> NoiseCircuit;
-
-    /// For a one-capacitor group whose requirements only get easier with more capacitance: the
-    /// least capacitance its part must keep at the low end of its tolerance (nominal in
-    /// nominal mode), given the parts assigned so far; `None` while unknown. The search uses
-    /// it as a look-ahead bound, so it must never exceed what the exact analysis needs.
-    fn min_capacitance(&self, _spec: &Spec, _g: usize, _parts: &[Option<&Part>]) -> Option<f64> {
-        None
-    }
-
-    /// For a two-slot group, how to enumerate it lazily instead of as a full product (the
-    /// search then visits pairs near the target first). `None`: full product.
-    fn pair_plan<'s>(&self, _spec: &'s Spec, _g: usize) -> Option<PairPlan<'s>> {
-        None
-    }
 }
 
 /// Where a resistor's noise voltage sits (see `analysis::noise`).
@@ -289,23 +287,117 @@ pub(crate) fn cap_z(c: f64, f: f64) -> Complex64 {
     Complex64::new(0.0, -1.0 / (2.0 * std::f64::consts::PI * f * c))
 }
 
-/// The inner value an outer part wants (see [`PairPlan`]).
-pub type TargetFn<'s> = Box<dyn Fn(&Part) -> Option<f64> + 's>;
-/// Lower bound for an inner value next to an outer part (see [`PairPlan`]).
-pub type BoundFn<'s> = Box<dyn Fn(&Part, f64) -> Option<f64> + 's>;
+/// Which figure of a candidate a walk orders by: its nominal value, or the low end of its
+/// tolerance (what a "large enough" requirement needs at worst case).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Coord {
+    Value,
+    Low,
+}
 
-/// Lazy enumeration of a two-slot group: for each `outer` candidate the `inner` value it wants,
-/// and a lower bound of the group's stage share that grows as the inner value moves away from
-/// that target on either side.
-pub struct PairPlan<'s> {
-    pub outer: usize,
-    pub inner: usize,
-    /// The inner value the outer part wants; `None` when the outer part alone is infeasible.
-    pub target: TargetFn<'s>,
-    /// Lower bound of `group_base` minus the slot points, for an inner value: nondecreasing
-    /// moving away from the target on each side; `None` when this value and every value
-    /// farther out on that side are infeasible.
+impl Coord {
+    /// The coordinate that `common::end(spec, _, false)` reads: the low end at worst case,
+    /// the nominal value in nominal mode.
+    pub fn low_end(spec: &Spec) -> Coord {
+        if spec.worst_case() {
+            Coord::Low
+        } else {
+            Coord::Value
+        }
+    }
+
+    pub fn of(self, v: &SlotValue) -> f64 {
+        match self {
+            Coord::Value => v.value,
+            Coord::Low => v.min,
+        }
+    }
+}
+
+/// A lower bound of a group's share for one slot's candidate: `bound(v, up)` for a candidate
+/// whose coordinate is `v`, met walking up (`true`, v ≥ target) or down from the target.
+pub type BoundFn<'s> = Box<dyn Fn(f64, bool) -> Option<f64> + 's>;
+
+/// How the search walks one slot's candidates: outward from `target` in both directions, in
+/// order of slot points plus `bound`, lazily (the search never sorts a slot's candidates per
+/// node).
+///
+/// The contract, which `tests/exact.rs` holds the stages to:
+/// - `bound(v, up)` never exceeds the group's share (`group_partial`, plus for the first slot
+///   of a pair the best the second slot can still do) for any candidate at `v` on that side
+///   and any tolerance (so it may only read `v`);
+/// - it is nondecreasing as `v` moves away from `target` in the walk's direction;
+/// - `None` means this value and every value farther out on that side fail a requirement.
+///
+/// [`unimodal_sum`] turns a sum of terms each with one minimum into such a bound.
+pub struct WalkPlan<'s> {
+    pub coord: Coord,
+    pub target: f64,
     pub bound: BoundFn<'s>,
+}
+
+impl WalkPlan<'static> {
+    /// No preference: every candidate, cheapest first (a walk up from the bottom).
+    pub fn free() -> WalkPlan<'static> {
+        WalkPlan {
+            coord: Coord::Value,
+            target: 0.0,
+            bound: Box::new(|_, _| Some(0.0)),
+        }
+    }
+
+    /// Every candidate whose coordinate is at least `min` (less fails), cheapest first. `min`
+    /// is taken `SLACK` lower so that rounding never drops a part the exact check accepts.
+    pub fn at_least(coord: Coord, min: f64) -> WalkPlan<'static> {
+        let target = if min.is_nan() {
+            0.0
+        } else {
+            min * (1.0 - common::SLACK)
+        };
+        WalkPlan {
+            coord,
+            target,
+            bound: Box::new(move |v, up| (up && v >= target).then_some(0.0)),
+        }
+    }
+
+    /// Every candidate whose coordinate is at most `max`, walked down from there.
+    pub fn at_most(coord: Coord, max: f64) -> WalkPlan<'static> {
+        let target = max * (1.0 + common::SLACK);
+        WalkPlan {
+            coord,
+            target,
+            bound: Box::new(move |v, up| (!up || v <= target).then_some(0.0)),
+        }
+    }
+}
+
+/// A term of a walk bound: a function with a single minimum at `mode` (nonincreasing below
+/// it, nondecreasing above). `mode` may be ±∞ for a monotone term.
+pub struct Term<'a> {
+    pub mode: f64,
+    pub f: &'a dyn Fn(f64) -> f64,
+}
+
+/// A lower bound of Σ fᵢ(v) that is nondecreasing along a walk: going up, each term is read
+/// at max(v, modeᵢ), going down at min(v, modeᵢ). Each read is the least the term can still
+/// take at `v` or farther out, so the sum never exceeds the true one and only grows as the
+/// walk moves on, whatever the target.
+pub fn unimodal_sum(terms: &[Term], v: f64, up: bool) -> f64 {
+    terms
+        .iter()
+        .map(|t| {
+            let at = if up { v.max(t.mode) } else { v.min(t.mode) };
+            (t.f)(at)
+        })
+        .sum()
+}
+
+/// The least of a·|x − x₁| + b·|x − x₂| over x is min(a, b)·|x₁ − x₂| (a piecewise-linear
+/// function takes its minimum at a breakpoint): the bound of two V-shaped costs pulling one
+/// value towards two places.
+pub fn two_v_floor(a: f64, x1: f64, b: f64, x2: f64) -> f64 {
+    a.min(b) * (x1 - x2).abs()
 }
 
 /// The stage for a kind.
@@ -409,7 +501,7 @@ pub(crate) mod common {
 
     /// The end of a part's tolerance to use: worst case takes the given end, nominal mode the
     /// nominal value.
-    pub fn end(spec: &Spec, part: &Part, high: bool) -> f64 {
+    pub fn end(spec: &Spec, part: &SlotValue, high: bool) -> f64 {
         if spec.worst_case() {
             part.at(high)
         } else {
@@ -419,7 +511,7 @@ pub(crate) mod common {
 
     /// Divider output extremes over the divider's tolerances, ignoring op-amp errors (which
     /// widen the range symmetrically, so leaving them out is the optimistic side).
-    pub fn divider_range(spec: &Spec, hi: &Part, lo: &Part) -> (f64, f64) {
+    pub fn divider_range(spec: &Spec, hi: &SlotValue, lo: &SlotValue) -> (f64, f64) {
         let vmin =
             spec.supply * end(spec, lo, false) / (end(spec, hi, true) + end(spec, lo, false));
         let vmax = spec.supply * end(spec, lo, true) / (end(spec, hi, false) + end(spec, lo, true));
@@ -427,7 +519,7 @@ pub(crate) mod common {
     }
 
     /// Relaxed `bias_current_max`: the nominal divider current (the worst case is higher).
-    pub fn divider_current_ok(spec: &Spec, hi: &Part, lo: &Part) -> bool {
+    pub fn divider_current_ok(spec: &Spec, hi: &SlotValue, lo: &SlotValue) -> bool {
         spec.bias_current_max
             .is_none_or(|max| spec.supply / (hi.value + lo.value) <= max * (1.0 + SLACK))
     }
@@ -466,11 +558,26 @@ pub(crate) mod common {
 
     /// Relaxed rating check at the nominal DC point (the exact analysis checks every tolerance
     /// corner and the polarity): DC stress ≤ 80 % of the rating (common-practice derating).
-    pub fn cap_ok(part: &Part, volts: f64) -> bool {
-        match part.voltage_rating() {
+    pub fn cap_ok(part: &SlotValue, volts: f64) -> bool {
+        match part.rating {
             Some(rating) => volts.abs() <= rating * 0.8 * (1.0 + SLACK),
             None => true,
         }
+    }
+
+    /// The vertices of the tolerance box of slot values (2^n), or just the nominal point.
+    pub fn value_vertices(spec: &Spec, parts: &[&SlotValue]) -> Vec<Vec<f64>> {
+        let nominal: Vec<f64> = parts.iter().map(|p| p.value).collect();
+        if !spec.worst_case() {
+            return vec![nominal];
+        }
+        (0..1usize << parts.len())
+            .map(|mask| {
+                (0..parts.len())
+                    .map(|i| parts[i].at(mask >> i & 1 == 1))
+                    .collect()
+            })
+            .collect()
     }
 
     /// All vertices of the tolerance box of `parts` (2^n), or just the nominal point.
@@ -539,91 +646,392 @@ pub fn needed_capacitance(spec: &Spec, r: f64, loss: bool) -> Option<f64> {
         .then(|| 1.0 / (2.0 * std::f64::consts::PI * r * fc))
 }
 
-/// Lazy plans shared by the single-supply stages.
+/// The least capacitance a first-order coupling network against `r` (its low-end value) may
+/// have once other networks, buffered from it, have spent `spent` dB of `band_loss_max` at
+/// the band's low edge: the corner limit and the loss left, each with the search's slack (as
+/// `common::network_ok` and the stages' summed-loss checks read them). With neither limit
+/// given, the band's low edge is the corner (see [`needed_capacitance`]). `Some(∞)` when no
+/// loss is left.
+pub fn needed_capacitance_after(spec: &Spec, r: f64, spent: f64) -> Option<f64> {
+    use common::SLACK;
+    let mut fc = f64::INFINITY;
+    if let Some(max) = spec.corner_low_max {
+        fc = fc.min(max * (1.0 + SLACK));
+    }
+    if let Some(l) = spec.band_loss_max {
+        let left = l * (1.0 + SLACK) + SLACK - spent;
+        if left <= 0.0 {
+            return Some(f64::INFINITY);
+        }
+        fc = fc.min(spec.band.0 * (10f64.powf(left / 10.0) - 1.0).sqrt());
+    }
+    if spec.corner_low_max.is_none() && spec.band_loss_max.is_none() {
+        fc = spec.band.0;
+    }
+    Some(1.0 / (2.0 * std::f64::consts::PI * r * fc))
+}
+
+/// Walk plans shared by the single-supply stages: the bias divider and the gain pair.
 pub(crate) mod plans {
     use super::common::{self, SLACK};
-    use super::PairPlan;
+    use super::{two_v_floor, unimodal_sum, Coord, Term, WalkPlan};
     use crate::spec::Spec;
 
-    /// The bias divider: walk `lo` outward from the value that puts the divider exactly on the
-    /// bias target, V_s·R_lo/(R_hi + R_lo) = V_t. The bound is the ratio part of the offset
-    /// goal, monotone in R_lo on each side; past a nominal divider voltage that already leaves
-    /// too little swing, every farther value fails too (worst case ≤ nominal). With
-    /// `rp_min`, values below the target whose nominal R_hi ∥ R_lo is too small end that side
-    /// (R_p grows with R_lo).
-    pub fn divider<'s>(spec: &'s Spec, hi: usize, lo: usize, rp_min: Option<f64>) -> PairPlan<'s> {
+    /// A bound never above the exact share despite rounding in its own arithmetic.
+    fn safe(x: f64) -> f64 {
+        x * (1.0 - 1e-9)
+    }
+
+    /// The swing the nominal bias point must at least leave, as `common::swing_ok` asks:
+    /// the required output peak, or the input peak times `gain` (a lower bound of the
+    /// worst-case highest gain).
+    pub fn swing_needed(spec: &Spec, gain: f64) -> f64 {
+        if let Some(out) = spec.output_peak {
+            out * (1.0 - SLACK) - SLACK
+        } else if let Some(inp) = spec.input_peak {
+            gain.abs() * (inp * (1.0 - SLACK) - SLACK)
+        } else {
+            -SLACK
+        }
+    }
+
+    /// The divider ratio window x = V_div/V_s that leaves `swing` to each rail at nominal.
+    fn ratio_window(spec: &Spec, swing: f64) -> (f64, f64) {
+        (
+            (spec.headroom.0 + swing) / spec.supply,
+            (spec.supply - spec.headroom.1 - swing) / spec.supply,
+        )
+    }
+
+    /// What the divider plans know: the compensation target (R_fb, once chosen), the least
+    /// input resistance the divider must give (non-inverting), and the nominal |gain| (for
+    /// the swing an input peak needs).
+    #[derive(Debug, Clone, Copy)]
+    pub struct DividerContext {
+        pub r_fb: Option<f64>,
+        pub rp_min: Option<f64>,
+        pub gain: f64,
+    }
+
+    /// The first divider resistor `r_bias_hi` with its partner still open. The offset the
+    /// `offset` goal counts is a·|x − k| + b·|R − R_p| + c·(R + R_p) with x = R_lo/(R_hi + R_lo),
+    /// R_p = R_hi·x, a = V_s, b = I_b, c = I_os/2, k the bias target's ratio and R = R_fb
+    /// (`common::offset_error`). For a given R_hi = h the first two terms are
+    /// a|x − k| + b|R − h·x| ≥ min(b, a/h)·|R − k·h| ([`two_v_floor`] in x), zero at h = R/k
+    /// and growing on both sides of it; c·R_p ≥ 0 is left out.
+    pub fn divider_first<'s>(spec: &'s Spec, ctx: DividerContext) -> WalkPlan<'s> {
         let k = spec.bias_target() / spec.supply;
-        let target = move |r_hi: f64| r_hi * k / (1.0 - k);
-        PairPlan {
-            outer: hi,
-            inner: lo,
-            target: Box::new(move |p| Some(target(p.value))),
-            bound: Box::new(move |p, r_lo| {
-                let v_div = spec.supply * r_lo / (p.value + r_lo);
-                if spec.output_peak.is_some()
-                    && !common::swing_ok(spec, common::swing(spec, v_div, v_div), 1.0)
-                {
+        let w = spec.goals.offset / 0.1;
+        let a = spec.supply;
+        let b = spec.amplifier.input_bias_current;
+        let c = spec.amplifier.input_offset_current / 2.0;
+        // R_p < R_hi, so R_hi below the least input resistance fails, and so does every
+        // smaller value.
+        let floor = ctx.rp_min.map_or(0.0, |m| m * (1.0 - SLACK));
+        match ctx.r_fb {
+            Some(r) => WalkPlan {
+                coord: Coord::Value,
+                target: (r / k).max(floor),
+                bound: Box::new(move |h, up| {
+                    if !up && h < floor {
+                        return None;
+                    }
+                    Some(safe(w * (c * r + two_v_floor(b, r, a / h, k * h))))
+                }),
+            },
+            None => WalkPlan {
+                coord: Coord::Value,
+                target: spec.stock.resistor_range.1 * (1.0 + 1e-9),
+                bound: Box::new(move |h, up| (up || h >= floor).then_some(0.0)),
+            },
+        }
+    }
+
+    /// One divider resistor with the other (`other`) fixed: the offset share exactly, as a
+    /// sum of terms with one minimum each ([`unimodal_sum`]), and the values the relaxed
+    /// requirements leave (nominal swing, input resistance, divider current), outside of
+    /// which every farther value fails too. `walking_hi`: the walked slot is `r_bias_hi`.
+    pub fn divider_member<'s>(
+        spec: &'s Spec,
+        other: f64,
+        walking_hi: bool,
+        ctx: DividerContext,
+    ) -> WalkPlan<'s> {
+        let k = spec.bias_target() / spec.supply;
+        let w = spec.goals.offset / 0.1;
+        let vs = spec.supply;
+        let vt = spec.bias_target();
+        let b = spec.amplifier.input_bias_current;
+        let c = spec.amplifier.input_offset_current / 2.0;
+        let o = other;
+        // x and R_p of the walked value v; x rises with v when v is r_bias_lo, falls when it
+        // is r_bias_hi; R_p rises with v either way.
+        let ratio = move |v: f64| {
+            if v.is_infinite() {
+                if walking_hi {
+                    0.0
+                } else {
+                    1.0
+                }
+            } else if walking_hi {
+                o / (v + o)
+            } else {
+                v / (v + o)
+            }
+        };
+        let rp = move |v: f64| {
+            if v.is_infinite() {
+                o
+            } else if v <= 0.0 {
+                0.0
+            } else {
+                v * o / (v + o)
+            }
+        };
+        // The value of v giving ratio x, and giving parallel resistance r (∞ if none).
+        let v_of_ratio = move |x: f64| {
+            if walking_hi {
+                if x <= 0.0 {
+                    f64::INFINITY
+                } else {
+                    o * (1.0 - x) / x
+                }
+            } else if x >= 1.0 {
+                f64::INFINITY
+            } else if x <= 0.0 {
+                0.0
+            } else {
+                o * x / (1.0 - x)
+            }
+        };
+        let v_of_rp = move |r: f64| {
+            if r >= o {
+                f64::INFINITY
+            } else {
+                o * r / (o - r)
+            }
+        };
+        // Window of v. The ratio window becomes a window of v (reversed when walking hi).
+        let (x_lo, x_hi) = ratio_window(spec, swing_needed(spec, ctx.gain));
+        let (mut lower, mut upper) = if walking_hi {
+            (v_of_ratio(x_hi), v_of_ratio(x_lo))
+        } else {
+            (v_of_ratio(x_lo), v_of_ratio(x_hi))
+        };
+        if x_lo > x_hi {
+            // No bias point leaves the swing: nothing passes.
+            lower = f64::INFINITY;
+            upper = 0.0;
+        }
+        if let Some(m) = ctx.rp_min {
+            lower = lower.max(v_of_rp(m * (1.0 - SLACK)));
+        }
+        if let Some(max) = spec.bias_current_max {
+            lower = lower.max(vs / (max * (1.0 + SLACK)) - o);
+        }
+        let mode_ratio = v_of_ratio(k);
+        let r_fb = ctx.r_fb;
+        let mode_comp = r_fb.map_or(f64::INFINITY, v_of_rp);
+        let target = mode_ratio.clamp(lower.min(upper), upper.max(lower.min(upper)));
+        WalkPlan {
+            coord: Coord::Value,
+            target,
+            bound: Box::new(move |v, up| {
+                if (up && v > upper) || (!up && v < lower) {
                     return None;
                 }
-                if let Some(min) = rp_min {
-                    if r_lo < target(p.value)
-                        && common::parallel(p.value, r_lo) < min * (1.0 - SLACK)
-                    {
-                        return None;
-                    }
-                }
-                if let Some(max) = spec.bias_current_max {
-                    // The divider current grows as R_lo falls: below the target, once it is
-                    // too much it stays too much.
-                    if r_lo < target(p.value)
-                        && spec.supply / (p.value + r_lo) > max * (1.0 + SLACK)
-                    {
-                        return None;
-                    }
-                }
-                // divider_error = |V_s·x − V_t| + (I_os/2)·R_hi·x with x = R_lo/(R_hi + R_lo):
-                // linear in x on each side of the target, so it grows outward on both sides
-                // whenever (I_os/2)·R_hi < V_s; otherwise the ratio part alone is the bound.
-                let ios_half = spec.amplifier.input_offset_current / 2.0;
-                let err = if ios_half * p.value < spec.supply {
-                    common::divider_error(spec, p.value, r_lo)
-                } else {
-                    (v_div - spec.bias_target()).abs()
-                };
-                Some(common::offset_points(spec, err))
+                let f_ratio = |v: f64| w * (vs * ratio(v) - vt).abs();
+                let f_comp = |v: f64| r_fb.map_or(0.0, |r| w * b * (r - rp(v)).abs());
+                let f_ios = |v: f64| w * c * (r_fb.unwrap_or(0.0) + rp(v));
+                let terms = [
+                    Term {
+                        mode: mode_ratio,
+                        f: &f_ratio,
+                    },
+                    Term {
+                        mode: mode_comp,
+                        f: &f_comp,
+                    },
+                    Term {
+                        mode: 0.0,
+                        f: &f_ios,
+                    },
+                ];
+                Some(safe(unimodal_sum(&terms, v, up)))
             }),
         }
     }
 
-    /// A gain pair whose nominal |gain| is `inner / (offset + outer) + plus` (inverting:
-    /// R_fb/(R_s + R_in); non-inverting: 1 + R_fb/R_g): walk `inner` outward from the value
-    /// that gives the target gain. The bound is the gain goal itself (monotone in the inner
-    /// value on each side); past the tolerance window at nominal, every farther value fails.
-    pub fn gain<'s>(
-        spec: &'s Spec,
-        outer: usize,
-        inner: usize,
-        offset: f64,
-        plus: f64,
-        outer_ok: impl Fn(&crate::build::Part) -> bool + 's,
-    ) -> PairPlan<'s> {
+    /// A gain pair whose nominal |gain| is att·(plus + r_fb/(offset + r_other)) — inverting:
+    /// r_fb/(R_s + r_in); non-inverting: att·(1 + r_fb/r_g) with att = R_p/(R_s + R_p).
+    #[derive(Debug, Clone, Copy)]
+    pub struct GainForm {
+        pub att: f64,
+        pub plus: f64,
+        pub offset: f64,
+    }
+
+    impl GainForm {
+        fn gain(&self, r_fb: f64, r_other: f64) -> f64 {
+            self.att * (self.plus + r_fb / (self.offset + r_other))
+        }
+        /// The r_fb that gives |gain| `g` with this r_other.
+        fn r_fb_for(&self, g: f64, r_other: f64) -> f64 {
+            (g / self.att - self.plus).max(0.0) * (self.offset + r_other)
+        }
+        /// The r_other that gives |gain| `g` with this r_fb (∞ when none does).
+        fn r_other_for(&self, g: f64, r_fb: f64) -> f64 {
+            let d = g / self.att - self.plus;
+            if d <= 0.0 {
+                f64::INFINITY
+            } else {
+                r_fb / d - self.offset
+            }
+        }
+    }
+
+    /// Extra terms the gain pair's share carries when the divider is chosen first
+    /// (non-inverting with a source resistance): b·|R_fb − R_p| + c·R_fb of the offset, with
+    /// R_p known.
+    #[derive(Debug, Clone, Copy)]
+    pub struct Compensation {
+        pub rp: f64,
+    }
+
+    /// The nominal |gain| window of the tolerance, with the search's slack.
+    fn gain_window(spec: &Spec) -> (f64, f64) {
         let g = spec.gain.abs();
-        PairPlan {
-            outer,
-            inner,
-            target: Box::new(move |p| {
-                outer_ok(p).then(|| (g - plus).max(0.0) * (offset + p.value))
-            }),
-            bound: Box::new(move |p, v| {
-                let gain = plus + v / (offset + p.value);
-                if let Some(t) = spec.gain_tolerance {
-                    if gain < g * (1.0 - t) * (1.0 - SLACK) || gain > g * (1.0 + t) * (1.0 + SLACK)
-                    {
-                        return None;
-                    }
+        match spec.gain_tolerance {
+            Some(t) => (g * (1.0 - t) * (1.0 - SLACK), g * (1.0 + t) * (1.0 + SLACK)),
+            None => (0.0, f64::INFINITY),
+        }
+    }
+
+    /// r_fb walked with the other gain resistor fixed: the gain points (and with `comp` the
+    /// compensation terms) exactly, inside the nominal gain window.
+    pub fn gain_fb<'s>(
+        spec: &'s Spec,
+        form: GainForm,
+        r_other: f64,
+        comp: Option<Compensation>,
+    ) -> WalkPlan<'s> {
+        let (g_lo, g_hi) = gain_window(spec);
+        let mode = form.r_fb_for(spec.gain.abs(), r_other);
+        let w_off = spec.goals.offset / 0.1;
+        let b = spec.amplifier.input_bias_current;
+        let c = spec.amplifier.input_offset_current / 2.0;
+        WalkPlan {
+            coord: Coord::Value,
+            target: mode,
+            bound: Box::new(move |v, up| {
+                // The gain rises with r_fb.
+                let gain = form.gain(v, r_other);
+                if (up && gain > g_hi) || (!up && gain < g_lo) {
+                    return None;
                 }
-                Some(common::gain_points(spec, gain.copysign(spec.gain)))
+                let f_gain =
+                    |v: f64| common::gain_points(spec, form.gain(v, r_other).copysign(spec.gain));
+                let f_comp = |v: f64| comp.map_or(0.0, |p| w_off * b * (v - p.rp).abs());
+                let f_ios = |v: f64| comp.map_or(0.0, |_| w_off * c * v.max(0.0));
+                let terms = [
+                    Term { mode, f: &f_gain },
+                    Term {
+                        mode: comp.map_or(0.0, |p| p.rp),
+                        f: &f_comp,
+                    },
+                    Term {
+                        mode: 0.0,
+                        f: &f_ios,
+                    },
+                ];
+                Some(safe(unimodal_sum(&terms, v, up)))
             }),
+        }
+    }
+
+    /// The other gain resistor (r_in, r_g) walked with r_fb fixed (locked): the gain points
+    /// exactly, inside the nominal gain window and above `floor` (the least input resistance
+    /// for r_in); the compensation terms depend on r_fb only and are a constant here.
+    pub fn gain_other_given_fb<'s>(
+        spec: &'s Spec,
+        form: GainForm,
+        r_fb: f64,
+        floor: f64,
+        comp: Option<Compensation>,
+    ) -> WalkPlan<'s> {
+        let (g_lo, g_hi) = gain_window(spec);
+        let mode = form.r_other_for(spec.gain.abs(), r_fb);
+        let constant = comp.map_or(0.0, |p| {
+            spec.goals.offset / 0.1
+                * (spec.amplifier.input_bias_current * (r_fb - p.rp).abs()
+                    + spec.amplifier.input_offset_current / 2.0 * r_fb)
+        });
+        WalkPlan {
+            coord: Coord::Value,
+            target: mode.max(floor),
+            bound: Box::new(move |v, up| {
+                // The gain falls as the other resistor rises.
+                let gain = form.gain(r_fb, v);
+                if (up && gain < g_lo) || (!up && (gain > g_hi || v < floor)) {
+                    return None;
+                }
+                let f_gain =
+                    |v: f64| common::gain_points(spec, form.gain(r_fb, v).copysign(spec.gain));
+                let terms = [Term { mode, f: &f_gain }];
+                Some(safe(unimodal_sum(&terms, v, up) + constant))
+            }),
+        }
+    }
+
+    /// The other gain resistor walked first, r_fb still open. Without `comp` any value can be
+    /// matched by some r_fb, so the bound is 0 and the walk runs down from the largest value
+    /// an r_fb inside the resistor range can still serve (larger values need less coupling
+    /// capacitance). With `comp` (R_p known) the gain and compensation pull r_fb towards
+    /// (G/att − plus)·v and R_p: at least min(slopes)·|distance| ([`two_v_floor`]), zero at
+    /// v = R_p/(G/att − plus) and growing on both sides.
+    pub fn gain_other_first<'s>(
+        spec: &'s Spec,
+        form: GainForm,
+        floor: f64,
+        comp: Option<Compensation>,
+    ) -> WalkPlan<'s> {
+        let (g_lo, _) = gain_window(spec);
+        let r_max = spec.stock.resistor_range.1 * (1.0 + 1e-9);
+        // The largest value an r_fb ≤ r_max can still bring into the window.
+        let top = form.r_other_for(g_lo, r_max);
+        let g = spec.gain.abs();
+        match comp {
+            None => WalkPlan {
+                coord: Coord::Value,
+                target: top.max(floor),
+                bound: Box::new(move |v, up| {
+                    let out = (up && v > top) || (!up && v < floor);
+                    (!out).then_some(0.0)
+                }),
+            },
+            Some(p) => {
+                let d = g / form.att - form.plus;
+                let w_gain = spec.goals.gain_error / 0.01;
+                let s_off = spec.goals.offset / 0.1 * spec.amplifier.input_bias_current;
+                let mode = if d > 0.0 {
+                    p.rp / d - form.offset
+                } else {
+                    f64::INFINITY
+                };
+                WalkPlan {
+                    coord: Coord::Value,
+                    target: mode.clamp(floor.min(top), top.max(floor)),
+                    bound: Box::new(move |v, up| {
+                        if (up && v > top) || (!up && v < floor) {
+                            return None;
+                        }
+                        // d|gain|/dR_fb = att/(offset + v): gain points per ohm of R_fb.
+                        let s_gain = w_gain * form.att / (g * (form.offset + v));
+                        let want = form.r_fb_for(g, v);
+                        Some(safe(two_v_floor(s_gain, want, s_off, p.rp)))
+                    }),
+                }
+            }
         }
     }
 }

@@ -13,8 +13,12 @@
 //! resistance at − is R_fb, so compensation asks R_p = R_fb.
 
 use super::common::{self, end, SLACK};
-use super::{plans, CapBias, DcErrors, DcPoint, Group, Network, OpAmp, PairPlan, SlotDef, Stage};
-use crate::build::Part;
+use super::plans::{self, Compensation, DividerContext, GainForm};
+use super::{
+    needed_capacitance, needed_capacitance_after, CapBias, Coord, DcErrors, DcPoint, Group,
+    Network, OpAmp, SlotDef, Stage, WalkPlan,
+};
+use crate::build::SlotValue;
 use crate::spec::{Spec, StageKind};
 use crate::stock::inventory::PartKind;
 use num_complex::Complex64;
@@ -68,16 +72,38 @@ const SLOTS: &[SlotDef] = &[
     },
 ];
 
+/// The gain pair first (r_g walked before r_fb), then the divider, whose compensation
+/// target is R_fb.
 const GROUPS: &[Group] = &[
-    &[R_FB, R_G],
+    &[R_G, R_FB],
     &[R_BIAS_HI, R_BIAS_LO],
     &[C_IN],
     &[C_G],
     &[C_OUT],
 ];
 
-fn get<'a>(parts: &[Option<&'a Part>], i: usize) -> Option<&'a Part> {
-    parts.get(i).copied().flatten()
+/// With a source resistance the divider attenuates the gain: the divider first, then the
+/// gain pair with the whole gain known.
+const GROUPS_DIVIDER_FIRST: &[Group] = &[
+    &[R_BIAS_HI, R_BIAS_LO],
+    &[R_G, R_FB],
+    &[C_IN],
+    &[C_G],
+    &[C_OUT],
+];
+
+/// What a search group is, whichever order the spec gives.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Which {
+    Gain,
+    Divider,
+    CapIn,
+    CapG,
+    CapOut,
+}
+
+fn get(parts: &[Option<SlotValue>], i: usize) -> Option<&SlotValue> {
+    parts.get(i).and_then(Option::as_ref)
 }
 
 /// Loss of the gain leg: G(f) = 1 + R_fb/(R_g + 1/(jωC_g)) against G_mid = 1 + R_fb/R_g.
@@ -93,7 +119,12 @@ impl NonInverting {
     }
 
     /// Worst-case gain range; with a source resistance the divider attenuates too.
-    fn gain_range(spec: &Spec, r_fb: &Part, r_g: &Part, div: Option<(&Part, &Part)>) -> (f64, f64) {
+    fn gain_range(
+        spec: &Spec,
+        r_fb: &SlotValue,
+        r_g: &SlotValue,
+        div: Option<(&SlotValue, &SlotValue)>,
+    ) -> (f64, f64) {
         let amp_lo = 1.0 + end(spec, r_fb, false) / end(spec, r_g, true);
         let amp_hi = 1.0 + end(spec, r_fb, true) / end(spec, r_g, false);
         let rs = spec.source_resistance;
@@ -107,7 +138,12 @@ impl NonInverting {
         }
     }
 
-    fn input_network_loss(spec: &Spec, hi: &Part, lo: &Part, c_in: &Part) -> Option<f64> {
+    fn input_network_loss(
+        spec: &Spec,
+        hi: &SlotValue,
+        lo: &SlotValue,
+        c_in: &SlotValue,
+    ) -> Option<f64> {
         let r = spec.source_resistance + Self::rp(end(spec, hi, false), end(spec, lo, false));
         let c = end(spec, c_in, false);
         let corner = 1.0 / (2.0 * PI * r * c);
@@ -116,25 +152,87 @@ impl NonInverting {
     }
 
     /// The gain leg's worst loss over its three parts' tolerance corners.
-    fn gain_network_loss(spec: &Spec, r_fb: &Part, r_g: &Part, c_g: &Part) -> Option<f64> {
+    fn gain_network_loss(
+        spec: &Spec,
+        r_fb: &SlotValue,
+        r_g: &SlotValue,
+        c_g: &SlotValue,
+    ) -> Option<f64> {
         let corner = 1.0 / (2.0 * PI * end(spec, r_g, false) * end(spec, c_g, false));
-        let loss = common::vertices(spec, &[r_fb, r_g, c_g])
+        let loss = common::value_vertices(spec, &[r_fb, r_g, c_g])
             .iter()
             .map(|v| gain_leg_loss_db(v[0], v[1], v[2], spec.band.0))
             .fold(f64::NEG_INFINITY, f64::max);
         common::network_ok(spec, corner, loss).then_some(loss)
     }
 
-    fn output_network_loss(spec: &Spec, c_out: &Part) -> Option<f64> {
+    fn output_network_loss(spec: &Spec, c_out: &SlotValue) -> Option<f64> {
         let c = end(spec, c_out, false);
         let corner = 1.0 / (2.0 * PI * spec.load * c);
         let loss = common::high_pass_loss_db(spec.load, c, spec.band.0);
         common::network_ok(spec, corner, loss).then_some(loss)
     }
 
-    fn nominal_divider(spec: &Spec, parts: &[Option<&Part>]) -> Option<f64> {
+    fn nominal_divider(spec: &Spec, parts: &[Option<SlotValue>]) -> Option<f64> {
         let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
         Some(spec.supply * lo.value / (hi.value + lo.value))
+    }
+
+    fn which(spec: &Spec, g: usize) -> Which {
+        match NonInverting.groups(spec)[g][0] {
+            R_G | R_FB => Which::Gain,
+            R_BIAS_HI | R_BIAS_LO => Which::Divider,
+            C_IN => Which::CapIn,
+            C_G => Which::CapG,
+            _ => Which::CapOut,
+        }
+    }
+
+    /// The least the worst-case highest gain can be in a build that passes: the floor of the
+    /// gain window (0 without a tolerance), for the swing an input peak needs before the gain
+    /// pair is chosen.
+    fn gain_floor(spec: &Spec) -> f64 {
+        spec.gain_tolerance
+            .map_or(0.0, |t| spec.gain.abs() * (1.0 - t) * (1.0 - SLACK))
+    }
+
+    /// The input network's worst loss once the divider and c_in are chosen (`None` when it
+    /// already fails, or while a part is missing).
+    fn in_loss(spec: &Spec, parts: &[Option<SlotValue>]) -> Option<f64> {
+        let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+        Self::input_network_loss(spec, hi, lo, get(parts, C_IN)?)
+    }
+
+    /// The gain leg's worst loss once r_fb, r_g and c_g are chosen.
+    fn g_loss(spec: &Spec, parts: &[Option<SlotValue>]) -> Option<f64> {
+        let (r_fb, r_g) = (get(parts, R_FB)?, get(parts, R_G)?);
+        Self::gain_network_loss(spec, r_fb, r_g, get(parts, C_G)?)
+    }
+
+    /// The least c_g (at the low end of its tolerance) that the gain leg needs with `spent` dB
+    /// of the loss budget taken by the input network. The leg is not a plain high-pass (its
+    /// zero eases the loss). With x = 1/(ωC), |G|² = ((R_g+R_fb)² + x²)/(R_g² + x²); loss ≤ L
+    /// (q = 10^(L/10)) solves to x² ≤ A·B·(q−1)/(A − q·B) with A = (R_g+R_fb)², B = R_g², at
+    /// nominal R_fb, R_g (one vertex of the worst case, so a relaxation).
+    fn gain_leg_need(spec: &Spec, r_fb: &SlotValue, r_g: &SlotValue, spent: f64) -> Option<f64> {
+        let by_corner = needed_capacitance(spec, end(spec, r_g, false), false);
+        let by_loss = spec.band_loss_max.map(|max| {
+            let left = max * (1.0 + SLACK) + SLACK - spent;
+            if left <= 0.0 {
+                return f64::INFINITY;
+            }
+            let q = 10f64.powf(left / 10.0);
+            let (a, b) = ((r_g.value + r_fb.value).powi(2), r_g.value.powi(2));
+            if a <= q * b {
+                return 0.0;
+            }
+            let x_max = (a * b * (q - 1.0) / (a - q * b)).sqrt();
+            1.0 / (2.0 * PI * spec.band.0 * x_max)
+        });
+        match (by_corner, by_loss) {
+            (Some(a), Some(b)) => Some(a.max(b)),
+            (a, b) => a.or(b),
+        }
     }
 }
 
@@ -287,41 +385,11 @@ impl Stage for NonInverting {
         ]
     }
 
-    fn groups(&self) -> &'static [Group] {
-        GROUPS
-    }
-
-    fn min_capacitance(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
-        match g {
-            2 => {
-                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
-                let r =
-                    spec.source_resistance + Self::rp(end(spec, hi, false), end(spec, lo, false));
-                super::needed_capacitance(spec, r, true)
-            }
-            3 => {
-                let (r_fb, r_g) = (get(parts, R_FB)?, get(parts, R_G)?);
-                let by_corner = super::needed_capacitance(spec, end(spec, r_g, false), false);
-                // The gain leg is not a plain high-pass (its zero eases the loss). With
-                // x = 1/(ωC), |G|² = ((R_g+R_fb)² + x²)/(R_g² + x²); loss ≤ L (q = 10^(L/10))
-                // solves to x² ≤ A·B·(q−1)/(A − q·B) with A = (R_g+R_fb)², B = R_g², at
-                // nominal R_fb, R_g (one vertex of the worst case, so a relaxation).
-                let by_loss = spec.band_loss_max.map(|max| {
-                    let q = 10f64.powf(max / 10.0);
-                    let (a, b) = ((r_g.value + r_fb.value).powi(2), r_g.value.powi(2));
-                    if a <= q * b {
-                        return 0.0;
-                    }
-                    let x_max = (a * b * (q - 1.0) / (a - q * b)).sqrt();
-                    1.0 / (2.0 * PI * spec.band.0 * x_max)
-                });
-                match (by_corner, by_loss) {
-                    (Some(a), Some(b)) => Some(a.max(b)),
-                    (a, b) => a.or(b),
-                }
-            }
-            4 => super::needed_capacitance(spec, spec.load, true),
-            _ => None,
+    fn groups(&self, spec: &Spec) -> &'static [Group] {
+        if spec.source_resistance > 0.0 {
+            GROUPS_DIVIDER_FIRST
+        } else {
+            GROUPS
         }
     }
 
@@ -353,38 +421,125 @@ impl Stage for NonInverting {
         }
     }
 
-    fn pair_plan<'s>(&self, spec: &'s Spec, g: usize) -> Option<PairPlan<'s>> {
-        match g {
-            // With a source resistance the divider attenuates the gain, which group 0 cannot
-            // see: enumerate the full product there.
-            0 if spec.source_resistance == 0.0 => {
-                Some(plans::gain(spec, R_G, R_FB, 0.0, 1.0, |_| true))
-            }
-            1 => Some(plans::divider(
-                spec,
-                R_BIAS_HI,
-                R_BIAS_LO,
-                spec.input_resistance_min,
-            )),
+    fn walk<'s>(
+        &self,
+        spec: &'s Spec,
+        g: usize,
+        k: usize,
+        parts: &[Option<SlotValue>],
+    ) -> WalkPlan<'s> {
+        let rs = spec.source_resistance;
+        let divider = match (get(parts, R_BIAS_HI), get(parts, R_BIAS_LO)) {
+            (Some(hi), Some(lo)) => Some((*hi, *lo)),
             _ => None,
+        };
+        match Self::which(spec, g) {
+            Which::Gain => {
+                // With a source resistance the divider is chosen first and attenuates the gain;
+                // the compensation terms of the offset then belong to this group.
+                let (att, comp) = match divider {
+                    Some((hi, lo)) if rs > 0.0 => {
+                        let rp = Self::rp(hi.value, lo.value);
+                        (rp / (rs + rp), Some(Compensation { rp }))
+                    }
+                    _ => (1.0, None),
+                };
+                let form = GainForm {
+                    att,
+                    plus: 1.0,
+                    offset: 0.0,
+                };
+                if k == 0 {
+                    match get(parts, R_FB) {
+                        Some(fb) => plans::gain_other_given_fb(spec, form, fb.value, 0.0, comp),
+                        None => plans::gain_other_first(spec, form, 0.0, comp),
+                    }
+                } else {
+                    match get(parts, R_G) {
+                        Some(r_g) => plans::gain_fb(spec, form, r_g.value, comp),
+                        None => WalkPlan::free(),
+                    }
+                }
+            }
+            Which::Divider => {
+                let amp = match (get(parts, R_FB), get(parts, R_G)) {
+                    (Some(f), Some(g)) if rs == 0.0 => Some((f.value, g.value)),
+                    _ => None,
+                };
+                let ctx = DividerContext {
+                    r_fb: amp.map(|a| a.0),
+                    rp_min: spec.input_resistance_min,
+                    gain: match amp {
+                        Some((f, g)) => 1.0 + f / g,
+                        None => Self::gain_floor(spec),
+                    },
+                };
+                let (me, other) = if k == 0 {
+                    (R_BIAS_HI, R_BIAS_LO)
+                } else {
+                    (R_BIAS_LO, R_BIAS_HI)
+                };
+                match get(parts, other) {
+                    Some(o) => plans::divider_member(spec, o.value, me == R_BIAS_HI, ctx),
+                    None if me == R_BIAS_HI => plans::divider_first(spec, ctx),
+                    None => WalkPlan::free(),
+                }
+            }
+            Which::CapIn => {
+                let need = divider.and_then(|(hi, lo)| {
+                    let r = rs + Self::rp(end(spec, &hi, false), end(spec, &lo, false));
+                    needed_capacitance_after(spec, r, 0.0)
+                });
+                WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
+            }
+            Which::CapG => {
+                let spent = Self::in_loss(spec, parts).unwrap_or(0.0);
+                let need = match (get(parts, R_FB), get(parts, R_G)) {
+                    (Some(f), Some(g)) => Self::gain_leg_need(spec, f, g, spent),
+                    _ => None,
+                };
+                WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
+            }
+            Which::CapOut => {
+                let spent = Self::in_loss(spec, parts).unwrap_or(0.0)
+                    + Self::g_loss(spec, parts).unwrap_or(0.0);
+                let need = needed_capacitance_after(spec, spec.load, spent);
+                WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
+            }
         }
     }
 
-    fn group_base(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
-        match g {
-            0 => {
+    fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<SlotValue>]) -> Option<f64> {
+        let rs = spec.source_resistance;
+        match Self::which(spec, g) {
+            Which::Gain => {
                 let (r_fb, r_g) = (get(parts, R_FB)?, get(parts, R_G)?);
-                if spec.source_resistance > 0.0 {
-                    // The divider attenuates the gain: judged once it is chosen (group 1).
-                    return Some(0.0);
+                if rs == 0.0 {
+                    // Decided first: the amplifier's gain alone is the stage's gain.
+                    let (lo, hi) = Self::gain_range(spec, r_fb, r_g, None);
+                    if !common::gain_window_ok(spec, lo, hi) {
+                        return None;
+                    }
+                    return Some(common::gain_points(spec, 1.0 + r_fb.value / r_g.value));
                 }
-                let (lo, hi) = Self::gain_range(spec, r_fb, r_g, None);
-                if !common::gain_window_ok(spec, lo, hi) {
+                // Decided after the divider: the whole gain, the swing at the highest gain,
+                // and the offset terms that need R_fb.
+                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+                let (g_lo, g_hi) = Self::gain_range(spec, r_fb, r_g, Some((hi, lo)));
+                if !common::gain_window_ok(spec, g_lo, g_hi) {
                     return None;
                 }
-                Some(common::gain_points(spec, 1.0 + r_fb.value / r_g.value))
+                let (vmin, vmax) = common::divider_range(spec, hi, lo);
+                if !common::swing_ok(spec, common::swing(spec, vmin, vmax), g_hi) {
+                    return None;
+                }
+                let rp = Self::rp(hi.value, lo.value);
+                let gain = (1.0 + r_fb.value / r_g.value) * rp / (rs + rp);
+                let comp = spec.amplifier.input_bias_current * (r_fb.value - rp).abs()
+                    + spec.amplifier.input_offset_current / 2.0 * r_fb.value;
+                Some(common::gain_points(spec, gain) + common::offset_points(spec, comp))
             }
-            1 => {
+            Which::Divider => {
                 let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
                 if !common::divider_current_ok(spec, hi, lo) {
                     return None;
@@ -396,66 +551,39 @@ impl Stage for NonInverting {
                     }
                 }
                 let (vmin, vmax) = common::divider_range(spec, hi, lo);
-                if spec.output_peak.is_some()
-                    && !common::swing_ok(spec, common::swing(spec, vmin, vmax), 1.0)
-                {
-                    return None;
+                let swing = common::swing(spec, vmin, vmax);
+                if rs > 0.0 {
+                    // Decided first: the gain is not known yet, only its window's floor.
+                    if !common::swing_ok(spec, swing, Self::gain_floor(spec)) {
+                        return None;
+                    }
+                    let err = common::divider_error(spec, hi.value, lo.value);
+                    return Some(common::offset_points(spec, err));
                 }
-                Some(common::offset_points(
-                    spec,
-                    common::divider_error(spec, hi.value, lo.value),
-                ))
-            }
-            _ => Some(0.0),
-        }
-    }
-
-    fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<&Part>]) -> Option<f64> {
-        match g {
-            0 => self.group_base(spec, 0, parts),
-            1 => {
-                let base = self.group_base(spec, 1, parts)?;
                 let (r_fb, r_g) = (get(parts, R_FB)?, get(parts, R_G)?);
-                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
-                let (g_lo, g_hi) = Self::gain_range(spec, r_fb, r_g, Some((hi, lo)));
-                let (vmin, vmax) = common::divider_range(spec, hi, lo);
-                if !common::swing_ok(spec, common::swing(spec, vmin, vmax), g_hi) {
+                let (_, g_hi) = Self::gain_range(spec, r_fb, r_g, Some((hi, lo)));
+                if !common::swing_ok(spec, swing, g_hi) {
                     return None;
                 }
                 let err = common::offset_error(spec, hi.value, lo.value, r_fb.value);
-                let mut points = common::offset_points(spec, err);
-                if spec.source_resistance > 0.0 {
-                    if !common::gain_window_ok(spec, g_lo, g_hi) {
-                        return None;
-                    }
-                    let v: Vec<f64> = parts.iter().map(|p| p.map_or(1.0, |p| p.value)).collect();
-                    points += common::gain_points(spec, self.mid_gain(spec, &v));
-                }
-                debug_assert!(points + 1e-12 >= base);
-                Some(points)
+                Some(common::offset_points(spec, err))
             }
-            2 => {
-                let (hi, lo, c_in) = (
-                    get(parts, R_BIAS_HI)?,
-                    get(parts, R_BIAS_LO)?,
-                    get(parts, C_IN)?,
-                );
-                Self::input_network_loss(spec, hi, lo, c_in)?;
+            Which::CapIn => {
+                let c_in = get(parts, C_IN)?;
+                Self::in_loss(spec, parts)?;
                 let v_div = Self::nominal_divider(spec, parts)?;
                 common::cap_ok(c_in, v_div - spec.source_dc).then_some(0.0)
             }
-            3 => {
-                let (r_fb, r_g, c_g) = (get(parts, R_FB)?, get(parts, R_G)?, get(parts, C_G)?);
-                Self::gain_network_loss(spec, r_fb, r_g, c_g)?;
+            Which::CapG => {
+                let c_g = get(parts, C_G)?;
+                Self::g_loss(spec, parts)?;
                 let v_div = Self::nominal_divider(spec, parts)?;
                 common::cap_ok(c_g, v_div).then_some(0.0)
             }
-            4 => {
-                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
-                let (r_fb, r_g) = (get(parts, R_FB)?, get(parts, R_G)?);
-                let (c_in, c_g, c_out) = (get(parts, C_IN)?, get(parts, C_G)?, get(parts, C_OUT)?);
-                let total = Self::input_network_loss(spec, hi, lo, c_in)?
-                    + Self::gain_network_loss(spec, r_fb, r_g, c_g)?
+            Which::CapOut => {
+                let c_out = get(parts, C_OUT)?;
+                let total = Self::in_loss(spec, parts)?
+                    + Self::g_loss(spec, parts)?
                     + Self::output_network_loss(spec, c_out)?;
                 if let Some(max) = spec.band_loss_max {
                     // Buffered networks: losses in dB add.
@@ -466,7 +594,6 @@ impl Stage for NonInverting {
                 let v_div = Self::nominal_divider(spec, parts)?;
                 common::cap_ok(c_out, v_div).then_some(0.0)
             }
-            _ => Some(0.0),
         }
     }
 

@@ -1,0 +1,463 @@
+//! The candidates of one kind of part, laid out for the search: the stock's pieces, every
+//! realisation the `combine` setting allows (single pieces, series and parallel pairs), and
+//! the sorted runs the walks read.
+//!
+//! A realisation is a small `Copy` record ([`Real`]) holding what the search and the stage's
+//! equations need — value, tolerance extremes, voltage rating, slot points, the pieces by
+//! index — so that ~300 000 realisations (two-piece E96 over 10 Ω–10 MΩ) fit in a few tens of
+//! megabytes and a [`Part`] is built only for the builds the exact analysis judges. The set
+//! of realisations and their figures are exactly those of [`Stock::candidates`], which the
+//! brute force uses, computed by the same functions (`build::combine`, `Part::pair`'s rule
+//! for the extremes, `analysis::pieces_points`).
+
+use crate::analysis;
+use crate::build::{self, Arrangement, LineKey, Part, Piece, SlotValue};
+use crate::spec::{Combine, Spec};
+use crate::stage::Coord;
+use crate::stock::inventory::PartKind;
+use crate::stock::Stock;
+use std::cell::OnceCell;
+use std::collections::HashMap;
+
+/// No second piece.
+pub const NONE: u32 = u32::MAX;
+
+/// One realisation of a slot: one piece, or two in series or in parallel.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Real {
+    pub value: f64,
+    pub min: f64,
+    pub max: f64,
+    /// Capacitor voltage rating (`Part::voltage_rating`), `None` for resistors or unknown.
+    pub rating: Option<f64>,
+    /// `analysis::slot_points` of the realisation.
+    pub pts: f64,
+    /// Pieces by index into [`Table::pieces`]; `a ≤ b` (value order), `b == NONE` for one.
+    pub a: u32,
+    pub b: u32,
+    pub arr: Arrangement,
+}
+
+impl Real {
+    pub fn slot_value(&self) -> SlotValue {
+        SlotValue {
+            value: self.value,
+            min: self.min,
+            max: self.max,
+            rating: self.rating,
+        }
+    }
+
+    pub fn coord(&self, coord: Coord) -> f64 {
+        match coord {
+            Coord::Value => self.value,
+            Coord::Low => self.min,
+        }
+    }
+
+    /// The pieces, one or two.
+    pub fn pieces(&self) -> impl Iterator<Item = u32> {
+        let b = (self.b != NONE).then_some(self.b);
+        std::iter::once(self.a).chain(b)
+    }
+
+    /// Distinct stock lines among the pieces.
+    pub fn own_lines(&self) -> usize {
+        if self.b == NONE || self.b == self.a {
+            1
+        } else {
+            2
+        }
+    }
+}
+
+/// A run source: candidates sorted by a coordinate, with the least key at or beyond each
+/// position in each direction, so that a walk from any start reads a lower bound that only
+/// grows.
+#[derive(Debug, Default)]
+pub struct Sorted {
+    /// Realisation (or piece) indices, ascending by `coord`.
+    pub ids: Vec<u32>,
+    pub coord: Vec<f64>,
+    /// `up[i]` = least key of positions ≥ i; `down[i]` = least key of positions ≤ i.
+    pub up: Vec<f64>,
+    pub down: Vec<f64>,
+}
+
+impl Sorted {
+    fn new(mut rows: Vec<(f64, u32, f64)>) -> Sorted {
+        rows.sort_unstable_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+        let n = rows.len();
+        let mut up = vec![0.0; n];
+        let mut down = vec![0.0; n];
+        let mut m = f64::INFINITY;
+        for i in (0..n).rev() {
+            m = m.min(rows[i].2);
+            up[i] = m;
+        }
+        m = f64::INFINITY;
+        for i in 0..n {
+            m = m.min(rows[i].2);
+            down[i] = m;
+        }
+        Sorted {
+            ids: rows.iter().map(|r| r.1).collect(),
+            coord: rows.iter().map(|r| r.0).collect(),
+            up,
+            down,
+        }
+    }
+
+    pub fn len(&self) -> usize {
+        self.ids.len()
+    }
+
+    pub fn is_empty(&self) -> bool {
+        self.ids.is_empty()
+    }
+
+    /// First position whose coordinate is ≥ `target`.
+    pub fn start(&self, target: f64) -> usize {
+        self.coord.partition_point(|&c| c < target)
+    }
+}
+
+/// Split rows into buckets of nearly equal key, so that each bucket's walk reads a bound close
+/// to the true key: at most `MAX_BUCKETS` buckets, each at most `width` wide, the width
+/// doubling from 0.01 points until they fit.
+fn bucketed(rows: Vec<(f64, u32, f64)>) -> Vec<Sorted> {
+    const MAX_BUCKETS: usize = 24;
+    if rows.is_empty() {
+        return Vec::new();
+    }
+    let mut keys: Vec<f64> = rows.iter().map(|r| r.2).collect();
+    keys.sort_unstable_by(f64::total_cmp);
+    keys.dedup();
+    let mut width = 0.01;
+    let starts = loop {
+        let mut starts = vec![keys[0]];
+        for &k in &keys {
+            if k > starts[starts.len() - 1] + width {
+                starts.push(k);
+            }
+        }
+        if starts.len() <= MAX_BUCKETS {
+            break starts;
+        }
+        width *= 2.0;
+    };
+    let mut parts: Vec<Vec<(f64, u32, f64)>> = vec![Vec::new(); starts.len()];
+    for r in rows {
+        let b = starts.partition_point(|&s| s <= r.2) - 1;
+        parts[b].push(r);
+    }
+    parts.into_iter().map(Sorted::new).collect()
+}
+
+/// One stock piece with what the search reads of it.
+#[derive(Debug, Clone)]
+pub struct PieceRow {
+    pub piece: Piece,
+    /// Slot points of this piece alone, without its cost when some piece of the kind has no
+    /// known cost (a pair with such a piece counts no cost, so this stays a lower bound).
+    pub pts_lb: f64,
+    pub line: LineKey,
+    /// Pieces on hand; `None` unlimited.
+    pub qty: Option<u32>,
+}
+
+/// The candidates of one kind.
+pub struct Table {
+    pub kind: PartKind,
+    pub pieces: Vec<PieceRow>,
+    pub reals: Vec<Real>,
+    /// Piece index by line, to find the pieces of lines a build already uses.
+    pub by_line: HashMap<LineKey, u32>,
+    /// Arrangements pairs may take.
+    pub arrangements: &'static [Arrangement],
+    /// The slot range, with the tolerance `Stock::candidates` applies.
+    range: (f64, f64),
+    /// Least slot points of any realisation.
+    pub min_pts: f64,
+    /// Line cost per line (`goals.bom_lines`).
+    lambda: f64,
+    /// Fresh runs: realisations bucketed by slot points plus their own lines, per coordinate.
+    fresh: [OnceCell<Vec<Sorted>>; 2],
+    /// Partner runs: pieces bucketed by `pts_lb`, per coordinate.
+    partners: [OnceCell<Vec<Sorted>>; 2],
+    /// All realisations sorted by coordinate with suffix/prefix minima of slot points, for
+    /// look-ahead bounds.
+    merged: [OnceCell<Sorted>; 2],
+}
+
+fn coord_index(c: Coord) -> usize {
+    match c {
+        Coord::Value => 0,
+        Coord::Low => 1,
+    }
+}
+
+impl Table {
+    /// The table of `kind` from `stock`: exactly the realisations of
+    /// `Stock::candidates(kind)`.
+    pub fn new(spec: &Spec, stock: &Stock, kind: PartKind) -> Table {
+        let pieces: Vec<Piece> = stock.pieces(kind);
+        let all_costed = pieces.iter().all(|p| p.unit_cost.is_some());
+        let rows: Vec<PieceRow> = pieces
+            .into_iter()
+            .map(|piece| {
+                let line = LineKey::of(kind, &piece);
+                let mut lb = piece.clone();
+                if !all_costed {
+                    lb.unit_cost = None;
+                }
+                PieceRow {
+                    pts_lb: analysis::pieces_points(spec, kind, &lb, None, false),
+                    qty: stock.quantity(line),
+                    line,
+                    piece,
+                }
+            })
+            .collect();
+        let arrangements: &'static [Arrangement] = match stock.combine {
+            Combine::Single => &[],
+            Combine::Series => &[Arrangement::Series],
+            Combine::Parallel => &[Arrangement::Parallel],
+            Combine::Both => &[Arrangement::Series, Arrangement::Parallel],
+        };
+        let mut table = Table {
+            kind,
+            by_line: rows
+                .iter()
+                .enumerate()
+                .map(|(i, r)| (r.line, i as u32))
+                .collect(),
+            pieces: rows,
+            reals: Vec::new(),
+            arrangements,
+            range: stock.range(kind),
+            min_pts: f64::INFINITY,
+            lambda: spec.goals.bom_lines,
+            fresh: Default::default(),
+            partners: Default::default(),
+            merged: Default::default(),
+        };
+        let n = table.pieces.len();
+        let mut reals = Vec::new();
+        for i in 0..n {
+            reals.push(table.single(spec, i as u32));
+        }
+        for &arr in arrangements {
+            for i in 0..n {
+                for j in i..n {
+                    if let Some(r) = table.pair(spec, arr, i as u32, j as u32) {
+                        reals.push(r);
+                    }
+                }
+            }
+        }
+        table.min_pts = reals.iter().map(|r| r.pts).fold(f64::INFINITY, f64::min);
+        table.reals = reals;
+        table
+    }
+
+    fn single(&self, spec: &Spec, i: u32) -> Real {
+        let p = &self.pieces[i as usize].piece;
+        Real {
+            value: p.value,
+            min: p.min(),
+            max: p.max(),
+            rating: (self.kind == PartKind::Capacitor)
+                .then_some(p.voltage)
+                .flatten(),
+            pts: analysis::pieces_points(spec, self.kind, p, None, false),
+            a: i,
+            b: NONE,
+            arr: Arrangement::Single,
+        }
+    }
+
+    /// The pair of pieces `i ≤ j` (value order) in `arr`, when `Stock::candidates` has it:
+    /// its value inside the range, and two pieces on hand when both come from one line.
+    pub fn pair(&self, spec: &Spec, arr: Arrangement, i: u32, j: u32) -> Option<Real> {
+        let (i, j) = (i.min(j), i.max(j));
+        let (pa, pb) = (&self.pieces[i as usize], &self.pieces[j as usize]);
+        if i == j && pa.qty.is_some_and(|q| q < 2) {
+            return None;
+        }
+        let (a, b) = (&pa.piece, &pb.piece);
+        let value = build::combine(self.kind, arr, a.value, b.value);
+        let (lo, hi) = self.range;
+        if !(value >= lo * (1.0 - 1e-9) && value <= hi * (1.0 + 1e-9)) {
+            return None;
+        }
+        Some(Real {
+            value,
+            min: build::combine(self.kind, arr, a.min(), b.min()),
+            max: build::combine(self.kind, arr, a.max(), b.max()),
+            rating: if self.kind == PartKind::Capacitor {
+                build::voltage_rating(self.kind, arr, a, Some(b))
+            } else {
+                None
+            },
+            pts: analysis::pieces_points(spec, self.kind, a, Some(b), false),
+            a: i,
+            b: j,
+            arr,
+        })
+    }
+
+    /// The single-piece realisation of piece `i`.
+    pub fn single_of(&self, spec: &Spec, i: u32) -> Real {
+        self.single(spec, i)
+    }
+
+    /// The [`Part`] of a realisation, as `Stock::candidates` builds it.
+    pub fn part(&self, r: &Real) -> Part {
+        let a = self.pieces[r.a as usize].piece.clone();
+        if r.b == NONE {
+            Part::single(self.kind, a)
+        } else {
+            Part::pair(self.kind, r.arr, a, self.pieces[r.b as usize].piece.clone())
+        }
+    }
+
+    pub fn line_cost(&self) -> f64 {
+        self.lambda
+    }
+
+    /// The coordinate of a piece.
+    pub fn piece_coord(&self, i: u32, coord: Coord) -> f64 {
+        let p = &self.pieces[i as usize].piece;
+        match coord {
+            Coord::Value => p.value,
+            Coord::Low => p.min(),
+        }
+    }
+
+    /// Fresh runs: every realisation, keyed by its slot points plus a line per distinct
+    /// piece (what it costs when none of its lines is in the build yet).
+    pub fn fresh(&self, coord: Coord) -> &[Sorted] {
+        self.fresh[coord_index(coord)].get_or_init(|| {
+            let rows = self
+                .reals
+                .iter()
+                .enumerate()
+                .map(|(i, r)| {
+                    (
+                        r.coord(coord),
+                        i as u32,
+                        r.pts + self.lambda * r.own_lines() as f64,
+                    )
+                })
+                .collect();
+            bucketed(rows)
+        })
+    }
+
+    /// Partner runs: pieces keyed by `pts_lb`.
+    pub fn partners(&self, coord: Coord) -> &[Sorted] {
+        self.partners[coord_index(coord)].get_or_init(|| {
+            let rows = self
+                .pieces
+                .iter()
+                .enumerate()
+                .map(|(i, p)| (self.piece_coord(i as u32, coord), i as u32, p.pts_lb))
+                .collect();
+            bucketed(rows)
+        })
+    }
+
+    /// Every realisation by coordinate, keyed by slot points (no lines).
+    pub fn merged(&self, coord: Coord) -> &Sorted {
+        self.merged[coord_index(coord)].get_or_init(|| {
+            Sorted::new(
+                self.reals
+                    .iter()
+                    .enumerate()
+                    .map(|(i, r)| (r.coord(coord), i as u32, r.pts))
+                    .collect(),
+            )
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::series::Series;
+    use crate::stock::Source;
+
+    fn spec(combine: &str) -> Spec {
+        Spec::from_toml(&format!(
+            "[stage]\nkind = \"inverting\"\nsupply = 9\ngain = -10\nload = 10000\nband = [20, 20000]\n[stock]\nresistor_range = [\"1k\", \"100k\"]\ncombine = \"{combine}\"\n"
+        ))
+        .unwrap()
+    }
+
+    fn stock(spec: &Spec) -> Stock {
+        Stock::new(
+            Source::Series {
+                series: Series::E12,
+                tolerance: 0.01,
+            },
+            Source::Series {
+                series: Series::E6,
+                tolerance: 0.2,
+            },
+            &spec.stock,
+        )
+    }
+
+    #[test]
+    fn same_realisations_as_the_stock() {
+        // The table must hold exactly what the brute force enumerates (Stock::candidates),
+        // with the same figures to the bit.
+        for combine in ["single", "series", "parallel", "both"] {
+            let spec = spec(combine);
+            let stock = stock(&spec);
+            for kind in [PartKind::Resistor, PartKind::Capacitor] {
+                let table = Table::new(&spec, &stock, kind);
+                let mut ours: Vec<Part> = table.reals.iter().map(|r| table.part(r)).collect();
+                let mut theirs = stock.candidates(kind);
+                let key = |p: &Part| {
+                    (
+                        p.value.to_bits(),
+                        p.arrangement as u8,
+                        p.pieces[0].value.to_bits(),
+                    )
+                };
+                ours.sort_by_key(key);
+                theirs.sort_by_key(key);
+                assert_eq!(ours, theirs, "{combine} {kind:?}");
+                for r in &table.reals {
+                    let part = table.part(r);
+                    assert_eq!(r.pts, analysis::slot_points(&spec, &part));
+                    assert_eq!(r.slot_value(), part.slot_value());
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn runs_bound_their_keys() {
+        let spec = spec("both");
+        let stock = stock(&spec);
+        let table = Table::new(&spec, &stock, PartKind::Capacitor);
+        for coord in [Coord::Value, Coord::Low] {
+            let fresh = table.fresh(coord);
+            let total: usize = fresh.iter().map(Sorted::len).sum();
+            assert_eq!(total, table.reals.len());
+            for s in fresh {
+                assert!(s.coord.windows(2).all(|w| w[0] <= w[1]));
+                for i in 0..s.len() {
+                    let r = &table.reals[s.ids[i] as usize];
+                    let key = r.pts + spec.goals.bom_lines * r.own_lines() as f64;
+                    assert!(s.up[i] <= key && s.down[i] <= key);
+                    assert!(i == 0 || s.down[i] <= s.down[i - 1]);
+                    assert!(i == 0 || s.up[i] >= s.up[i - 1]);
+                }
+            }
+        }
+    }
+}

@@ -1,0 +1,341 @@
+//! The lazy walk over one slot's candidates: outward from the stage's target value in both
+//! directions, in nondecreasing order of a lower bound of what each candidate adds to the
+//! score (its slot points, the stock lines it adds to the build, and the stage's bound).
+//!
+//! The candidates come from three kinds of run, merged by a heap that holds one entry per
+//! run, never one per candidate, so that starting a walk costs a bisection per run whatever
+//! the stock's size (O(R log N)), and each candidate read costs O(log R):
+//!
+//! - *fresh*: the kind's realisations in buckets of nearly equal slot points plus their own
+//!   lines; a candidate that uses a line already in the build is skipped here and read from
+//!   the next two;
+//! - *partner*: for each line already in the build, the pairs made of that line's piece and
+//!   one new piece, walked over the partner pieces (a pair's value is monotone in each piece);
+//! - *explicit*: the few realisations made of lines already in the build only (a single
+//!   piece, or a pair of two such pieces), each with its exact key.
+//!
+//! Along a run the key is (least slot points at or beyond the position) + (lines it adds) +
+//! bound(coordinate), which only grows because each part only grows (`table::Sorted`, the
+//! stage's `WalkPlan` contract); so the first key at or over the cut-off ends the whole walk.
+
+use super::table::{Real, Table, NONE};
+use crate::build::Arrangement;
+use crate::spec::Spec;
+use crate::stage::{Coord, WalkPlan};
+use std::cmp::Ordering;
+use std::collections::BinaryHeap;
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Run {
+    Fresh { bucket: u16 },
+    Partner { used: u8, arr: u8, bucket: u16 },
+    Explicit { item: u16 },
+}
+
+#[derive(Debug, Clone, Copy)]
+struct Head {
+    key: f64,
+    run: Run,
+    pos: u32,
+    up: bool,
+}
+
+impl PartialEq for Head {
+    fn eq(&self, other: &Self) -> bool {
+        self.cmp(other) == Ordering::Equal
+    }
+}
+impl Eq for Head {}
+impl PartialOrd for Head {
+    fn partial_cmp(&self, other: &Self) -> Option<Ordering> {
+        Some(self.cmp(other))
+    }
+}
+impl Ord for Head {
+    /// Reversed, so that `BinaryHeap` pops the least key; ties broken deterministically.
+    fn cmp(&self, other: &Self) -> Ordering {
+        other
+            .key
+            .total_cmp(&self.key)
+            .then_with(|| run_order(&other.run).cmp(&run_order(&self.run)))
+            .then(other.pos.cmp(&self.pos))
+            .then(other.up.cmp(&self.up))
+    }
+}
+
+fn run_order(r: &Run) -> (u8, u32) {
+    match *r {
+        Run::Explicit { item } => (0, item as u32),
+        Run::Partner { used, arr, bucket } => {
+            (1, (used as u32) << 20 | (arr as u32) << 16 | bucket as u32)
+        }
+        Run::Fresh { bucket } => (2, bucket as u32),
+    }
+}
+
+/// One candidate read from a walk.
+#[derive(Debug, Clone, Copy)]
+pub struct Item {
+    /// Lower bound of slot points + new lines + stage bound, nondecreasing along the walk.
+    pub key: f64,
+    pub real: Real,
+    /// Which side of the target it was met on (for reading the stage bound of this one item).
+    pub up: bool,
+}
+
+/// A run not started yet, with the least key it can have (its least slot points and lines;
+/// the stage bound is at least 0).
+#[derive(Debug, Clone, Copy)]
+enum Pending {
+    Fresh { bucket: u16 },
+    Partner { used: u8, arr: u8, bucket: u16 },
+    Explicit,
+}
+
+/// A lazy walk over one slot's candidates.
+pub struct Walk<'t, 's> {
+    spec: &'s Spec,
+    table: &'t Table,
+    coord: Coord,
+    plan: WalkPlan<'s>,
+    /// Pieces of this kind whose lines the build already uses, in a fixed order.
+    used: Vec<u32>,
+    explicit: Vec<(f64, Real, bool)>,
+    heap: BinaryHeap<Head>,
+    /// Runs still to start, largest least key first (the next to start is last). A run is
+    /// started (its start found by bisection) only once the walk reaches its least key, so a
+    /// walk that is cut after a few candidates costs a few bisections, not one per run.
+    pending: Vec<(f64, Pending)>,
+}
+
+impl<'t, 's> Walk<'t, 's> {
+    /// A walk of `table`'s candidates by `plan`, with `used` the pieces whose lines the
+    /// build already has.
+    pub fn new(spec: &'s Spec, table: &'t Table, plan: WalkPlan<'s>, used: &[u32]) -> Self {
+        let coord = plan.coord;
+        let lambda = table.line_cost();
+        let mut pending = Vec::new();
+        for (b, run) in table.fresh(coord).iter().enumerate() {
+            if !run.is_empty() {
+                pending.push((run.up[0], Pending::Fresh { bucket: b as u16 }));
+            }
+        }
+        for (u, &piece) in used.iter().enumerate() {
+            let pu = table.pieces[piece as usize].pts_lb;
+            for ai in 0..table.arrangements.len() {
+                for (b, run) in table.partners(coord).iter().enumerate() {
+                    if !run.is_empty() {
+                        pending.push((
+                            pu + run.up[0] + lambda,
+                            Pending::Partner {
+                                used: u as u8,
+                                arr: ai as u8,
+                                bucket: b as u16,
+                            },
+                        ));
+                    }
+                }
+            }
+        }
+        if let Some(least) = used
+            .iter()
+            .map(|&p| table.pieces[p as usize].pts_lb)
+            .reduce(f64::min)
+        {
+            pending.push((least, Pending::Explicit));
+        }
+        pending.sort_by(|a, b| b.0.total_cmp(&a.0));
+        Walk {
+            spec,
+            table,
+            coord,
+            plan,
+            used: used.to_vec(),
+            explicit: Vec::new(),
+            heap: BinaryHeap::new(),
+            pending,
+        }
+    }
+
+    /// Start a pending run: find where the target falls in it and push its heads.
+    fn start(&mut self, run: Pending) {
+        let target = self.plan.target;
+        let table = self.table;
+        match run {
+            Pending::Fresh { bucket } => {
+                let s = &table.fresh(self.coord)[bucket as usize];
+                let p = s.start(target);
+                let id = Run::Fresh { bucket };
+                self.push_start(id, p, s.len());
+            }
+            Pending::Partner { used, arr, bucket } => {
+                let s = &table.partners(self.coord)[bucket as usize];
+                let cu = table.piece_coord(self.used[used as usize], self.coord);
+                let a = table.arrangements[arr as usize];
+                let kind = table.kind;
+                let p = s
+                    .coord
+                    .partition_point(|&c| crate::build::combine(kind, a, cu, c) < target);
+                let id = Run::Partner { used, arr, bucket };
+                self.push_start(id, p, s.len());
+            }
+            Pending::Explicit => {
+                // Made of used lines only: a single piece, or a pair of two used pieces.
+                let mut reals = Vec::new();
+                for (x, &i) in self.used.iter().enumerate() {
+                    reals.push(table.single_of(self.spec, i));
+                    for &j in &self.used[x..] {
+                        for &arr in table.arrangements {
+                            reals.extend(table.pair(self.spec, arr, i, j));
+                        }
+                    }
+                }
+                for real in reals {
+                    let c = real.coord(self.coord);
+                    let up = c >= target;
+                    if let Some(bound) = (self.plan.bound)(c, up) {
+                        let item = self.explicit.len() as u16;
+                        let key = real.pts + bound;
+                        self.explicit.push((key, real, up));
+                        self.heap.push(Head {
+                            key,
+                            run: Run::Explicit { item },
+                            pos: 0,
+                            up,
+                        });
+                    }
+                }
+            }
+        }
+    }
+
+    fn push_start(&mut self, id: Run, p: usize, len: usize) {
+        if p < len {
+            if let Some(h) = self.head(id, p, true) {
+                self.heap.push(h);
+            }
+        }
+        if p > 0 {
+            if let Some(h) = self.head(id, p - 1, false) {
+                self.heap.push(h);
+            }
+        }
+    }
+
+    /// The head of a run at `pos`, `None` when the stage bound ends the run there.
+    fn head(&self, run: Run, pos: usize, up: bool) -> Option<Head> {
+        let lambda = self.table.line_cost();
+        let (pts, c) = match run {
+            Run::Fresh { bucket } => {
+                let s = &self.table.fresh(self.coord)[bucket as usize];
+                (if up { s.up[pos] } else { s.down[pos] }, s.coord[pos])
+            }
+            Run::Partner { used, arr, bucket } => {
+                let s = &self.table.partners(self.coord)[bucket as usize];
+                let u = self.used[used as usize];
+                let arr = self.table.arrangements[arr as usize];
+                let cu = self.table.piece_coord(u, self.coord);
+                let pu = self.table.pieces[u as usize].pts_lb;
+                let least = if up { s.up[pos] } else { s.down[pos] };
+                (
+                    pu + least + lambda,
+                    crate::build::combine(self.table.kind, arr, cu, s.coord[pos]),
+                )
+            }
+            Run::Explicit { .. } => unreachable!("explicit items are pushed once"),
+        };
+        let bound = (self.plan.bound)(c, up)?;
+        Some(Head {
+            key: pts + bound,
+            run,
+            pos: pos as u32,
+            up,
+        })
+    }
+
+    fn is_used(&self, piece: u32) -> bool {
+        self.used.contains(&piece)
+    }
+
+    /// The next candidate whose key is below `limit`, in nondecreasing key; `None` when the
+    /// next key would reach `limit` (every later one does too) or every run has ended.
+    pub fn next_below(&mut self, limit: f64) -> Option<Item> {
+        let table = self.table;
+        loop {
+            let top = self.heap.peek().map_or(f64::INFINITY, |h| h.key);
+            if let Some(&(least, run)) = self.pending.last() {
+                if least <= top {
+                    if least >= limit {
+                        return None;
+                    }
+                    self.pending.pop();
+                    self.start(run);
+                    continue;
+                }
+            }
+            if top >= limit {
+                return None;
+            }
+            let h = self.heap.pop()?;
+            let real = match h.run {
+                Run::Explicit { item } => {
+                    let (key, real, up) = self.explicit[item as usize];
+                    return Some(Item { key, real, up });
+                }
+                Run::Fresh { bucket } => {
+                    let s = &table.fresh(self.coord)[bucket as usize];
+                    self.advance(h, s.len());
+                    let real = table.reals[s.ids[h.pos as usize] as usize];
+                    if real.pieces().any(|p| self.is_used(p)) {
+                        continue;
+                    }
+                    real
+                }
+                Run::Partner { used, arr, bucket } => {
+                    let s = &table.partners(self.coord)[bucket as usize];
+                    self.advance(h, s.len());
+                    let m = s.ids[h.pos as usize];
+                    if self.is_used(m) {
+                        continue;
+                    }
+                    let u = self.used[used as usize];
+                    let arr: Arrangement = table.arrangements[arr as usize];
+                    match table.pair(self.spec, arr, u, m) {
+                        Some(r) => r,
+                        None => continue,
+                    }
+                }
+            };
+            debug_assert!(real.b == NONE || real.a <= real.b);
+            return Some(Item {
+                key: h.key,
+                real,
+                up: h.up,
+            });
+        }
+    }
+
+    /// Push the run's next position after `h`.
+    fn advance(&mut self, h: Head, len: usize) {
+        let next = if h.up {
+            (h.pos as usize + 1 < len).then_some(h.pos as usize + 1)
+        } else {
+            (h.pos as usize).checked_sub(1)
+        };
+        if let Some(n) = next {
+            if let Some(head) = self.head(h.run, n, h.up) {
+                self.heap.push(head);
+            }
+        }
+    }
+
+    /// The stage's bound for one item (its exact coordinate, its side).
+    pub fn bound_of(&self, item: &Item) -> Option<f64> {
+        (self.plan.bound)(item.real.coord(self.coord), item.up)
+    }
+
+    /// True when every run has ended.
+    pub fn exhausted(&self) -> bool {
+        self.heap.is_empty() && self.pending.is_empty()
+    }
+}
