@@ -18,7 +18,7 @@ pub mod walk;
 
 use crate::analysis::{self, Evaluation};
 use crate::build::{Build, LineKey, Part, SlotValue};
-use crate::spec::Spec;
+use crate::spec::{Combine, Spec};
 use crate::stage::Stage;
 use crate::stock::inventory::PartKind;
 use crate::stock::Stock;
@@ -274,6 +274,8 @@ struct Dfs<'a> {
     cut_hit: bool,
     stats: Stats,
     progress: &'a mut dyn FnMut(Progress),
+    /// The search over the whole stock (not the single-piece seed): it reports progress.
+    whole: bool,
 }
 
 /// Run the exact search. `progress` is called now and then with how far the first walk is.
@@ -301,7 +303,60 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
             return Err(no_candidates(req, i));
         }
     }
-    let tables = [owned[0].as_ref(), owned[1].as_ref()];
+    let mut stats = Stats {
+        candidates: (0..n)
+            .map(|i| match locked[i] {
+                Some(_) => 1,
+                None => owned[kind_index(slots[i].kind)]
+                    .as_ref()
+                    .map_or(0, |t| t.reals.len()),
+            })
+            .collect(),
+        nodes_by_group: vec![0; stage.groups(spec).len()],
+        ..Stats::default()
+    };
+    let mut top = TopN::new(req.top);
+    // With two-piece realisations, first the single pieces alone: a much smaller search whose
+    // builds are builds of the whole stock too, so its N-th best bounds the whole search from
+    // its first node on (the exact top N is unchanged: the seed builds are judged exactly and
+    // compete with every other).
+    if req.stock.combine != Combine::Single {
+        let singles: [Option<Table>; 2] = [
+            owned[0].as_ref().map(Table::singles),
+            owned[1].as_ref().map(Table::singles),
+        ];
+        let seed = [singles[0].as_ref(), singles[1].as_ref()];
+        top = explore(req, &locked, seed, top, &mut stats, &mut |_| {}, false);
+    }
+    if !stats.truncated {
+        let tables = [owned[0].as_ref(), owned[1].as_ref()];
+        top = explore(req, &locked, tables, top, &mut stats, progress, true);
+    }
+    Ok(Outcome {
+        stats,
+        builds: top.into_vec(),
+    })
+}
+
+/// One exact search over `tables`, continuing `top`. Without a full `top` to bound it, in
+/// rounds with a rising cut, so that the first builds found are already good ones and the
+/// N-th best soon bounds the search: a round with cut T sees every build scoring below T,
+/// so once it holds N builds below T (or no node waited for a later round) the result is
+/// the exact top N. The cut starts a little above the root's bound and its distance from it
+/// doubles each round; the last round has none.
+fn explore<'a>(
+    req: &'a Request<'a>,
+    locked: &[Option<&'a Part>],
+    tables: [Option<&'a Table>; 2],
+    top: TopN,
+    stats: &mut Stats,
+    progress: &'a mut dyn FnMut(Progress),
+    whole: bool,
+) -> TopN {
+    let spec = req.spec;
+    let stage = req.stage;
+    let slots = stage.slots();
+    let n = slots.len();
     let groups = stage.groups(spec);
     let mut levels = Vec::new();
     for (g, group) in groups.iter().enumerate() {
@@ -315,15 +370,26 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
             });
         }
     }
+    // Per level, the least points its slot can add whatever is chosen before it: a one-slot
+    // group's plan with only the locked parts known already excludes most of the stock (a
+    // coupling capacitor too small for the load, say).
+    let locked_vals: Vec<Option<SlotValue>> =
+        locked.iter().map(|p| p.map(Part::slot_value)).collect();
     let mut rest_static = vec![0.0; levels.len() + 1];
     let mut rest_kinds = vec![0u8; levels.len() + 1];
     for l in (0..levels.len()).rev() {
-        let slot = levels[l].slot;
-        let (pts, bits) = match locked[slot] {
+        let lv = levels[l];
+        let (pts, bits) = match locked[lv.slot] {
             Some(_) => (0.0, 0),
             None => {
-                let k = kind_index(slots[slot].kind);
-                (tables[k].map_or(0.0, |t| t.min_pts), 1u8 << k)
+                let k = kind_index(slots[lv.slot].kind);
+                let table = tables[k].expect("a table for every unlocked slot's kind");
+                let mut pts = table.min_pts;
+                if lv.alone {
+                    let plan = stage.walk(spec, lv.group, lv.k, &locked_vals);
+                    pts = pts.max(plan_floor(table, &plan));
+                }
+                (pts, 1u8 << k)
             }
         };
         rest_static[l] = rest_static[l + 1] + pts;
@@ -333,47 +399,35 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
         req,
         tables,
         levels,
-        locked: locked.clone(),
-        vals: locked.iter().map(|p| p.map(Part::slot_value)).collect(),
+        locked: locked.to_vec(),
+        vals: locked_vals,
         chosen: vec![None; n],
         lines: Vec::new(),
         kind_lines: [0; 2],
         used: [Vec::new(), Vec::new()],
         rest_static,
         rest_kinds,
-        top: TopN::new(req.top),
+        top,
         cut: f64::INFINITY,
         cut_hit: false,
-        stats: Stats {
-            candidates: (0..n)
-                .map(|i| match locked[i] {
-                    Some(_) => 1,
-                    None => tables[kind_index(slots[i].kind)].map_or(0, |t| t.reals.len()),
-                })
-                .collect(),
-            nodes_by_group: vec![0; groups.len()],
-            ..Stats::default()
-        },
+        stats: std::mem::take(stats),
         progress,
+        whole,
     };
     // Locked parts are on the board: their points and lines count from the start.
     let mut acc = 0.0;
     for part in locked.iter().flatten() {
         acc += analysis::slot_points(spec, part);
         for piece in &part.pieces {
-            if dfs.add_piece(part.kind, LineKey::of(part.kind, piece), false) {
+            if dfs.add_piece(part.kind, LineKey::of(part.kind, piece), false, None) {
                 acc += spec.goals.bom_lines;
             }
         }
     }
-    // Rounds with a rising cut, so that the first builds found are already good ones and
-    // the N-th best soon bounds the search: a round with cut T sees every build scoring
-    // below T, so once it holds N builds below T (or no node waited for a later round) the
-    // result is the exact top N. The cut starts a little above the root's bound and its
-    // distance from it doubles each round; the last round has none.
     let root = acc + dfs.rest_lb(0, None);
-    for round in 0..=ROUNDS {
-        dfs.cut = if round < ROUNDS {
+    let rounds = if dfs.top.full() { 0 } else { ROUNDS };
+    for round in 0..=rounds {
+        dfs.cut = if round < rounds {
             root + FIRST_GAP * 2f64.powi(round as i32)
         } else {
             f64::INFINITY
@@ -385,10 +439,8 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
             break;
         }
     }
-    Ok(Outcome {
-        stats: dfs.stats,
-        builds: dfs.top.into_vec(),
-    })
+    *stats = dfs.stats;
+    dfs.top
 }
 
 impl<'a> Dfs<'a> {
@@ -425,12 +477,15 @@ impl<'a> Dfs<'a> {
         let mut walk = Walk::new(spec, table, plan, &self.used[ki]);
         // What the open slots after this one add at least, given the parts chosen so far (a
         // candidate here only tightens it); the kind of this slot has a line once any
-        // candidate is taken.
-        let rest = self.rest_lb(level + 1, Some(ki));
+        // candidate is taken. First the cheap static bound; the look-ahead of the open
+        // one-slot groups (which asks the stage) only once a candidate passes that.
+        let mut rest = self.rest_static[level + 1] + self.lines_lb(level + 1, Some(ki));
+        let mut tight = false;
         let lambda = spec.goals.bom_lines;
-        let first = self.levels[..level]
-            .iter()
-            .all(|l| self.locked[l.slot].is_some());
+        let first = self.whole
+            && self.levels[..level]
+                .iter()
+                .all(|l| self.locked[l.slot].is_some());
         let mut read = 0usize;
         loop {
             if self.req.max_nodes.is_some_and(|m| self.stats.nodes >= m) {
@@ -443,6 +498,13 @@ impl<'a> Dfs<'a> {
                 }
                 break;
             };
+            if !tight {
+                tight = true;
+                rest = rest.max(self.rest_lb(level + 1, Some(ki)));
+                if !self.admits(acc + item.key + rest) {
+                    break;
+                }
+            }
             read += 1;
             if first && read % 4096 == 0 {
                 (self.progress)(Progress {
@@ -466,12 +528,11 @@ impl<'a> Dfs<'a> {
                 if let Some(share) = share {
                     let own = real.pts + lambda * new_lines as f64;
                     // The share is exact once the group is complete; before, it only bounds.
+                    // `rest` stays a bound of the open slots with this part chosen (more
+                    // parts only tighten it); the next level's walk tightens it again.
                     let score = acc + own + if lv.last { share } else { 0.0 };
                     let lb = score + if lv.last { 0.0 } else { share };
-                    if self
-                        .admits(lb + self.rest_static[level + 1] + self.lines_lb(level + 1, None))
-                        && self.admits(lb + self.rest_lb(level + 1, None))
-                    {
+                    if self.admits(lb + rest) {
                         self.descend(level + 1, score);
                     }
                 }
@@ -538,7 +599,7 @@ impl<'a> Dfs<'a> {
             }
             let ki = kind_index(self.req.stage.slots()[lv.slot].kind);
             let table = self.tables[ki].expect("table");
-            let mut lb = table.min_pts;
+            let mut lb = self.rest_static[l] - self.rest_static[l + 1];
             if lv.alone {
                 let plan = self.req.stage.walk(spec, lv.group, lv.k, &self.vals);
                 lb = lb.max(plan_floor(table, &plan));
@@ -548,15 +609,22 @@ impl<'a> Dfs<'a> {
         total
     }
 
-    /// Add one piece of a line; true when the line is new to the build.
-    fn add_piece(&mut self, kind: PartKind, key: LineKey, from_stock: bool) -> bool {
+    /// Add one piece of a line (`piece`: its index in the kind's table, looked up when not
+    /// given); true when the line is new to the build.
+    fn add_piece(
+        &mut self,
+        kind: PartKind,
+        key: LineKey,
+        from_stock: bool,
+        piece: Option<u32>,
+    ) -> bool {
         let ki = kind_index(kind);
         if let Some(l) = self.lines.iter_mut().find(|l| l.key == key) {
             l.all += 1;
             l.stock += u32::from(from_stock);
             return false;
         }
-        let piece = self.tables[ki].and_then(|t| t.by_line.get(&key).copied());
+        let piece = piece.or_else(|| self.tables[ki].and_then(|t| t.by_line.get(&key).copied()));
         self.lines.push(LineUse {
             key,
             kind: ki,
@@ -596,16 +664,16 @@ impl<'a> Dfs<'a> {
         let mut new_lines = 0;
         for p in real.pieces() {
             let row = &table.pieces[p as usize];
-            if self.add_piece(table.kind, row.line, true) {
+            if self.add_piece(table.kind, row.line, true, Some(p)) {
                 new_lines += 1;
             }
             if let Some(q) = row.qty {
-                let used = self
+                let taken = self
                     .lines
                     .iter()
                     .find(|l| l.key == row.line)
                     .map_or(0, |l| l.stock);
-                if used > q {
+                if taken > q {
                     fits = false;
                 }
             }

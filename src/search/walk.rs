@@ -22,8 +22,8 @@ use super::table::{Real, Table, NONE};
 use crate::build::Arrangement;
 use crate::spec::Spec;
 use crate::stage::{Coord, WalkPlan};
+use smallvec::SmallVec;
 use std::cmp::Ordering;
-use std::collections::BinaryHeap;
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 enum Run {
@@ -52,14 +52,70 @@ impl PartialOrd for Head {
     }
 }
 impl Ord for Head {
-    /// Reversed, so that `BinaryHeap` pops the least key; ties broken deterministically.
+    /// By key, ties broken deterministically.
     fn cmp(&self, other: &Self) -> Ordering {
-        other
-            .key
-            .total_cmp(&self.key)
-            .then_with(|| run_order(&other.run).cmp(&run_order(&self.run)))
-            .then(other.pos.cmp(&self.pos))
-            .then(other.up.cmp(&self.up))
+        self.key
+            .total_cmp(&other.key)
+            .then_with(|| run_order(&self.run).cmp(&run_order(&other.run)))
+            .then(self.pos.cmp(&other.pos))
+            .then(self.up.cmp(&other.up))
+    }
+}
+
+/// A binary min-heap kept inline for the few runs a walk usually has (a walk is started at
+/// every node of the search, so it should not allocate).
+#[derive(Default)]
+struct MinHeap {
+    items: SmallVec<[Head; 16]>,
+}
+
+impl MinHeap {
+    fn peek(&self) -> Option<&Head> {
+        self.items.first()
+    }
+
+    fn is_empty(&self) -> bool {
+        self.items.is_empty()
+    }
+
+    fn push(&mut self, h: Head) {
+        self.items.push(h);
+        let mut i = self.items.len() - 1;
+        while i > 0 {
+            let parent = (i - 1) / 2;
+            if self.items[i] < self.items[parent] {
+                self.items.swap(i, parent);
+                i = parent;
+            } else {
+                break;
+            }
+        }
+    }
+
+    fn pop(&mut self) -> Option<Head> {
+        let last = self.items.pop()?;
+        if self.items.is_empty() {
+            return Some(last);
+        }
+        let top = std::mem::replace(&mut self.items[0], last);
+        let n = self.items.len();
+        let mut i = 0;
+        loop {
+            let (l, r) = (2 * i + 1, 2 * i + 2);
+            let mut m = i;
+            if l < n && self.items[l] < self.items[m] {
+                m = l;
+            }
+            if r < n && self.items[r] < self.items[m] {
+                m = r;
+            }
+            if m == i {
+                break;
+            }
+            self.items.swap(i, m);
+            i = m;
+        }
+        Some(top)
     }
 }
 
@@ -99,13 +155,13 @@ pub struct Walk<'t, 's> {
     coord: Coord,
     plan: WalkPlan<'s>,
     /// Pieces of this kind whose lines the build already uses, in a fixed order.
-    used: Vec<u32>,
-    explicit: Vec<(f64, Real, bool)>,
-    heap: BinaryHeap<Head>,
+    used: SmallVec<[u32; 16]>,
+    explicit: SmallVec<[(f64, Real, bool); 8]>,
+    heap: MinHeap,
     /// Runs still to start, largest least key first (the next to start is last). A run is
     /// started (its start found by bisection) only once the walk reaches its least key, so a
     /// walk that is cut after a few candidates costs a few bisections, not one per run.
-    pending: Vec<(f64, Pending)>,
+    pending: SmallVec<[(f64, Pending); 16]>,
 }
 
 impl<'t, 's> Walk<'t, 's> {
@@ -114,7 +170,7 @@ impl<'t, 's> Walk<'t, 's> {
     pub fn new(spec: &'s Spec, table: &'t Table, plan: WalkPlan<'s>, used: &[u32]) -> Self {
         let coord = plan.coord;
         let lambda = table.line_cost();
-        let mut pending = Vec::new();
+        let mut pending: SmallVec<[(f64, Pending); 16]> = SmallVec::new();
         for (b, run) in table.fresh(coord).iter().enumerate() {
             if !run.is_empty() {
                 pending.push((run.up[0], Pending::Fresh { bucket: b as u16 }));
@@ -150,9 +206,9 @@ impl<'t, 's> Walk<'t, 's> {
             table,
             coord,
             plan,
-            used: used.to_vec(),
-            explicit: Vec::new(),
-            heap: BinaryHeap::new(),
+            used: SmallVec::from_slice(used),
+            explicit: SmallVec::new(),
+            heap: MinHeap::default(),
             pending,
         }
     }
@@ -180,33 +236,46 @@ impl<'t, 's> Walk<'t, 's> {
                 self.push_start(id, p, s.len());
             }
             Pending::Explicit => {
-                // Made of used lines only: a single piece, or a pair of two used pieces.
-                let mut reals = Vec::new();
-                for (x, &i) in self.used.iter().enumerate() {
-                    reals.push(table.single_of(self.spec, i));
-                    for &j in &self.used[x..] {
+                // Made of used lines only: a single piece, or a pair of two used pieces. The
+                // stage's bound is read from the coordinate first, so that a realisation it
+                // rules out is never built.
+                let kind = table.kind;
+                for x in 0..self.used.len() {
+                    let i = self.used[x];
+                    let ci = table.piece_coord(i, self.coord);
+                    self.offer_explicit(ci, |t| Some(t.single_of(self.spec, i)));
+                    for y in x..self.used.len() {
+                        let j = self.used[y];
+                        let cj = table.piece_coord(j, self.coord);
                         for &arr in table.arrangements {
-                            reals.extend(table.pair(self.spec, arr, i, j));
+                            let c = crate::build::combine(kind, arr, ci, cj);
+                            self.offer_explicit(c, |t| t.pair(self.spec, arr, i, j));
                         }
-                    }
-                }
-                for real in reals {
-                    let c = real.coord(self.coord);
-                    let up = c >= target;
-                    if let Some(bound) = (self.plan.bound)(c, up) {
-                        let item = self.explicit.len() as u16;
-                        let key = real.pts + bound;
-                        self.explicit.push((key, real, up));
-                        self.heap.push(Head {
-                            key,
-                            run: Run::Explicit { item },
-                            pos: 0,
-                            up,
-                        });
                     }
                 }
             }
         }
+    }
+
+    /// Push one explicit candidate at coordinate `c`, built by `make` only when the stage's
+    /// bound lets it through.
+    fn offer_explicit(&mut self, c: f64, make: impl FnOnce(&Table) -> Option<Real>) {
+        let up = c >= self.plan.target;
+        let Some(bound) = (self.plan.bound)(c, up) else {
+            return;
+        };
+        let Some(real) = make(self.table) else {
+            return;
+        };
+        let item = self.explicit.len() as u16;
+        let key = real.pts + bound;
+        self.explicit.push((key, real, up));
+        self.heap.push(Head {
+            key,
+            run: Run::Explicit { item },
+            pos: 0,
+            up,
+        });
     }
 
     fn push_start(&mut self, id: Run, p: usize, len: usize) {
@@ -293,13 +362,24 @@ impl<'t, 's> Walk<'t, 's> {
                 }
                 Run::Partner { used, arr, bucket } => {
                     let s = &table.partners(self.coord)[bucket as usize];
-                    self.advance(h, s.len());
                     let m = s.ids[h.pos as usize];
+                    let u = self.used[used as usize];
+                    let arr: Arrangement = table.arrangements[arr as usize];
+                    // A pair past the top of the range going up ends the run: every farther
+                    // partner has a larger coordinate, so (being at least its low end, and
+                    // the pair monotone in each piece) a larger value too. Going down the
+                    // same holds for the bottom when the coordinate is the value itself.
+                    let past = match (h.up, self.coord) {
+                        (true, _) => table.pair_above_range(arr, u, m, self.coord),
+                        (false, Coord::Value) => table.pair_below_range(arr, u, m),
+                        (false, Coord::Low) => false,
+                    };
+                    if !past {
+                        self.advance(h, s.len());
+                    }
                     if self.is_used(m) {
                         continue;
                     }
-                    let u = self.used[used as usize];
-                    let arr: Arrangement = table.arrangements[arr as usize];
                     match table.pair(self.spec, arr, u, m) {
                         Some(r) => r,
                         None => continue,

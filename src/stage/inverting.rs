@@ -293,13 +293,13 @@ impl Stage for Inverting {
                 }
             }
             (2, _) => {
-                let need = get(parts, R_IN).and_then(|r| {
-                    super::needed_capacitance(
-                        spec,
-                        spec.source_resistance + end(spec, r, false),
-                        true,
-                    )
-                });
+                // Before r_in is chosen, the largest r_in the gain window lets an r_fb inside
+                // the resistor range serve needs the least capacitance.
+                let r = match get(parts, R_IN) {
+                    Some(r) => end(spec, r, false),
+                    None => plans::largest_other(spec, form),
+                };
+                let need = super::needed_capacitance(spec, spec.source_resistance + r, true);
                 WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
             }
             _ => {

@@ -983,6 +983,14 @@ pub(crate) mod plans {
         }
     }
 
+    /// The largest value the other gain resistor (r_in, r_g) can take in a build whose
+    /// nominal gain is inside the window: r_fb at the top of the resistor range.
+    pub fn largest_other(spec: &Spec, form: GainForm) -> f64 {
+        let (g_lo, _) = gain_window(spec);
+        let r_max = spec.stock.resistor_range.1 * (1.0 + 1e-9);
+        form.r_other_for(g_lo, r_max).min(r_max)
+    }
+
     /// The other gain resistor walked first, r_fb still open. Without `comp` any value can be
     /// matched by some r_fb, so the bound is 0 and the walk runs down from the largest value
     /// an r_fb inside the resistor range can still serve (larger values need less coupling
@@ -995,10 +1003,8 @@ pub(crate) mod plans {
         floor: f64,
         comp: Option<Compensation>,
     ) -> WalkPlan<'s> {
-        let (g_lo, _) = gain_window(spec);
-        let r_max = spec.stock.resistor_range.1 * (1.0 + 1e-9);
         // The largest value an r_fb ≤ r_max can still bring into the window.
-        let top = form.r_other_for(g_lo, r_max);
+        let top = largest_other(spec, form);
         let g = spec.gain.abs();
         match comp {
             None => WalkPlan {

@@ -486,17 +486,27 @@ impl Stage for NonInverting {
                 }
             }
             Which::CapIn => {
-                let need = divider.and_then(|(hi, lo)| {
-                    let r = rs + Self::rp(end(spec, &hi, false), end(spec, &lo, false));
-                    needed_capacitance_after(spec, r, 0.0)
-                });
+                // Before the divider is chosen: R_p is at most half the largest resistor.
+                let r = match divider {
+                    Some((hi, lo)) => Self::rp(end(spec, &hi, false), end(spec, &lo, false)),
+                    None => spec.stock.resistor_range.1 * (1.0 + 1e-9) / 2.0,
+                };
+                let need = needed_capacitance_after(spec, rs + r, 0.0);
                 WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
             }
             Which::CapG => {
                 let spent = Self::in_loss(spec, parts).unwrap_or(0.0);
                 let need = match (get(parts, R_FB), get(parts, R_G)) {
                     (Some(f), Some(g)) => Self::gain_leg_need(spec, f, g, spent),
-                    _ => None,
+                    // Before the gain pair: the corner limit against the largest r_g.
+                    _ => {
+                        let form = GainForm {
+                            att: 1.0,
+                            plus: 1.0,
+                            offset: 0.0,
+                        };
+                        needed_capacitance(spec, plans::largest_other(spec, form), false)
+                    }
                 };
                 WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
             }
