@@ -41,6 +41,10 @@ pub struct Output {
     /// No progress bar.
     #[arg(long, short)]
     pub quiet: bool,
+    /// The exact search to run: `walk` (the default) or `milp` (a mixed-integer linear
+    /// program; the same builds, usually slower).
+    #[arg(long, value_name = "walk|milp", default_value = "walk")]
+    pub engine: String,
     /// Monte Carlo samples per reported build (0: no yield).
     #[arg(long = "yield", value_name = "N", default_value_t = 10_000)]
     pub yield_samples: usize,
@@ -69,6 +73,9 @@ pub struct TakeArgs {
     /// Write the new inventory. Without it, only show what would be taken and the file's hash.
     #[arg(long)]
     pub yes: bool,
+    /// The exact search to run: `walk` (the default) or `milp`.
+    #[arg(long, value_name = "walk|milp", default_value = "walk")]
+    pub engine: String,
     /// Take only if the inventory's SHA-256 is still this (as printed by an earlier dry run).
     #[arg(long, value_name = "HEX")]
     pub expect_hash: Option<String>,
@@ -243,6 +250,29 @@ mod tests {
             other => panic!("{other:?}"),
         }
         assert!(Arguments::try_parse_from(["stockfit", "take", "x.toml"]).is_err());
+    }
+
+    #[test]
+    fn engine_option() {
+        let a =
+            Arguments::try_parse_from(["stockfit", "pick", "x.toml", "--engine", "milp"]).unwrap();
+        match a.command {
+            Command::Pick { output, .. } => assert_eq!(output.engine, "milp"),
+            other => panic!("{other:?}"),
+        }
+        let a = Arguments::try_parse_from(["stockfit", "pick", "x.toml"]).unwrap();
+        match a.command {
+            Command::Pick { output, .. } => assert_eq!(output.engine, "walk"),
+            other => panic!("{other:?}"),
+        }
+        let a = Arguments::try_parse_from([
+            "stockfit", "take", "x.toml", "--stock", "s.csv", "--engine", "milp",
+        ])
+        .unwrap();
+        match a.command {
+            Command::Take(t) => assert_eq!(t.engine, "milp"),
+            other => panic!("{other:?}"),
+        }
     }
 
     #[test]

@@ -66,6 +66,15 @@ pub fn run(args: Arguments) -> Result<i32, Failure> {
     }
 }
 
+/// `--engine`: `walk` or `milp`.
+pub(super) fn parse_engine(name: &str) -> Result<search::Engine, Failure> {
+    search::Engine::parse(name).ok_or_else(|| {
+        Failure::input(anyhow!(
+            "--engine {name}: expected `walk` (the default) or `milp`"
+        ))
+    })
+}
+
 pub(super) fn load_spec(path: &Path) -> Result<(Spec, PathBuf), Failure> {
     let bytes = super::take::read_bounded(path, spec::MAX_SPEC_BYTES, "spec")?;
     let spec = Spec::from_bytes(&bytes).with_context(|| format!("in {}", path.display()))?;
@@ -299,6 +308,7 @@ fn pick(
             "--top 0: ask for at least one build"
         )));
     }
+    let engine = parse_engine(&output.engine)?;
     let req = Request {
         spec,
         stage,
@@ -316,26 +326,48 @@ fn pick(
             return;
         }
         if bar.is_none() && started.elapsed() > Duration::from_secs(1) {
-            let b = ProgressBar::new(p.total as u64);
-            if let Ok(style) =
-                ProgressStyle::with_template("searching {msg} {wide_bar} {pos}/{len} ({eta})")
-            {
-                b.set_style(style);
-            }
+            let b = match p {
+                Progress::Walk { total, .. } => {
+                    let b = ProgressBar::new(total as u64);
+                    if let Ok(style) = ProgressStyle::with_template(
+                        "searching {msg} {wide_bar} {pos}/{len} ({eta})",
+                    ) {
+                        b.set_style(style);
+                    }
+                    b
+                }
+                Progress::Milp { .. } => ProgressBar::new_spinner(),
+            };
             bar = Some(b);
         }
         if let Some(b) = &bar {
-            b.set_message(format!("{} candidates", stage.slots()[p.slot].name));
-            b.set_length(p.total as u64);
-            b.set_position(p.done as u64);
+            match p {
+                Progress::Walk { slot, done, total } => {
+                    b.set_message(format!("{} candidates", stage.slots()[slot].name));
+                    b.set_length(total as u64);
+                    b.set_position(done as u64);
+                }
+                Progress::Milp { solved, best } => {
+                    let best = if best.is_finite() {
+                        format!("{best:.4} points")
+                    } else {
+                        "none yet".to_string()
+                    };
+                    b.set_message(format!(
+                        "MILP: {solved} models solved, {top}th best so far {best}"
+                    ));
+                    b.tick();
+                }
+            }
         }
     };
-    let mut outcome = match search::search(&req, &mut on_progress) {
+    let mut outcome = match search::run(&req, engine, &mut on_progress) {
         Ok(o) => o,
         Err(e @ search::SearchError::NoCandidates { .. }) => {
             eprintln!("error: {e}");
             return Ok(EXIT_NO_BUILD);
         }
+        Err(e) => return Err(Failure::input(e)),
     };
     if let Some(b) = bar.take() {
         b.finish_and_clear();

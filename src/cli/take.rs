@@ -131,6 +131,7 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
     );
     let entries = lock_entries(&spec, &args.lock)?;
     let locked = parse_slot_values(stage, &stock, &entries, "--lock")?;
+    let engine = super::run::parse_engine(&args.engine)?;
     if args.build == 0 {
         return Err(Failure::input(anyhow!(
             "--build 0: builds are numbered from 1"
@@ -151,12 +152,13 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
         top: args.top,
         max_nodes: None,
     };
-    let outcome = match search::search(&req, &mut |_| {}) {
+    let outcome = match search::run(&req, engine, &mut |_| {}) {
         Ok(o) => o,
         Err(e @ search::SearchError::NoCandidates { .. }) => {
             eprintln!("error: {e}; nothing taken");
             return Ok(EXIT_NO_BUILD);
         }
+        Err(e) => return Err(Failure::input(e)),
     };
     if outcome.builds.is_empty() {
         eprintln!(

@@ -13,6 +13,7 @@
 
 pub mod brute;
 pub mod diagnose;
+pub mod milp;
 pub mod table;
 pub mod walk;
 
@@ -36,12 +37,16 @@ pub struct Ranked {
 
 /// Search progress, for a bar in the binary.
 #[derive(Debug, Clone, Copy)]
-pub struct Progress {
-    /// The slot being searched at the top of the tree (index into the stage's slots).
-    pub slot: usize,
-    /// Its candidates read so far, and how many it has.
-    pub done: usize,
-    pub total: usize,
+pub enum Progress {
+    /// The walk search: the slot at the top of the tree (index into the stage's slots), its
+    /// candidates read so far, and how many it has.
+    Walk {
+        slot: usize,
+        done: usize,
+        total: usize,
+    },
+    /// The MILP engine: models solved so far, and the N-th best score found (∞ until N).
+    Milp { solved: usize, best: f64 },
 }
 
 /// What a search did.
@@ -72,6 +77,48 @@ pub enum SearchError {
         kind: String,
         range: String,
     },
+    #[error("the MILP model would have {choices} choice variables, more than the MILP engine takes ({limit}); use `--engine walk`, narrow the ranges, or lock a slot")]
+    ModelTooLarge { choices: usize, limit: usize },
+    #[error("the MILP solver failed: {0}; `--engine walk` does not use it")]
+    Solver(String),
+}
+
+/// Which exact search finds the top N: the walk search of this module (the default, fast at
+/// any stock size) or the MILP engine (`milp`, good_lp with microlp), which must agree.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Engine {
+    #[default]
+    Walk,
+    Milp,
+}
+
+impl Engine {
+    pub const ALL: [Engine; 2] = [Engine::Walk, Engine::Milp];
+
+    pub fn name(self) -> &'static str {
+        match self {
+            Engine::Walk => "walk",
+            Engine::Milp => "milp",
+        }
+    }
+
+    pub fn parse(s: &str) -> Option<Engine> {
+        Engine::ALL
+            .into_iter()
+            .find(|e| e.name().eq_ignore_ascii_case(s.trim()))
+    }
+}
+
+/// Run the exact search with the chosen engine.
+pub fn run(
+    req: &Request,
+    engine: Engine,
+    progress: &mut dyn FnMut(Progress),
+) -> Result<Outcome, SearchError> {
+    match engine {
+        Engine::Walk => search(req, progress),
+        Engine::Milp => milp::search(req, progress),
+    }
 }
 
 /// A request: what to search and how many builds to keep.
@@ -507,7 +554,7 @@ impl<'a> Dfs<'a> {
             }
             read += 1;
             if first && read % 4096 == 0 {
-                (self.progress)(Progress {
+                (self.progress)(Progress::Walk {
                     slot: lv.slot,
                     done: read,
                     total: table.reals.len(),
@@ -542,7 +589,7 @@ impl<'a> Dfs<'a> {
             self.give_back(ki, &real);
         }
         if first {
-            (self.progress)(Progress {
+            (self.progress)(Progress::Walk {
                 slot: lv.slot,
                 done: table.reals.len(),
                 total: table.reals.len(),

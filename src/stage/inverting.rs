@@ -14,7 +14,10 @@
 
 use super::common::{self, end, SLACK};
 use super::plans::{self, DividerContext, GainForm};
-use super::{CapBias, Coord, DcErrors, DcPoint, Group, Network, OpAmp, SlotDef, Stage, WalkPlan};
+use super::{
+    CapBias, Coord, DcErrors, DcPoint, Group, LogModel, LogRow, Network, OpAmp, SlotDef, SlotSum,
+    Stage, WalkPlan,
+};
 use crate::build::SlotValue;
 use crate::spec::{Spec, StageKind};
 use crate::stock::inventory::PartKind;
@@ -312,6 +315,66 @@ impl Stage for Inverting {
                 WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
             }
         }
+    }
+
+    /// ln|G| = ln R_fb − ln(R_s + R_in): the gain window (worst-case ends, as `group_partial`
+    /// reads them) and the gain error; r_in's floor; each coupling network's corner; the
+    /// divider's ratio window and offset (`plans::divider_log`).
+    fn log_model<'s>(&self, spec: &'s Spec) -> LogModel<'s> {
+        let rs = spec.source_resistance;
+        let g = spec.gain.abs();
+        let mut m = LogModel::default();
+        let ln_gain = |high: bool| {
+            SlotSum::default()
+                .with(R_FB, move |p| end(spec, p, high).ln())
+                .with(R_IN, move |p| -(rs + end(spec, p, !high)).ln())
+        };
+        if let Some(t) = spec.gain_tolerance {
+            m.rows.push(LogRow {
+                name: "gain_low",
+                sum: ln_gain(false),
+                at_least: true,
+                limit: (g * (1.0 - t) * (1.0 - SLACK)).ln(),
+            });
+            m.rows.push(LogRow {
+                name: "gain_high",
+                sum: ln_gain(true),
+                at_least: false,
+                limit: (g * (1.0 + t) * (1.0 + SLACK)).ln(),
+            });
+        }
+        // How far below the target ln|G| can be in a build that passes: the window's floor,
+        // or what the resistor range allows.
+        let (r_lo, r_hi) = spec.stock.resistor_range;
+        let u_max = match spec.gain_tolerance {
+            Some(t) => -((1.0 - t) * (1.0 - SLACK)).ln(),
+            None => (g * (rs + r_hi) / r_lo).ln().max(0.0),
+        };
+        let nominal = SlotSum::default()
+            .with(R_FB, |p| p.value.ln())
+            .with(R_IN, move |p| -(rs + p.value).ln());
+        m.terms.push(super::relative_error_term(
+            "gain",
+            nominal,
+            g,
+            spec.goals.gain_error / 0.01,
+            u_max,
+        ));
+        if let Some(min) = spec.input_resistance_min {
+            m.rows.push(LogRow {
+                name: "input_resistance",
+                sum: SlotSum::default().with(R_IN, move |p| end(spec, p, false).ln()),
+                at_least: true,
+                limit: (min * (1.0 - SLACK)).ln(),
+            });
+        }
+        plans::network_log(spec, "corner_c_in", C_IN, Some(R_IN), rs, true, &mut m);
+        plans::network_log(spec, "corner_c_out", C_OUT, None, spec.load, true, &mut m);
+        let gain_floor = spec
+            .gain_tolerance
+            .map_or(0.0, |t| g * (1.0 - t) * (1.0 - SLACK));
+        plans::divider_log(spec, R_BIAS_HI, R_BIAS_LO, R_FB, gain_floor, &mut m);
+        m
     }
 
     fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<SlotValue>]) -> Option<f64> {

@@ -244,6 +244,15 @@ pub trait Stage: Send + Sync {
         parts: &[Option<SlotValue>],
     ) -> WalkPlan<'s>;
 
+    /// The stage's requirements and objective as far as they are linear in the logarithms
+    /// of the slot values, for the MILP engine (`search::milp`): rows that every build the
+    /// exact analysis accepts satisfies, and objective terms whose sum never exceeds the
+    /// stage terms (gain and offset points) of such a build. The default says nothing, which
+    /// is valid and only makes the MILP engine judge more builds.
+    fn log_model<'s>(&self, _spec: &'s Spec) -> LogModel<'s> {
+        LogModel::default()
+    }
+
     /// The circuit for the SPICE netlist (`report::spice`): between which nodes each slot
     /// sits, every slot once, in slot order. The source, supply, op-amp (its pins are
     /// `PlusInput`, `MinusInput`, `AmpOut`) and load are the same for every stage and are
@@ -372,6 +381,92 @@ impl WalkPlan<'static> {
     }
 }
 
+/// A number per candidate, summed over some slots: Σᵢ fᵢ(part in slot sᵢ). The MILP engine
+/// turns it into Σ_c x[s][c]·f(c) over its choice variables.
+pub type SlotFn<'s> = Box<dyn Fn(&SlotValue) -> f64 + 's>;
+
+/// A sum over slots of a number per candidate (see [`SlotFn`]).
+#[derive(Default)]
+pub struct SlotSum<'s> {
+    pub terms: Vec<(usize, SlotFn<'s>)>,
+}
+
+impl<'s> SlotSum<'s> {
+    /// Add f(part in `slot`).
+    pub fn with(mut self, slot: usize, f: impl Fn(&SlotValue) -> f64 + 's) -> Self {
+        self.terms.push((slot, Box::new(f)));
+        self
+    }
+
+    /// The sum for a build's parts by slot.
+    pub fn eval(&self, parts: &[SlotValue]) -> f64 {
+        self.terms.iter().map(|(s, f)| f(&parts[*s])).sum()
+    }
+}
+
+/// A requirement as a linear row: `sum ≥ limit` (`at_least`) or `sum ≤ limit`.
+pub struct LogRow<'s> {
+    /// What it stands for, for messages and tests.
+    pub name: &'static str,
+    pub sum: SlotSum<'s>,
+    pub at_least: bool,
+    pub limit: f64,
+}
+
+/// An objective term `above·max(sum − target, 0) + below·max(target − sum, 0)` (points).
+pub struct AbsTerm<'s> {
+    pub name: &'static str,
+    pub sum: SlotSum<'s>,
+    pub target: f64,
+    pub above: f64,
+    pub below: f64,
+}
+
+impl AbsTerm<'_> {
+    pub fn eval(&self, parts: &[SlotValue]) -> f64 {
+        let d = self.sum.eval(parts) - self.target;
+        if d >= 0.0 {
+            self.above * d
+        } else {
+            -self.below * d
+        }
+    }
+}
+
+/// What of a stage is linear in the logarithms of its values (see `Stage::log_model`).
+#[derive(Default)]
+pub struct LogModel<'s> {
+    pub rows: Vec<LogRow<'s>>,
+    pub terms: Vec<AbsTerm<'s>>,
+    /// Further objective points, linear over the candidates.
+    pub points: SlotSum<'s>,
+}
+
+/// The objective term for a relative error |q/q_t − 1| (times `scale`, in points per unit)
+/// written on ln q: above the target e^u − 1 ≥ u (tangent at 0 of a convex function), below
+/// it 1 − e^(−|u|) ≥ κ·|u| for |u| ≤ U with κ = (1 − e^(−U))/U (a chord of a concave
+/// function); `u_max` is U, the most ln q can fall short of ln q_t in a build that passes.
+pub fn relative_error_term<'s>(
+    name: &'static str,
+    ln_q: SlotSum<'s>,
+    q_target: f64,
+    scale: f64,
+    u_max: f64,
+) -> AbsTerm<'s> {
+    let kappa = if u_max > 1e-12 {
+        (1.0 - (-u_max).exp()) / u_max
+    } else {
+        1.0
+    };
+    AbsTerm {
+        name,
+        sum: ln_q,
+        target: q_target.ln(),
+        above: scale * (1.0 - 1e-9),
+        below: scale * kappa * (1.0 - 1e-9),
+    }
+}
+
 /// A term of a walk bound: a function with a single minimum at `mode` (nonincreasing below
 /// it, nondecreasing above). `mode` may be ±∞ for a monotone term.
 pub struct Term<'a> {
@@ -414,7 +509,7 @@ pub fn slot_index(stage: &dyn Stage, name: &str) -> Option<usize> {
 }
 
 /// Shared equations of the single-supply stages.
-pub(crate) mod common {
+pub mod common {
     use super::*;
     use std::f64::consts::PI;
 
@@ -1039,5 +1134,95 @@ pub(crate) mod plans {
                 }
             }
         }
+    }
+
+    /// The divider's part of a log model: the nominal ratio window the swing leaves (as rows
+    /// on z = ln(R_lo/R_hi), since x = R_lo/(R_hi + R_lo) is the logistic of z) and the ratio
+    /// part of the offset, V_s·|x − k| ≥ V_s·s·|z − z_k| with s the least slope x(1 − x) of
+    /// the logistic inside the window (the mean value theorem), plus I_os/2·R_fb, which the
+    /// offset the goal counts always holds (`common::offset_error`). `gain` is a lower bound
+    /// of the worst-case highest |gain| (for the swing an input peak needs).
+    pub fn divider_log<'s>(
+        spec: &'s Spec,
+        hi: usize,
+        lo: usize,
+        r_fb: usize,
+        gain: f64,
+        m: &mut super::LogModel<'s>,
+    ) {
+        use super::{AbsTerm, LogRow, SlotSum};
+        let (x_lo, x_hi) = ratio_window(spec, swing_needed(spec, gain));
+        let z = || {
+            SlotSum::default()
+                .with(lo, |p| p.value.ln())
+                .with(hi, |p| -p.value.ln())
+        };
+        let logit = |x: f64| (x / (1.0 - x)).ln();
+        if x_lo > 0.0 && x_lo < 1.0 {
+            m.rows.push(LogRow {
+                name: "divider_ratio_low",
+                sum: z(),
+                at_least: true,
+                limit: logit(x_lo) - SLACK,
+            });
+        }
+        if x_hi > 0.0 && x_hi < 1.0 {
+            m.rows.push(LogRow {
+                name: "divider_ratio_high",
+                sum: z(),
+                at_least: false,
+                limit: logit(x_hi) + SLACK,
+            });
+        }
+        let k = spec.bias_target() / spec.supply;
+        let w = spec.goals.offset / 0.1;
+        if x_lo > 0.0 && x_hi < 1.0 && x_lo <= k && k <= x_hi {
+            let slope = (x_lo * (1.0 - x_lo)).min(x_hi * (1.0 - x_hi));
+            let weight = w * spec.supply * slope * (1.0 - 1e-9);
+            m.terms.push(AbsTerm {
+                name: "divider_ratio",
+                sum: z(),
+                target: logit(k),
+                above: weight,
+                below: weight,
+            });
+        }
+        let c = spec.amplifier.input_offset_current / 2.0;
+        m.points =
+            std::mem::take(&mut m.points).with(r_fb, move |p| w * c * p.value * (1.0 - 1e-9));
+    }
+
+    /// A coupling network's row: ln C_low + ln(R_s + R_low) ≥ ln(1/(2π·f_c)) for the corner
+    /// `needed_capacitance` asks of the network alone (`r_slot` the resistor it works against,
+    /// if a slot; `r_fixed` a fixed resistance in series with it).
+    pub fn network_log<'s>(
+        spec: &'s Spec,
+        name: &'static str,
+        cap: usize,
+        r_slot: Option<usize>,
+        r_fixed: f64,
+        loss: bool,
+        m: &mut super::LogModel<'s>,
+    ) {
+        use super::{LogRow, SlotSum};
+        use common::end;
+        // C·R ≥ the capacitance needed against 1 Ω.
+        let Some(cr) = super::needed_capacitance(spec, 1.0, loss) else {
+            return;
+        };
+        let mut sum = SlotSum::default().with(cap, move |p| end(spec, p, false).ln());
+        let limit = match r_slot {
+            Some(r) => {
+                sum = sum.with(r, move |p| (r_fixed + end(spec, p, false)).ln());
+                cr.ln()
+            }
+            None => (cr / r_fixed).ln(),
+        };
+        m.rows.push(LogRow {
+            name,
+            sum,
+            at_least: true,
+            limit: limit - SLACK,
+        });
     }
 }

@@ -16,7 +16,7 @@ use super::common::{self, end, SLACK};
 use super::plans::{self, Compensation, DividerContext, GainForm};
 use super::{
     needed_capacitance, needed_capacitance_after, CapBias, Coord, DcErrors, DcPoint, Group,
-    Network, OpAmp, SlotDef, Stage, WalkPlan,
+    LogModel, LogRow, Network, OpAmp, SlotDef, SlotSum, Stage, WalkPlan,
 };
 use crate::build::SlotValue;
 use crate::spec::{Spec, StageKind};
@@ -517,6 +517,144 @@ impl Stage for NonInverting {
                 WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
             }
         }
+    }
+
+    /// With the source resistance zero the gain is 1 + ρ, ρ = R_fb/R_g: ln ρ carries the gain
+    /// window and the gain error (|G − G_t|/G_t = (ρ_t/G_t)·|ρ/ρ_t − 1|). With a source
+    /// resistance the divider's attenuation enters, and only the floor of ρ is a row (the
+    /// amplifier's own gain is at least the stage's). The input resistance R_p = R_hi ∥ R_lo
+    /// is below each divider resistor; the gain leg's corner and the output network's;
+    /// the divider's ratio window and offset (`plans::divider_log`).
+    fn log_model<'s>(&self, spec: &'s Spec) -> LogModel<'s> {
+        let rs = spec.source_resistance;
+        let g = spec.gain.abs();
+        let mut m = LogModel::default();
+        let ln_ratio = |high: bool| {
+            SlotSum::default()
+                .with(R_FB, move |p| end(spec, p, high).ln())
+                .with(R_G, move |p| -end(spec, p, !high).ln())
+        };
+        if let Some(t) = spec.gain_tolerance {
+            let floor = g * (1.0 - t) * (1.0 - SLACK) - 1.0;
+            if floor > 0.0 {
+                m.rows.push(LogRow {
+                    name: "gain_low",
+                    sum: ln_ratio(false),
+                    at_least: true,
+                    limit: floor.ln(),
+                });
+            }
+            let top = g * (1.0 + t) * (1.0 + SLACK) - 1.0;
+            if rs == 0.0 && top > 0.0 {
+                m.rows.push(LogRow {
+                    name: "gain_high",
+                    sum: ln_ratio(true),
+                    at_least: false,
+                    limit: top.ln(),
+                });
+            }
+        }
+        if rs > 0.0 && g > 1.0 {
+            // The divider attenuates by att = R_p/(R_s + R_p) < 1, so G ≤ 1 + ρ: a ρ below
+            // G_t − 1 misses the target by at least G_t − (1 + ρ). And with an input
+            // resistance floor att ≥ R_min/(R_s + R_min), so a ρ above G_t/att_min − 1
+            // overshoots by at least (1 + ρ)·att_min − G_t. Each is a one-sided relative
+            // error term on ln ρ (`relative_error_term`).
+            let (r_lo, r_hi) = spec.stock.resistor_range;
+            let w = spec.goals.gain_error / 0.01;
+            let ln_rho = || {
+                SlotSum::default()
+                    .with(R_FB, |p| p.value.ln())
+                    .with(R_G, |p| -p.value.ln())
+            };
+            let rho = g - 1.0;
+            let u_max = (rho * r_hi / r_lo).ln().max(0.0);
+            let mut below =
+                super::relative_error_term("gain_below", ln_rho(), rho, w * rho / g, u_max);
+            below.above = 0.0;
+            m.terms.push(below);
+            if let Some(min) = spec.input_resistance_min {
+                let att = min / (rs + min);
+                let rho2 = g / att - 1.0;
+                if rho2 > 0.0 {
+                    let mut above = super::relative_error_term(
+                        "gain_above",
+                        ln_rho(),
+                        rho2,
+                        w * att * rho2 / g,
+                        0.0,
+                    );
+                    above.below = 0.0;
+                    m.terms.push(above);
+                }
+            }
+        }
+        if rs == 0.0 && g > 1.0 {
+            let rho = g - 1.0;
+            let (r_lo, r_hi) = spec.stock.resistor_range;
+            let floor = spec
+                .gain_tolerance
+                .map(|t| g * (1.0 - t) * (1.0 - SLACK) - 1.0)
+                .filter(|&f| f > 0.0);
+            let u_max = match floor {
+                Some(f) => (rho / f).ln(),
+                None => (rho * r_hi / r_lo).ln().max(0.0),
+            };
+            let nominal = SlotSum::default()
+                .with(R_FB, |p| p.value.ln())
+                .with(R_G, |p| -p.value.ln());
+            m.terms.push(super::relative_error_term(
+                "gain",
+                nominal,
+                rho,
+                spec.goals.gain_error / 0.01 * rho / g,
+                u_max,
+            ));
+        }
+        if let Some(min) = spec.input_resistance_min {
+            for (name, slot) in [
+                ("input_resistance_hi", R_BIAS_HI),
+                ("input_resistance_lo", R_BIAS_LO),
+            ] {
+                m.rows.push(LogRow {
+                    name,
+                    sum: SlotSum::default().with(slot, move |p| end(spec, p, false).ln()),
+                    at_least: true,
+                    limit: (min * (1.0 - SLACK)).ln(),
+                });
+            }
+        }
+        // The input network works against R_s + R_p, and R_p is below each divider resistor:
+        // a capacitor too small against R_s + R_hi (or R_lo) is too small against R_s + R_p.
+        plans::network_log(
+            spec,
+            "corner_c_in_hi",
+            C_IN,
+            Some(R_BIAS_HI),
+            rs,
+            true,
+            &mut m,
+        );
+        plans::network_log(
+            spec,
+            "corner_c_in_lo",
+            C_IN,
+            Some(R_BIAS_LO),
+            rs,
+            true,
+            &mut m,
+        );
+        plans::network_log(spec, "corner_c_g", C_G, Some(R_G), 0.0, false, &mut m);
+        plans::network_log(spec, "corner_c_out", C_OUT, None, spec.load, true, &mut m);
+        plans::divider_log(
+            spec,
+            R_BIAS_HI,
+            R_BIAS_LO,
+            R_FB,
+            Self::gain_floor(spec),
+            &mut m,
+        );
+        m
     }
 
     fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<SlotValue>]) -> Option<f64> {
