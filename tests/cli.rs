@@ -666,6 +666,49 @@ fn a_one_piece_line_is_not_used_twice() {
 }
 
 // ---------------------------------------------------------------------------------------------
+// Engines
+// ---------------------------------------------------------------------------------------------
+
+/// The MILP engine ranks the same builds as the walk search (both are exact), on the
+/// quantity trap and on a small stock, and keeps to the quantities.
+#[test]
+fn the_milp_engine_ranks_the_same_builds() {
+    for spec in [data("cli-qty-one-10k.toml"), data("cli-engines.toml")] {
+        let walk = pick_json(&spec, &["--yield", "0"]);
+        let milp = pick_json(&spec, &["--yield", "0", "--engine", "milp"]);
+        let scores = |doc: &Value| -> Vec<f64> {
+            builds(doc)
+                .iter()
+                .map(|b| num(&b["score"], "score"))
+                .collect()
+        };
+        let (a, b) = (scores(&walk), scores(&milp));
+        assert_eq!(
+            a.len(),
+            b.len(),
+            "{}: walk {a:?} milp {b:?}",
+            spec.display()
+        );
+        for (x, y) in a.iter().zip(&b) {
+            close(*y, *x, 1e-9, &format!("{} scores", spec.display()));
+        }
+        assert_quantities(&milp, &spec_inventories(&spec), "milp engine");
+    }
+}
+
+#[test]
+fn an_unknown_engine_exits_2() {
+    let spec = data("cli-qty-one-10k.toml");
+    let r = run(&["pick", p(&spec), "--engine", "simplex", "--quiet"]);
+    r.expect_code(2, "pick --engine simplex");
+    assert!(
+        r.stderr.contains("--engine simplex") && r.stderr.contains("`walk`"),
+        "{}",
+        r.stderr
+    );
+}
+
+// ---------------------------------------------------------------------------------------------
 // Locks
 // ---------------------------------------------------------------------------------------------
 

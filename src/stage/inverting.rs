@@ -86,14 +86,14 @@ impl Inverting {
         let c = end(spec, c_in, false);
         let corner = 1.0 / (2.0 * std::f64::consts::PI * r * c);
         let loss = common::high_pass_loss_db(r, c, spec.band.0);
-        common::network_ok(spec, corner, loss).then_some(loss)
+        common::plain_network_ok(spec, corner, loss).then_some(loss)
     }
 
     fn output_network_ok(spec: &Spec, c_out: &SlotValue) -> Option<f64> {
         let c = end(spec, c_out, false);
         let corner = 1.0 / (2.0 * std::f64::consts::PI * spec.load * c);
         let loss = common::high_pass_loss_db(spec.load, c, spec.band.0);
-        common::network_ok(spec, corner, loss).then_some(loss)
+        common::plain_network_ok(spec, corner, loss).then_some(loss)
     }
 }
 
@@ -421,11 +421,9 @@ impl Stage for Inverting {
                     (get(parts, R_IN)?, get(parts, C_IN)?, get(parts, C_OUT)?);
                 let out_loss = Self::output_network_ok(spec, c_out)?;
                 let in_loss = Self::input_network_ok(spec, r_in, c_in)?;
-                if let Some(max) = spec.band_loss_max {
-                    // The two networks are buffered by the op-amp: their losses add (in dB).
-                    if in_loss + out_loss > max * (1.0 + SLACK) + SLACK {
-                        return None;
-                    }
+                // The two networks are buffered by the op-amp: their losses add (in dB).
+                if !common::losses_ok(spec, in_loss + out_loss) {
+                    return None;
                 }
                 let v_div = spec.supply * get(parts, R_BIAS_LO)?.value
                     / (get(parts, R_BIAS_HI)?.value + get(parts, R_BIAS_LO)?.value);

@@ -635,6 +635,39 @@ pub mod common {
         swing > -SLACK
     }
 
+    /// 10·log10(2): the loss at a −3 dB corner (half the power).
+    pub const THREE_DB: f64 = 3.010_299_956_639_812;
+
+    /// The loss the stage may take at the band's low edge, summed over its buffered coupling
+    /// networks: `band_loss_max`; or with neither it nor `corner_low_max` given, 3 dB (the
+    /// whole response's −3 dB corner must then sit at or below the band's low edge); or none.
+    pub fn loss_budget(spec: &Spec) -> Option<f64> {
+        match (spec.band_loss_max, spec.corner_low_max) {
+            (Some(max), _) => Some(max),
+            (None, None) => Some(THREE_DB),
+            (None, Some(_)) => None,
+        }
+    }
+
+    /// Whether the summed worst-case losses of the networks fit `loss_budget`.
+    pub fn losses_ok(spec: &Spec, total_db: f64) -> bool {
+        loss_budget(spec).is_none_or(|max| total_db <= max * (1.0 + SLACK) + SLACK)
+    }
+
+    /// Relaxed per-network checks of one coupling network: its worst corner and its own loss
+    /// at the band's low edge against the whole budget; with neither limit given, a plain
+    /// first-order network's corner at or below the band's low edge (the whole response's
+    /// −3 dB corner lies above each section's, and must sit at or below the band's edge).
+    pub fn plain_network_ok(spec: &Spec, worst_corner: f64, worst_loss_db: f64) -> bool {
+        if spec.corner_low_max.is_none()
+            && spec.band_loss_max.is_none()
+            && worst_corner > spec.band.0 * (1.0 + SLACK)
+        {
+            return false;
+        }
+        network_ok(spec, worst_corner, worst_loss_db)
+    }
+
     /// Relaxed per-network checks of one coupling network: its worst corner and its own loss
     /// at the band's low edge against the whole budget.
     pub fn network_ok(spec: &Spec, worst_corner: f64, worst_loss_db: f64) -> bool {
@@ -742,26 +775,22 @@ pub fn needed_capacitance(spec: &Spec, r: f64, loss: bool) -> Option<f64> {
 }
 
 /// The least capacitance a first-order coupling network against `r` (its low-end value) may
-/// have once other networks, buffered from it, have spent `spent` dB of `band_loss_max` at
-/// the band's low edge: the corner limit and the loss left, each with the search's slack (as
-/// `common::network_ok` and the stages' summed-loss checks read them). With neither limit
-/// given, the band's low edge is the corner (see [`needed_capacitance`]). `Some(∞)` when no
-/// loss is left.
+/// have once other networks, buffered from it, have spent `spent` dB of the loss budget at
+/// the band's low edge (`common::loss_budget`): the corner limit and the loss left, each with
+/// the search's slack (as `common::network_ok` and the stages' summed-loss checks read them).
+/// `Some(∞)` when no loss is left.
 pub fn needed_capacitance_after(spec: &Spec, r: f64, spent: f64) -> Option<f64> {
     use common::SLACK;
     let mut fc = f64::INFINITY;
     if let Some(max) = spec.corner_low_max {
         fc = fc.min(max * (1.0 + SLACK));
     }
-    if let Some(l) = spec.band_loss_max {
+    if let Some(l) = common::loss_budget(spec) {
         let left = l * (1.0 + SLACK) + SLACK - spent;
         if left <= 0.0 {
             return Some(f64::INFINITY);
         }
         fc = fc.min(spec.band.0 * (10f64.powf(left / 10.0) - 1.0).sqrt());
-    }
-    if spec.corner_low_max.is_none() && spec.band_loss_max.is_none() {
-        fc = spec.band.0;
     }
     Some(1.0 / (2.0 * std::f64::consts::PI * r * fc))
 }

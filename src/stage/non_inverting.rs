@@ -148,7 +148,7 @@ impl NonInverting {
         let c = end(spec, c_in, false);
         let corner = 1.0 / (2.0 * PI * r * c);
         let loss = common::high_pass_loss_db(r, c, spec.band.0);
-        common::network_ok(spec, corner, loss).then_some(loss)
+        common::plain_network_ok(spec, corner, loss).then_some(loss)
     }
 
     /// The gain leg's worst loss over its three parts' tolerance corners.
@@ -163,6 +163,10 @@ impl NonInverting {
             .iter()
             .map(|v| gain_leg_loss_db(v[0], v[1], v[2], spec.band.0))
             .fold(f64::NEG_INFINITY, f64::max);
+        // Its own loss within the whole budget (3 dB when the band edge is the requirement).
+        if !common::losses_ok(spec, loss) {
+            return None;
+        }
         common::network_ok(spec, corner, loss).then_some(loss)
     }
 
@@ -170,7 +174,7 @@ impl NonInverting {
         let c = end(spec, c_out, false);
         let corner = 1.0 / (2.0 * PI * spec.load * c);
         let loss = common::high_pass_loss_db(spec.load, c, spec.band.0);
-        common::network_ok(spec, corner, loss).then_some(loss)
+        common::plain_network_ok(spec, corner, loss).then_some(loss)
     }
 
     fn nominal_divider(spec: &Spec, parts: &[Option<SlotValue>]) -> Option<f64> {
@@ -216,7 +220,7 @@ impl NonInverting {
     /// nominal R_fb, R_g (one vertex of the worst case, so a relaxation).
     fn gain_leg_need(spec: &Spec, r_fb: &SlotValue, r_g: &SlotValue, spent: f64) -> Option<f64> {
         let by_corner = needed_capacitance(spec, end(spec, r_g, false), false);
-        let by_loss = spec.band_loss_max.map(|max| {
+        let by_loss = common::loss_budget(spec).map(|max| {
             let left = max * (1.0 + SLACK) + SLACK - spent;
             if left <= 0.0 {
                 return f64::INFINITY;
@@ -724,7 +728,13 @@ impl Stage for NonInverting {
             }
             Which::CapG => {
                 let c_g = get(parts, C_G)?;
-                Self::g_loss(spec, parts)?;
+                // Buffered networks: losses in dB add.
+                if !common::losses_ok(
+                    spec,
+                    Self::in_loss(spec, parts)? + Self::g_loss(spec, parts)?,
+                ) {
+                    return None;
+                }
                 let v_div = Self::nominal_divider(spec, parts)?;
                 common::cap_ok(c_g, v_div).then_some(0.0)
             }
@@ -733,11 +743,9 @@ impl Stage for NonInverting {
                 let total = Self::in_loss(spec, parts)?
                     + Self::g_loss(spec, parts)?
                     + Self::output_network_loss(spec, c_out)?;
-                if let Some(max) = spec.band_loss_max {
-                    // Buffered networks: losses in dB add.
-                    if total > max * (1.0 + SLACK) + SLACK {
-                        return None;
-                    }
+                // Buffered networks: losses in dB add.
+                if !common::losses_ok(spec, total) {
+                    return None;
                 }
                 let v_div = Self::nominal_divider(spec, parts)?;
                 common::cap_ok(c_out, v_div).then_some(0.0)
