@@ -520,13 +520,13 @@ impl<'a> Dfs<'a> {
         let kind = stage.slots()[lv.slot].kind;
         let ki = kind_index(kind);
         let table = self.tables[ki].expect("a table for every unlocked slot's kind");
-        let plan = stage.walk(spec, lv.group, lv.k, &self.vals);
-        let mut walk = Walk::new(spec, table, plan, &self.used[ki]);
         // What the open slots after this one add at least, given the parts chosen so far (a
         // candidate here only tightens it); the kind of this slot has a line once any
         // candidate is taken. First the cheap static bound; the look-ahead of the open
         // one-slot groups (which asks the stage) only once a candidate passes that.
         let mut rest = self.rest_static[level + 1] + self.lines_lb(level + 1, Some(ki));
+        let plan = stage.walk(spec, lv.group, lv.k, &self.vals);
+        let mut walk = Walk::new(spec, table, plan, &self.used[ki], self.bound() - acc - rest);
         let mut tight = false;
         let lambda = spec.goals.bom_lines;
         let first = self.whole

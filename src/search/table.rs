@@ -120,6 +120,41 @@ fn radix_sort<T: Copy>(rows: Vec<T>, key: impl Fn(&T) -> u64) -> Vec<T> {
     src
 }
 
+/// A stable radix sort of 64-bit words by their upper 32 bits, a byte at a time, skipping the
+/// bytes every word shares.
+fn radix_sort_high(words: Vec<u64>) -> Vec<u64> {
+    if words.len() < 512 {
+        let mut words = words;
+        words.sort_by_key(|w| w >> 32);
+        return words;
+    }
+    let mut src = words;
+    let mut dst = vec![0u64; src.len()];
+    for pass in 4..8 {
+        let shift = pass * 8;
+        let mut count = [0usize; 256];
+        for w in &src {
+            count[(w >> shift) as usize & 0xff] += 1;
+        }
+        if count.contains(&src.len()) {
+            continue;
+        }
+        let mut at = 0;
+        for c in count.iter_mut() {
+            let n = *c;
+            *c = at;
+            at += n;
+        }
+        for &w in &src {
+            let d = (w >> shift) as usize & 0xff;
+            dst[count[d]] = w;
+            count[d] += 1;
+        }
+        std::mem::swap(&mut src, &mut dst);
+    }
+    src
+}
+
 /// The bits of a non-negative float, which order as the numbers do (IEEE 754).
 fn order_bits(x: f64) -> u64 {
     debug_assert!(x >= 0.0);
@@ -127,26 +162,49 @@ fn order_bits(x: f64) -> u64 {
 }
 
 impl Sorted {
-    /// Rows (coordinate, id, key) in id order; coordinates are positive values.
-    fn new(rows: Vec<(f64, u32, f64)>) -> Sorted {
-        // Stable: equal coordinates stay in id order.
-        let rows = radix_sort(rows, |r| order_bits(r.0));
-        let n = rows.len();
+    /// The ids given (ascending), sorted by `coord` (positive values), ties by id, with the
+    /// least `key` from each position on in each direction.
+    fn new(ids: Vec<u32>, coord: &[f64], key: &[f64]) -> Sorted {
+        // Sort the ids packed with the top 32 bits of their coordinate (sign, exponent and 20
+        // bits of mantissa: an order-preserving, coarser key) in 8-byte words, the stable radix
+        // sort leaving ids in id order among equal keys; then one insertion pass orders the
+        // few runs of coordinates that agree to 1 part in 10⁶ by their exact value (and id).
+        let packed: Vec<u64> = ids
+            .iter()
+            .map(|&i| (order_bits(coord[i as usize]) >> 32) << 32 | i as u64)
+            .collect();
+        let mut order: Vec<u32> = radix_sort_high(packed)
+            .into_iter()
+            .map(|w| w as u32)
+            .collect();
+        let mut coords: Vec<f64> = order.iter().map(|&i| coord[i as usize]).collect();
+        for i in 1..order.len() {
+            let mut j = i;
+            while j > 0
+                && (coords[j] < coords[j - 1]
+                    || (coords[j] == coords[j - 1] && order[j] < order[j - 1]))
+            {
+                order.swap(j, j - 1);
+                coords.swap(j, j - 1);
+                j -= 1;
+            }
+        }
+        let n = order.len();
         let mut up = vec![0.0; n];
         let mut down = vec![0.0; n];
         let mut m = f64::INFINITY;
         for i in (0..n).rev() {
-            m = m.min(rows[i].2);
+            m = m.min(key[order[i] as usize]);
             up[i] = m;
         }
         m = f64::INFINITY;
         for i in 0..n {
-            m = m.min(rows[i].2);
+            m = m.min(key[order[i] as usize]);
             down[i] = m;
         }
         Sorted {
-            ids: rows.iter().map(|r| r.1).collect(),
-            coord: rows.iter().map(|r| r.0).collect(),
+            ids: order,
+            coord: coords,
             up,
             down,
         }
@@ -166,23 +224,29 @@ impl Sorted {
     }
 }
 
-/// Split rows into buckets of nearly equal key, so that each bucket's walk reads a bound close
-/// to the true key: at most `MAX_BUCKETS` buckets, each at most `width` wide, the width
-/// doubling from 0.01 points until they fit.
-fn bucketed(rows: Vec<(f64, u32, f64)>) -> Vec<Sorted> {
+/// Split ids 0..n into buckets of nearly equal key, so that each bucket's walk reads a bound
+/// close to the true key: at most `MAX_BUCKETS` buckets, each at most `width` wide, the width
+/// doubling from 0.01 points until they fit; each bucket sorted by coordinate.
+fn bucketed(coord: &[f64], key: &[f64]) -> Vec<Sorted> {
     const MAX_BUCKETS: usize = 24;
-    if rows.is_empty() {
+    let n = key.len();
+    if n == 0 {
         return Vec::new();
     }
     // The distinct keys; a stock usually has few (series resistors: single, twin, pair), so
     // a short sorted list grown by bisection, and a sort only when there are many.
     let mut keys: Vec<f64> = Vec::new();
-    for r in &rows {
-        match keys.binary_search_by(|k| k.total_cmp(&r.2)) {
+    let mut last = f64::NAN;
+    for &k in key {
+        if k.to_bits() == last.to_bits() {
+            continue;
+        }
+        last = k;
+        match keys.binary_search_by(|x| x.total_cmp(&k)) {
             Ok(_) => {}
-            Err(at) if keys.len() < 1024 => keys.insert(at, r.2),
+            Err(at) if keys.len() < 1024 => keys.insert(at, k),
             Err(_) => {
-                keys = radix_sort(rows.iter().map(|r| r.2).collect(), |&k| order_bits(k));
+                keys = radix_sort(key.to_vec(), |&k| order_bits(k));
                 keys.dedup();
                 break;
             }
@@ -201,12 +265,22 @@ fn bucketed(rows: Vec<(f64, u32, f64)>) -> Vec<Sorted> {
         }
         width *= 2.0;
     };
-    let mut parts: Vec<Vec<(f64, u32, f64)>> = vec![Vec::new(); starts.len()];
-    for r in rows {
-        let b = starts.partition_point(|&s| s <= r.2) - 1;
-        parts[b].push(r);
+    let bucket: Vec<u8> = key
+        .iter()
+        .map(|&k| (starts.partition_point(|&s| s <= k) - 1) as u8)
+        .collect();
+    let mut count = vec![0usize; starts.len()];
+    for &b in &bucket {
+        count[b as usize] += 1;
     }
-    parts.into_iter().map(Sorted::new).collect()
+    let mut parts: Vec<Vec<u32>> = count.iter().map(|&c| Vec::with_capacity(c)).collect();
+    for (i, &b) in bucket.iter().enumerate() {
+        parts[b as usize].push(i as u32);
+    }
+    parts
+        .into_iter()
+        .map(|ids| Sorted::new(ids, coord, key))
+        .collect()
 }
 
 /// One stock piece with what the search reads of it.
@@ -429,45 +503,33 @@ impl Table {
     /// piece (what it costs when none of its lines is in the build yet).
     pub fn fresh(&self, coord: Coord) -> &[Sorted] {
         self.fresh[coord_index(coord)].get_or_init(|| {
-            let rows = self
+            let coords: Vec<f64> = self.reals.iter().map(|r| r.coord(coord)).collect();
+            let keys: Vec<f64> = self
                 .reals
                 .iter()
-                .enumerate()
-                .map(|(i, r)| {
-                    (
-                        r.coord(coord),
-                        i as u32,
-                        r.pts + self.lambda * r.own_lines() as f64,
-                    )
-                })
+                .map(|r| r.pts + self.lambda * r.own_lines() as f64)
                 .collect();
-            bucketed(rows)
+            bucketed(&coords, &keys)
         })
     }
 
     /// Partner runs: pieces keyed by `pts_lb`.
     pub fn partners(&self, coord: Coord) -> &[Sorted] {
         self.partners[coord_index(coord)].get_or_init(|| {
-            let rows = self
-                .pieces
-                .iter()
-                .enumerate()
-                .map(|(i, p)| (self.piece_coord(i as u32, coord), i as u32, p.pts_lb))
+            let coords: Vec<f64> = (0..self.pieces.len() as u32)
+                .map(|i| self.piece_coord(i, coord))
                 .collect();
-            bucketed(rows)
+            let keys: Vec<f64> = self.pieces.iter().map(|p| p.pts_lb).collect();
+            bucketed(&coords, &keys)
         })
     }
 
     /// Every realisation by coordinate, keyed by slot points (no lines).
     pub fn merged(&self, coord: Coord) -> &Sorted {
         self.merged[coord_index(coord)].get_or_init(|| {
-            Sorted::new(
-                self.reals
-                    .iter()
-                    .enumerate()
-                    .map(|(i, r)| (r.coord(coord), i as u32, r.pts))
-                    .collect(),
-            )
+            let coords: Vec<f64> = self.reals.iter().map(|r| r.coord(coord)).collect();
+            let keys: Vec<f64> = self.reals.iter().map(|r| r.pts).collect();
+            Sorted::new((0..self.reals.len() as u32).collect(), &coords, &keys)
         })
     }
 }

@@ -162,25 +162,47 @@ pub struct Walk<'t, 's> {
     /// started (its start found by bisection) only once the walk reaches its least key, so a
     /// walk that is cut after a few candidates costs a few bisections, not one per run.
     pending: SmallVec<[(f64, Pending); 16]>,
+    /// Some run was left out at the start for its least key (see [`Walk::new`]).
+    dropped: bool,
 }
 
 impl<'t, 's> Walk<'t, 's> {
     /// A walk of `table`'s candidates by `plan`, with `used` the pieces whose lines the
-    /// build already has.
-    pub fn new(spec: &'s Spec, table: &'t Table, plan: WalkPlan<'s>, used: &[u32]) -> Self {
+    /// build already has. Runs whose least key is at `limit` or above are left out: a walk's
+    /// limit only falls.
+    pub fn new(
+        spec: &'s Spec,
+        table: &'t Table,
+        plan: WalkPlan<'s>,
+        used: &[u32],
+        limit: f64,
+    ) -> Self {
         let coord = plan.coord;
         let lambda = table.line_cost();
         let mut pending: SmallVec<[(f64, Pending); 16]> = SmallVec::new();
+        let mut dropped = false;
         for (b, run) in table.fresh(coord).iter().enumerate() {
-            if !run.is_empty() {
+            if run.is_empty() {
+                continue;
+            }
+            if run.up[0] < limit {
                 pending.push((run.up[0], Pending::Fresh { bucket: b as u16 }));
+            } else {
+                dropped = true;
             }
         }
         for (u, &piece) in used.iter().enumerate() {
             let pu = table.pieces[piece as usize].pts_lb;
             for ai in 0..table.arrangements.len() {
                 for (b, run) in table.partners(coord).iter().enumerate() {
-                    if !run.is_empty() {
+                    if run.is_empty() {
+                        continue;
+                    }
+                    if pu + run.up[0] + lambda >= limit {
+                        dropped = true;
+                        continue;
+                    }
+                    {
                         pending.push((
                             pu + run.up[0] + lambda,
                             Pending::Partner {
@@ -198,9 +220,20 @@ impl<'t, 's> Walk<'t, 's> {
             .map(|&p| table.pieces[p as usize].pts_lb)
             .reduce(f64::min)
         {
-            pending.push((least, Pending::Explicit));
+            if least < limit {
+                pending.push((least, Pending::Explicit));
+            } else {
+                dropped = true;
+            }
         }
-        pending.sort_by(|a, b| b.0.total_cmp(&a.0));
+        // Largest first, so the next to start is last; a handful of entries.
+        for i in 1..pending.len() {
+            let mut j = i;
+            while j > 0 && pending[j].0 > pending[j - 1].0 {
+                pending.swap(j, j - 1);
+                j -= 1;
+            }
+        }
         Walk {
             spec,
             table,
@@ -210,6 +243,7 @@ impl<'t, 's> Walk<'t, 's> {
             explicit: SmallVec::new(),
             heap: MinHeap::default(),
             pending,
+            dropped,
         }
     }
 
@@ -414,8 +448,8 @@ impl<'t, 's> Walk<'t, 's> {
         (self.plan.bound)(item.real.coord(self.coord), item.up)
     }
 
-    /// True when every run has ended.
+    /// True when every run has ended (none was left out at the start).
     pub fn exhausted(&self) -> bool {
-        self.heap.is_empty() && self.pending.is_empty()
+        self.heap.is_empty() && self.pending.is_empty() && !self.dropped
     }
 }
