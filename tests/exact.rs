@@ -7,9 +7,8 @@
 
 mod common;
 
-use common::{case_strategy, cases, prepare, Case};
+use common::{case_strategy, prepare, run_property, Case};
 use proptest::prelude::*;
-use proptest::test_runner::{Config, RngAlgorithm, TestRng, TestRunner};
 use stockfit::build::Part;
 use stockfit::search::{brute::brute_force, search, Request};
 
@@ -76,24 +75,8 @@ fn run_case(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCaseErr
     Ok(())
 }
 
-/// Runs the cases; at least `min_feasible` of every 10 must have a build, so the comparison is
-/// not carried by empty results.
 fn check(strategy: impl Strategy<Value = Case>, n: u32, min_feasible: u32) {
-    let n = cases(n);
-    let found = std::cell::Cell::new(0);
-    let config = Config {
-        cases: n,
-        failure_persistence: None,
-        ..Config::default()
-    };
-    let mut runner =
-        TestRunner::new_with_rng(config, TestRng::deterministic_rng(RngAlgorithm::ChaCha));
-    runner.run(&strategy, |c| run_case(&c, &found)).unwrap();
-    assert!(
-        found.get() * 10 >= min_feasible * n,
-        "only {} of {n} cases had a build",
-        found.get()
-    );
+    run_property(strategy, n, min_feasible, run_case);
 }
 
 #[test]

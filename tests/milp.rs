@@ -11,9 +11,8 @@
 
 mod common;
 
-use common::{case_strategy, cases, prepare, Case};
+use common::{case_strategy, prepare, run_property, Case};
 use proptest::prelude::*;
-use proptest::test_runner::{Config, RngAlgorithm, TestRng, TestRunner};
 use stockfit::analysis;
 use stockfit::build::{Build, SlotValue};
 use stockfit::search::{milp, search, slot_candidates, Request};
@@ -157,21 +156,7 @@ fn check(
     min_feasible: u32,
     property: fn(&Case, &std::cell::Cell<u32>) -> Result<(), TestCaseError>,
 ) {
-    let n = cases(n);
-    let found = std::cell::Cell::new(0);
-    let config = Config {
-        cases: n,
-        failure_persistence: None,
-        ..Config::default()
-    };
-    let mut runner =
-        TestRunner::new_with_rng(config, TestRng::deterministic_rng(RngAlgorithm::ChaCha));
-    runner.run(&strategy, |c| property(&c, &found)).unwrap();
-    assert!(
-        found.get() * 10 >= min_feasible * n,
-        "only {} of {n} cases had a build",
-        found.get()
-    );
+    run_property(strategy, n, min_feasible, property);
 }
 
 // Inventories small enough that the MILP engine ends in a few hundred solves even where

@@ -84,42 +84,6 @@ pub struct Sorted {
     pub down: Vec<f64>,
 }
 
-/// A stable least-significant-digit radix sort by a 64-bit key, a byte at a time, skipping
-/// the bytes every key shares: a few linear passes over ~300 000 rows instead of a comparison
-/// sort. Small inputs take the standard stable sort.
-fn radix_sort<T: Copy>(rows: Vec<T>, key: impl Fn(&T) -> u64) -> Vec<T> {
-    if rows.len() < 512 {
-        let mut rows = rows;
-        rows.sort_by_key(|r| key(r));
-        return rows;
-    }
-    let mut src = rows;
-    let mut dst = src.clone();
-    for pass in 0..8 {
-        let shift = pass * 8;
-        let mut count = [0usize; 256];
-        for r in &src {
-            count[(key(r) >> shift) as usize & 0xff] += 1;
-        }
-        if count.contains(&src.len()) {
-            continue;
-        }
-        let mut at = 0;
-        for c in count.iter_mut() {
-            let n = *c;
-            *c = at;
-            at += n;
-        }
-        for r in &src {
-            let d = (key(r) >> shift) as usize & 0xff;
-            dst[count[d]] = *r;
-            count[d] += 1;
-        }
-        std::mem::swap(&mut src, &mut dst);
-    }
-    src
-}
-
 /// A stable radix sort of 64-bit words by their upper 32 bits, a byte at a time, skipping the
 /// bytes every word shares.
 fn radix_sort_high(words: Vec<u64>) -> Vec<u64> {
@@ -246,7 +210,8 @@ fn bucketed(coord: &[f64], key: &[f64]) -> Vec<Sorted> {
             Ok(_) => {}
             Err(at) if keys.len() < 1024 => keys.insert(at, k),
             Err(_) => {
-                keys = radix_sort(key.to_vec(), |&k| order_bits(k));
+                keys = key.to_vec();
+                keys.sort_unstable_by(f64::total_cmp);
                 keys.dedup();
                 break;
             }

@@ -284,16 +284,8 @@ impl Stage for Inverting {
                         _ => 0.0,
                     },
                 };
-                let (me, other) = if k == 0 {
-                    (R_BIAS_HI, R_BIAS_LO)
-                } else {
-                    (R_BIAS_LO, R_BIAS_HI)
-                };
-                match get(parts, other) {
-                    Some(o) => plans::divider_member(spec, o.value, me == R_BIAS_HI, ctx),
-                    None if me == R_BIAS_HI => plans::divider_first(spec, ctx),
-                    None => WalkPlan::free(),
-                }
+                let walked = if k == 0 { R_BIAS_HI } else { R_BIAS_LO };
+                plans::divider_walk(spec, walked == R_BIAS_HI, parts, R_BIAS_HI, R_BIAS_LO, ctx)
             }
             (2, _) => {
                 // Before r_in is chosen, the largest r_in the gain window lets an r_fb inside

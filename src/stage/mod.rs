@@ -871,6 +871,24 @@ pub(crate) mod plans {
         }
     }
 
+    /// The plan of one divider resistor (`walking_hi`: r_bias_hi, else r_bias_lo): the exact
+    /// share with the other one chosen, or r_bias_hi's bound before it.
+    pub fn divider_walk<'s>(
+        spec: &'s Spec,
+        walking_hi: bool,
+        parts: &[Option<crate::build::SlotValue>],
+        hi: usize,
+        lo: usize,
+        ctx: DividerContext,
+    ) -> WalkPlan<'s> {
+        let other = if walking_hi { lo } else { hi };
+        match parts.get(other).copied().flatten() {
+            Some(o) => divider_member(spec, o.value, walking_hi, ctx),
+            None if walking_hi => divider_first(spec, ctx),
+            None => WalkPlan::free(),
+        }
+    }
+
     /// One divider resistor with the other (`other`) fixed: the offset share exactly, as a
     /// sum of terms with one minimum each ([`unimodal_sum`]), and the values the relaxed
     /// requirements leave (nominal swing, input resistance, divider current), outside of

@@ -4,7 +4,7 @@
 #![allow(dead_code)]
 
 use proptest::prelude::*;
-use proptest::test_runner::TestCaseError;
+use proptest::test_runner::{Config, RngAlgorithm, TestCaseError, TestRng, TestRunner};
 use std::sync::Arc;
 use stockfit::build::Part;
 use stockfit::spec::Spec;
@@ -160,4 +160,31 @@ pub fn cases(default: u32) -> u32 {
         .ok()
         .and_then(|v| v.parse().ok())
         .unwrap_or(default)
+}
+
+/// Run `property` on `n` cases (`STOCKFIT_EXACT_CASES` overrides it) with a fixed ChaCha seed,
+/// so CI sees the same cases every time. The property counts in `found` the cases that had a
+/// build; at least `min_feasible` of every 10 must, so that a comparison is not carried by
+/// empty results.
+pub fn run_property(
+    strategy: impl Strategy<Value = Case>,
+    n: u32,
+    min_feasible: u32,
+    property: impl Fn(&Case, &std::cell::Cell<u32>) -> Result<(), TestCaseError>,
+) {
+    let n = cases(n);
+    let found = std::cell::Cell::new(0);
+    let config = Config {
+        cases: n,
+        failure_persistence: None,
+        ..Config::default()
+    };
+    let mut runner =
+        TestRunner::new_with_rng(config, TestRng::deterministic_rng(RngAlgorithm::ChaCha));
+    runner.run(&strategy, |c| property(&c, &found)).unwrap();
+    assert!(
+        found.get() * 10 >= min_feasible * n,
+        "only {} of {n} cases had a build",
+        found.get()
+    );
 }
