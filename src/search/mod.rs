@@ -579,7 +579,7 @@ impl<'a> Dfs<'a> {
                     // parts only tighten it); the next level's walk tightens it again.
                     let score = acc + own + if lv.last { share } else { 0.0 };
                     let lb = score + if lv.last { 0.0 } else { share };
-                    if self.admits(lb + rest) {
+                    if self.admits(lb + rest) && self.second_can_follow(level, score) {
                         self.descend(level + 1, score);
                     }
                 }
@@ -595,6 +595,28 @@ impl<'a> Dfs<'a> {
                 total: table.reals.len(),
             });
         }
+    }
+
+    /// Before walking the second slot of a pair group: whether its cheapest candidate (a
+    /// bound from a few bisections, `Walk::floor`) can still lead under the bound, with the
+    /// first slot chosen and `score` so far. Most first slots of a large stock are dropped
+    /// here, for much less than a walk costs.
+    fn second_can_follow(&mut self, level: usize, score: f64) -> bool {
+        let Some(&next) = self.levels.get(level + 1) else {
+            return true;
+        };
+        if next.k == 0 || self.locked[next.slot].is_some() {
+            return true;
+        }
+        let ki = kind_index(self.req.stage.slots()[next.slot].kind);
+        let table = self.tables[ki].expect("table");
+        let plan = self
+            .req
+            .stage
+            .walk(self.req.spec, next.group, next.k, &self.vals);
+        let rest = self.rest_static[level + 2] + self.lines_lb(level + 2, Some(ki));
+        let floor = Walk::floor(table, &plan, &self.used[ki], self.bound() - score - rest);
+        self.admits(score + floor + rest)
     }
 
     /// The score a node must stay under: the N-th best build so far, and this round's cut.

@@ -448,6 +448,76 @@ impl<'t, 's> Walk<'t, 's> {
         (self.plan.bound)(item.real.coord(self.coord), item.up)
     }
 
+    /// A lower bound of the first key a walk of `table` by `plan` would yield, without
+    /// building it — each fresh run's key where the walk would start it, each partner run's
+    /// least points, each explicit candidate's points and bound — or any value below `limit`
+    /// once one is found. The search asks it of a pair's second slot before walking it, to
+    /// drop a first slot that nothing can follow for the price of a few bisections.
+    pub fn floor(table: &Table, plan: &WalkPlan, used: &[u32], limit: f64) -> f64 {
+        let coord = plan.coord;
+        let target = plan.target;
+        let lambda = table.line_cost();
+        // Only whether some key falls below `limit` matters: stop at the first that does, and
+        // read no bound where the points alone reach it (they are then the bound returned,
+        // which stays a lower bound).
+        let mut floor = f64::INFINITY;
+        let read = |pts: f64, at: f64, up: bool, floor: &mut f64| {
+            if pts >= limit {
+                *floor = floor.min(pts);
+            } else if let Some(b) = (plan.bound)(at, up) {
+                *floor = floor.min(pts + b);
+            }
+        };
+        for run in table.fresh(coord) {
+            if run.is_empty() {
+                continue;
+            }
+            if run.up[0] >= limit {
+                floor = floor.min(run.up[0]);
+                continue;
+            }
+            let p = run.start(target);
+            if p < run.len() {
+                read(run.up[p], run.coord[p], true, &mut floor);
+            }
+            if p > 0 {
+                read(run.down[p - 1], run.coord[p - 1], false, &mut floor);
+            }
+            if floor < limit {
+                return floor;
+            }
+        }
+        if !table.arrangements.is_empty() {
+            let least = table
+                .partners(coord)
+                .iter()
+                .filter_map(|r| r.up.first().copied())
+                .fold(f64::INFINITY, f64::min);
+            for &u in used {
+                floor = floor.min(table.pieces[u as usize].pts_lb + least + lambda);
+            }
+            if floor < limit {
+                return floor;
+            }
+        }
+        let kind = table.kind;
+        for (x, &i) in used.iter().enumerate() {
+            let (ci, pi) = (table.piece_coord(i, coord), table.pieces[i as usize].pts_lb);
+            read(pi, ci, ci >= target, &mut floor);
+            for &j in &used[x..] {
+                let (cj, pj) = (table.piece_coord(j, coord), table.pieces[j as usize].pts_lb);
+                for &arr in table.arrangements {
+                    let c = crate::build::combine(kind, arr, ci, cj);
+                    read(pi + pj, c, c >= target, &mut floor);
+                }
+            }
+            if floor < limit {
+                return floor;
+            }
+        }
+        floor
+    }
+
     /// True when every run has ended (none was left out at the start).
     pub fn exhausted(&self) -> bool {
         self.heap.is_empty() && self.pending.is_empty() && !self.dropped

@@ -1062,6 +1062,23 @@ pub(crate) mod plans {
         let w_off = spec.goals.offset / 0.1;
         let b = spec.amplifier.input_bias_current;
         let c = spec.amplifier.input_offset_current / 2.0;
+        if comp.is_none() {
+            // The gain points alone: V-shaped about `mode`, so the clamped read is the gain
+            // at max(v, mode) going up, min(v, mode) going down.
+            return WalkPlan {
+                coord: Coord::Value,
+                target: mode,
+                bound: Box::new(move |v, up| {
+                    let gain = form.gain(v, r_other);
+                    if (up && gain > g_hi) || (!up && gain < g_lo) {
+                        return None;
+                    }
+                    let at = if up { v.max(mode) } else { v.min(mode) };
+                    let g = form.gain(at, r_other).copysign(spec.gain);
+                    Some(safe(common::gain_points(spec, g)))
+                }),
+            };
+        }
         WalkPlan {
             coord: Coord::Value,
             target: mode,
