@@ -337,7 +337,8 @@ impl Table {
             merged: Default::default(),
         };
         let n = table.pieces.len();
-        let mut reals = Vec::new();
+        // Every pair at most, so the list is never moved while it grows.
+        let mut reals = Vec::with_capacity(n + arrangements.len() * n * (n + 1) / 2);
         for i in 0..n {
             reals.push(table.single(spec, i as u32));
         }
