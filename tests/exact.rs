@@ -93,3 +93,31 @@ fn series_pairs_match_brute_force() {
 fn both_pairs_match_brute_force() {
     check(case_strategy("both", 2, 1), 10, 1);
 }
+
+/// A fixed case whose scores are exact decimal sums (costs of 0.05, weights of 0.1), where a
+/// bound can equal the N-th best to the last bit: a search that turned such a tie into a cut
+/// lost builds (the quantity trap of tests/data/cli-qty-one-10k.*, top 5).
+#[test]
+fn ties_at_the_cut_keep_every_build() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data");
+    let spec = std::fs::read_to_string(root.join("cli-qty-one-10k.toml")).unwrap();
+    let spec = spec
+        .lines()
+        .filter(|l| !l.starts_with("resistors") && !l.starts_with("capacitors"))
+        .collect::<Vec<_>>()
+        .join("\n");
+    let csv = std::fs::read_to_string(root.join("cli-qty-one-10k.csv")).unwrap();
+    let case = Case {
+        spec_toml: spec,
+        csv: csv
+            .lines()
+            .filter(|l| !l.starts_with('#'))
+            .collect::<Vec<_>>()
+            .join("\n"),
+        lock: None,
+        top: 5,
+    };
+    let found = std::cell::Cell::new(0);
+    run_case(&case, &found).unwrap();
+    assert_eq!(found.get(), 1, "the fixed case has builds");
+}

@@ -450,8 +450,9 @@ impl<'t, 's> Walk<'t, 's> {
 
     /// A lower bound of the first key a walk of `table` by `plan` would yield, without
     /// building it — each fresh run's key where the walk would start it, each partner run's
-    /// least points, each explicit candidate's points and bound — or any value below `limit`
-    /// once one is found. The search asks it of a pair's second slot before walking it, to
+    /// least points, each explicit candidate's points and bound — or −∞ as soon as one key
+    /// below `limit` is found (then only "something may follow" matters, and −∞ says so
+    /// whatever rounding the caller's own sum takes). The search asks it of a pair's second slot before walking it, to
     /// drop a first slot that nothing can follow for the price of a few bisections.
     pub fn floor(table: &Table, plan: &WalkPlan, used: &[u32], limit: f64) -> f64 {
         let coord = plan.coord;
@@ -484,7 +485,7 @@ impl<'t, 's> Walk<'t, 's> {
                 read(run.down[p - 1], run.coord[p - 1], false, &mut floor);
             }
             if floor < limit {
-                return floor;
+                return f64::NEG_INFINITY;
             }
         }
         if !table.arrangements.is_empty() {
@@ -497,7 +498,7 @@ impl<'t, 's> Walk<'t, 's> {
                 floor = floor.min(table.pieces[u as usize].pts_lb + least + lambda);
             }
             if floor < limit {
-                return floor;
+                return f64::NEG_INFINITY;
             }
         }
         let kind = table.kind;
@@ -512,7 +513,7 @@ impl<'t, 's> Walk<'t, 's> {
                 }
             }
             if floor < limit {
-                return floor;
+                return f64::NEG_INFINITY;
             }
         }
         floor
