@@ -565,7 +565,7 @@ impl<'a> Dfs<'a> {
             let real = item.real;
             let (fits, new_lines) = self.take(ki, &real);
             if fits {
-                self.vals[lv.slot] = Some(real.slot_value());
+                self.vals[lv.slot] = Some(table.slot_value(&real));
                 self.chosen[lv.slot] = Some(real);
                 let share = if lv.last {
                     stage.group_partial(spec, lv.group, &self.vals)

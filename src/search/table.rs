@@ -22,14 +22,14 @@ use std::collections::HashMap;
 /// No second piece.
 pub const NONE: u32 = u32::MAX;
 
-/// One realisation of a slot: one piece, or two in series or in parallel.
+/// One realisation of a slot: one piece, or two in series or in parallel. Kept small (the
+/// upper end of its tolerance and its voltage rating are worked out from its pieces when a
+/// node needs them, `Table::slot_value`), since there can be a few hundred thousand.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Real {
     pub value: f64,
+    /// The low end of its tolerance (`Part::min`).
     pub min: f64,
-    pub max: f64,
-    /// Capacitor voltage rating (`Part::voltage_rating`), `None` for resistors or unknown.
-    pub rating: Option<f64>,
     /// `analysis::slot_points` of the realisation.
     pub pts: f64,
     /// Pieces by index into [`Table::pieces`]; `a ≤ b` (value order), `b == NONE` for one.
@@ -39,15 +39,6 @@ pub struct Real {
 }
 
 impl Real {
-    pub fn slot_value(&self) -> SlotValue {
-        SlotValue {
-            value: self.value,
-            min: self.min,
-            max: self.max,
-            rating: self.rating,
-        }
-    }
-
     pub fn coord(&self, coord: Coord) -> f64 {
         match coord {
             Coord::Value => self.value,
@@ -361,10 +352,6 @@ impl Table {
         Real {
             value: p.value,
             min: p.min(),
-            max: p.max(),
-            rating: (self.kind == PartKind::Capacitor)
-                .then_some(p.voltage)
-                .flatten(),
             pts: analysis::pieces_points(spec, self.kind, p, None, false),
             a: i,
             b: NONE,
@@ -389,12 +376,6 @@ impl Table {
         Some(Real {
             value,
             min: build::combine(self.kind, arr, a.min(), b.min()),
-            max: build::combine(self.kind, arr, a.max(), b.max()),
-            rating: if self.kind == PartKind::Capacitor {
-                build::voltage_rating(self.kind, arr, a, Some(b))
-            } else {
-                None
-            },
             pts: analysis::pieces_points(spec, self.kind, a, Some(b), false),
             a: i,
             b: j,
@@ -434,6 +415,31 @@ impl Table {
             fresh: Default::default(),
             partners: Default::default(),
             merged: Default::default(),
+        }
+    }
+
+    /// What the stage's equations see of a realisation: the same figures `Part::slot_value`
+    /// gives for its part (the same functions compute them).
+    pub fn slot_value(&self, r: &Real) -> SlotValue {
+        let a = &self.pieces[r.a as usize].piece;
+        let (max, rating) = if r.b == NONE {
+            (a.max(), a.voltage)
+        } else {
+            let b = &self.pieces[r.b as usize].piece;
+            (
+                build::combine(self.kind, r.arr, a.max(), b.max()),
+                build::voltage_rating(self.kind, r.arr, a, Some(b)),
+            )
+        };
+        SlotValue {
+            value: r.value,
+            min: r.min,
+            max,
+            rating: if self.kind == PartKind::Capacitor {
+                rating
+            } else {
+                None
+            },
         }
     }
 
@@ -551,7 +557,7 @@ mod tests {
                 for r in &table.reals {
                     let part = table.part(r);
                     assert_eq!(r.pts, analysis::slot_points(&spec, &part));
-                    assert_eq!(r.slot_value(), part.slot_value());
+                    assert_eq!(table.slot_value(r), part.slot_value());
                 }
             }
         }
