@@ -168,6 +168,16 @@ fn check_plans(
                             full[group[k + 1]] = Some(c);
                         }
                         let share = stage.group_partial(spec, g, &full);
+                        let outside = coord(v) < plan.window.0 || coord(v) > plan.window.1;
+                        if outside && share.is_some() {
+                            return Err(TestCaseError::fail(format!(
+                                "{} slot {} (group {g}): {} is outside the plan's window {:?} but the group passes",
+                                stage.kind().name(),
+                                slots[slot].name,
+                                coord(v),
+                                plan.window
+                            )));
+                        }
                         match (b, share) {
                             (None, Some(s)) => {
                                 return Err(TestCaseError::fail(format!(

@@ -294,6 +294,9 @@ impl<'t, 's> Walk<'t, 's> {
     /// Push one explicit candidate at coordinate `c`, built by `make` only when the stage's
     /// bound lets it through.
     fn offer_explicit(&mut self, c: f64, make: impl FnOnce(&Table) -> Option<Real>) {
+        if c < self.plan.window.0 || c > self.plan.window.1 {
+            return;
+        }
         let up = c >= self.plan.target;
         let Some(bound) = (self.plan.bound)(c, up) else {
             return;
@@ -347,6 +350,10 @@ impl<'t, 's> Walk<'t, 's> {
             }
             Run::Explicit { .. } => unreachable!("explicit items are pushed once"),
         };
+        // Past the window on the walk's side, this and every farther value fail.
+        if (up && c > self.plan.window.1) || (!up && c < self.plan.window.0) {
+            return None;
+        }
         let bound = (self.plan.bound)(c, up)?;
         Some(Head {
             key: pts + bound,
@@ -462,9 +469,12 @@ impl<'t, 's> Walk<'t, 's> {
         // read no bound where the points alone reach it (they are then the bound returned,
         // which stays a lower bound).
         let mut floor = f64::INFINITY;
+        let (lo, hi) = plan.window;
         let read = |pts: f64, at: f64, up: bool, floor: &mut f64| {
             if pts >= limit {
                 *floor = floor.min(pts);
+            } else if at < lo || at > hi {
+                // Fails a requirement: no key.
             } else if let Some(b) = (plan.bound)(at, up) {
                 *floor = floor.min(pts + b);
             }

@@ -343,12 +343,20 @@ pub struct WalkPlan<'s> {
     pub coord: Coord,
     pub target: f64,
     pub bound: BoundFn<'s>,
+    /// Every candidate whose coordinate is outside `[window.0, window.1]` fails a requirement
+    /// (whichever side of the target it is on), so the search can drop it without asking
+    /// `bound`; `ANY` when the plan knows no such interval.
+    pub window: (f64, f64),
 }
+
+/// The window of a plan that knows none (see [`WalkPlan::window`]).
+pub const ANY: (f64, f64) = (f64::NEG_INFINITY, f64::INFINITY);
 
 impl WalkPlan<'static> {
     /// No preference: every candidate, cheapest first (a walk up from the bottom).
     pub fn free() -> WalkPlan<'static> {
         WalkPlan {
+            window: ANY,
             coord: Coord::Value,
             target: 0.0,
             bound: Box::new(|_, _| Some(0.0)),
@@ -364,6 +372,7 @@ impl WalkPlan<'static> {
             min * (1.0 - common::SLACK)
         };
         WalkPlan {
+            window: ANY,
             coord,
             target,
             bound: Box::new(move |v, up| (up && v >= target).then_some(0.0)),
@@ -374,6 +383,7 @@ impl WalkPlan<'static> {
     pub fn at_most(coord: Coord, max: f64) -> WalkPlan<'static> {
         let target = max * (1.0 + common::SLACK);
         WalkPlan {
+            window: ANY,
             coord,
             target,
             bound: Box::new(move |v, up| (!up || v <= target).then_some(0.0)),
@@ -798,7 +808,7 @@ pub fn needed_capacitance_after(spec: &Spec, r: f64, spent: f64) -> Option<f64> 
 /// Walk plans shared by the single-supply stages: the bias divider and the gain pair.
 pub(crate) mod plans {
     use super::common::{self, SLACK};
-    use super::{two_v_floor, unimodal_sum, Coord, Term, WalkPlan};
+    use super::{two_v_floor, unimodal_sum, Coord, Term, WalkPlan, ANY};
     use crate::spec::Spec;
 
     /// A bound never above the exact share despite rounding in its own arithmetic.
@@ -854,6 +864,7 @@ pub(crate) mod plans {
         let floor = ctx.rp_min.map_or(0.0, |m| m * (1.0 - SLACK));
         match ctx.r_fb {
             Some(r) => WalkPlan {
+                window: ANY,
                 coord: Coord::Value,
                 target: (r / k).max(floor),
                 bound: Box::new(move |h, up| {
@@ -864,6 +875,7 @@ pub(crate) mod plans {
                 }),
             },
             None => WalkPlan {
+                window: ANY,
                 coord: Coord::Value,
                 target: spec.stock.resistor_range.1 * (1.0 + 1e-9),
                 bound: Box::new(move |h, up| (up || h >= floor).then_some(0.0)),
@@ -976,6 +988,7 @@ pub(crate) mod plans {
         let mode_comp = r_fb.map_or(f64::INFINITY, v_of_rp);
         let target = mode_ratio.clamp(lower.min(upper), upper.max(lower.min(upper)));
         WalkPlan {
+            window: ANY,
             coord: Coord::Value,
             target,
             bound: Box::new(move |v, up| {
@@ -1059,6 +1072,12 @@ pub(crate) mod plans {
     ) -> WalkPlan<'s> {
         let (g_lo, g_hi) = gain_window(spec);
         let mode = form.r_fb_for(spec.gain.abs(), r_other);
+        // The gain rises with r_fb: the window of r_fb values whose gain is inside the
+        // window (a hair wider, so rounding never drops one the bound would pass).
+        let window = (
+            form.r_fb_for(g_lo, r_other) * (1.0 - 1e-9),
+            form.r_fb_for(g_hi, r_other) * (1.0 + 1e-9),
+        );
         let w_off = spec.goals.offset / 0.1;
         let b = spec.amplifier.input_bias_current;
         let c = spec.amplifier.input_offset_current / 2.0;
@@ -1066,6 +1085,7 @@ pub(crate) mod plans {
             // The gain points alone: V-shaped about `mode`, so the clamped read is the gain
             // at max(v, mode) going up, min(v, mode) going down.
             return WalkPlan {
+                window,
                 coord: Coord::Value,
                 target: mode,
                 bound: Box::new(move |v, up| {
@@ -1080,6 +1100,7 @@ pub(crate) mod plans {
             };
         }
         WalkPlan {
+            window,
             coord: Coord::Value,
             target: mode,
             bound: Box::new(move |v, up| {
@@ -1126,6 +1147,7 @@ pub(crate) mod plans {
                     + spec.amplifier.input_offset_current / 2.0 * r_fb)
         });
         WalkPlan {
+            window: ANY,
             coord: Coord::Value,
             target: mode.max(floor),
             bound: Box::new(move |v, up| {
@@ -1167,6 +1189,7 @@ pub(crate) mod plans {
         let g = spec.gain.abs();
         match comp {
             None => WalkPlan {
+                window: ANY,
                 coord: Coord::Value,
                 target: top.max(floor),
                 bound: Box::new(move |v, up| {
@@ -1184,6 +1207,7 @@ pub(crate) mod plans {
                     f64::INFINITY
                 };
                 WalkPlan {
+                    window: ANY,
                     coord: Coord::Value,
                     target: mode.clamp(floor.min(top), top.max(floor)),
                     bound: Box::new(move |v, up| {
