@@ -12,7 +12,9 @@
 //! targets closes the output.
 //!
 //! Environment: `STOCKFIT_BENCH_BUDGET` (seconds, default 60; 15 in test mode) caps the single
-//! run of each case.
+//! run of each case; `STOCKFIT_BENCH_CHILD=<case>` runs one case once in this process, and
+//! `STOCKFIT_BENCH_REPEAT=n` repeats its search n times first and prints the median (for a
+//! profiler, or a quick comparison of two builds).
 //!
 //! All specs and the inventory are invented for these benchmarks.
 
@@ -351,6 +353,27 @@ fn scores(o: &Outcome) -> Vec<f64> {
 /// The child: run one case once, check it, print its figures.
 fn child(case: Case) {
     let p = prepare(case);
+    // `STOCKFIT_BENCH_REPEAT=n` runs the search n more times first, for a profiler
+    // (`perf record` on the child) to see the search rather than the set-up.
+    let repeat: usize = std::env::var("STOCKFIT_BENCH_REPEAT")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(0);
+    if repeat > 0 {
+        let mut times: Vec<f64> = (0..repeat)
+            .map(|_| {
+                let start = Instant::now();
+                std::hint::black_box(p.search());
+                start.elapsed().as_secs_f64()
+            })
+            .collect();
+        times.sort_by(f64::total_cmp);
+        println!(
+            "{TAG} note {repeat} repeats: median {}, fastest {}",
+            seconds(times[repeat / 2]),
+            seconds(times[0])
+        );
+    }
     let start = Instant::now();
     let fast = p.search();
     let search_s = start.elapsed().as_secs_f64();

@@ -369,8 +369,8 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
     // compete with every other).
     if req.stock.combine != Combine::Single {
         let singles: [Option<Table>; 2] = [
-            owned[0].as_ref().map(Table::singles),
-            owned[1].as_ref().map(Table::singles),
+            owned[0].as_ref().map(|t| t.singles(spec)),
+            owned[1].as_ref().map(|t| t.singles(spec)),
         ];
         let seed = [singles[0].as_ref(), singles[1].as_ref()];
         top = explore(req, &locked, seed, top, &mut stats, &mut |_| {}, false);

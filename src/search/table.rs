@@ -75,9 +75,11 @@ pub struct Sorted {
     pub down: Vec<f64>,
 }
 
-/// A stable radix sort of 64-bit words by their upper 32 bits, a byte at a time, skipping the
-/// bytes every word shares.
+/// A stable radix sort of 64-bit words by their upper 32 bits, 11 bits at a time (three
+/// passes), skipping the digits every word shares.
 fn radix_sort_high(words: Vec<u64>) -> Vec<u64> {
+    const DIGIT: u32 = 11;
+    const MASK: usize = (1 << DIGIT) - 1;
     if words.len() < 512 {
         let mut words = words;
         words.sort_by_key(|w| w >> 32);
@@ -85,11 +87,11 @@ fn radix_sort_high(words: Vec<u64>) -> Vec<u64> {
     }
     let mut src = words;
     let mut dst = vec![0u64; src.len()];
-    for pass in 4..8 {
-        let shift = pass * 8;
-        let mut count = [0usize; 256];
+    for pass in 0..3 {
+        let shift = 32 + pass * DIGIT;
+        let mut count = [0usize; 1 << DIGIT];
         for w in &src {
-            count[(w >> shift) as usize & 0xff] += 1;
+            count[(w >> shift) as usize & MASK] += 1;
         }
         if count.contains(&src.len()) {
             continue;
@@ -101,7 +103,7 @@ fn radix_sort_high(words: Vec<u64>) -> Vec<u64> {
             at += n;
         }
         for &w in &src {
-            let d = (w >> shift) as usize & 0xff;
+            let d = (w >> shift) as usize & MASK;
             dst[count[d]] = w;
             count[d] += 1;
         }
@@ -114,6 +116,57 @@ fn radix_sort_high(words: Vec<u64>) -> Vec<u64> {
 fn order_bits(x: f64) -> u64 {
     debug_assert!(x >= 0.0);
     x.to_bits()
+}
+
+/// A realisation's code: its arrangement and its pieces, packed so that codes order as the
+/// realisations are made (single pieces, then series pairs, then parallel pairs, each by
+/// first piece then second).
+fn code(arr: Arrangement, a: u32, b: u32) -> u64 {
+    let arr = match arr {
+        Arrangement::Single => 0u64,
+        Arrangement::Series => 1,
+        Arrangement::Parallel => 2,
+    };
+    arr << 62 | (a as u64) << 31 | (b as u64 & 0x7fff_ffff)
+}
+
+/// The second piece of a single piece in a small code.
+const SMALL_NONE: u32 = 0x7fff;
+
+/// A code in 32 bits for a table of fewer than 32 767 pieces, ordered as the full code.
+fn small_code(code: u64) -> u32 {
+    let (_, a, b) = decode(code);
+    let b = if b == NONE { SMALL_NONE } else { b };
+    ((code >> 62) as u32) << 30 | a << 15 | b
+}
+
+fn from_small(small: u32) -> u64 {
+    let arr = match small >> 30 {
+        0 => Arrangement::Single,
+        1 => Arrangement::Series,
+        _ => Arrangement::Parallel,
+    };
+    let a = small >> 15 & SMALL_NONE;
+    let b = small & SMALL_NONE;
+    code(arr, a, if b == SMALL_NONE { NONE } else { b })
+}
+
+fn code_of(r: &Real) -> u64 {
+    code(r.arr, r.a, r.b)
+}
+
+fn decode(code: u64) -> (Arrangement, u32, u32) {
+    let arr = match code >> 62 {
+        0 => Arrangement::Single,
+        1 => Arrangement::Series,
+        _ => Arrangement::Parallel,
+    };
+    let a = (code >> 31 & 0x7fff_ffff) as u32;
+    let b = match arr {
+        Arrangement::Single => NONE,
+        _ => (code & 0x7fff_ffff) as u32,
+    };
+    (arr, a, b)
 }
 
 impl Sorted {
@@ -144,22 +197,28 @@ impl Sorted {
                 j -= 1;
             }
         }
-        let n = order.len();
+        let keys: Vec<f64> = order.iter().map(|&i| key[i as usize]).collect();
+        Sorted::with_minima(order, coords, &keys)
+    }
+
+    /// A run of `ids` already in order, with `coord` and `key` by position.
+    fn with_minima(ids: Vec<u32>, coord: Vec<f64>, key: &[f64]) -> Sorted {
+        let n = ids.len();
         let mut up = vec![0.0; n];
         let mut down = vec![0.0; n];
         let mut m = f64::INFINITY;
         for i in (0..n).rev() {
-            m = m.min(key[order[i] as usize]);
+            m = m.min(key[i]);
             up[i] = m;
         }
         m = f64::INFINITY;
         for i in 0..n {
-            m = m.min(key[order[i] as usize]);
+            m = m.min(key[i]);
             down[i] = m;
         }
         Sorted {
-            ids: order,
-            coord: coords,
+            ids,
+            coord,
             up,
             down,
         }
@@ -183,10 +242,22 @@ impl Sorted {
 /// close to the true key: at most `MAX_BUCKETS` buckets, each at most `width` wide, the width
 /// doubling from 0.01 points until they fit; each bucket sorted by coordinate.
 fn bucketed(coord: &[f64], key: &[f64]) -> Vec<Sorted> {
+    let (count, bucket) = buckets_of(key);
+    let mut parts: Vec<Vec<u32>> = count.iter().map(|&c| Vec::with_capacity(c)).collect();
+    for (i, &b) in bucket.iter().enumerate() {
+        parts[b as usize].push(i as u32);
+    }
+    parts
+        .into_iter()
+        .map(|ids| Sorted::new(ids, coord, key))
+        .collect()
+}
+
+/// The buckets of [`bucketed`]: how many keys fall in each, and the bucket of each key.
+fn buckets_of(key: &[f64]) -> (Vec<usize>, Vec<u8>) {
     const MAX_BUCKETS: usize = 24;
-    let n = key.len();
-    if n == 0 {
-        return Vec::new();
+    if key.is_empty() {
+        return (Vec::new(), Vec::new());
     }
     // The distinct keys; a stock usually has few (series resistors: single, twin, pair), so
     // a short sorted list grown by bisection, and a sort only when there are many.
@@ -221,22 +292,23 @@ fn bucketed(coord: &[f64], key: &[f64]) -> Vec<Sorted> {
         }
         width *= 2.0;
     };
+    // Runs of equal keys are long (realisations are made piece by piece): reuse the last
+    // bucket while the key repeats.
+    let mut last = (f64::NAN.to_bits(), 0u8);
     let bucket: Vec<u8> = key
         .iter()
-        .map(|&k| (starts.partition_point(|&s| s <= k) - 1) as u8)
+        .map(|&k| {
+            if k.to_bits() != last.0 {
+                last = (k.to_bits(), (starts.partition_point(|&s| s <= k) - 1) as u8);
+            }
+            last.1
+        })
         .collect();
     let mut count = vec![0usize; starts.len()];
     for &b in &bucket {
         count[b as usize] += 1;
     }
-    let mut parts: Vec<Vec<u32>> = count.iter().map(|&c| Vec::with_capacity(c)).collect();
-    for (i, &b) in bucket.iter().enumerate() {
-        parts[b as usize].push(i as u32);
-    }
-    parts
-        .into_iter()
-        .map(|ids| Sorted::new(ids, coord, key))
-        .collect()
+    (count, bucket)
 }
 
 /// One stock piece with what the search reads of it.
@@ -328,23 +400,113 @@ impl Table {
             merged: Default::default(),
         };
         let n = table.pieces.len();
-        // Every pair at most, so the list is never moved while it grows.
-        let mut reals = Vec::with_capacity(n + arrangements.len() * n * (n + 1) / 2);
-        for i in 0..n {
-            reals.push(table.single(spec, i as u32));
+        // First each realisation's code (which pieces, how), value and fresh-run key, in the
+        // order they are made; then `lay_out` sorts them and builds the records. Every pair
+        // at most is reserved, so the lists are never moved while they grow.
+        let cap = n + arrangements.len() * n * (n + 1) / 2;
+        let mut codes = Vec::with_capacity(cap);
+        let mut values = Vec::with_capacity(cap);
+        let mut keys = Vec::with_capacity(cap);
+        let lambda = table.lambda;
+        let mut push = |r: Real, code: u64| {
+            codes.push(code);
+            values.push(r.value);
+            keys.push(r.pts + lambda * r.own_lines() as f64);
+        };
+        for i in 0..n as u32 {
+            push(table.single(spec, i), code(Arrangement::Single, i, NONE));
         }
         for &arr in arrangements {
-            for i in 0..n {
-                for j in i..n {
-                    if let Some(r) = table.pair(spec, arr, i as u32, j as u32) {
-                        reals.push(r);
+            for i in 0..n as u32 {
+                for j in i..n as u32 {
+                    if let Some(r) = table.pair(spec, arr, i, j) {
+                        push(r, code(arr, i, j));
                     }
                 }
             }
         }
-        table.min_pts = reals.iter().map(|r| r.pts).fold(f64::INFINITY, f64::min);
-        table.reals = reals;
+        table.lay_out(spec, codes, values, keys);
         table
+    }
+
+    /// The realisation a code names (it was checked to exist when the code was made).
+    fn real_of(&self, spec: &Spec, code: u64) -> Real {
+        let (arr, i, j) = decode(code);
+        match arr {
+            Arrangement::Single => self.single(spec, i),
+            _ => self
+                .pair(spec, arr, i, j)
+                .expect("a code is made only for a realisation that exists"),
+        }
+    }
+
+    /// Build the realisation records in the order of the fresh runs by value (run after run,
+    /// each by value, ties in the order the realisations were made), and those runs. A walk
+    /// reads a run in sequence from where it starts, so it then reads memory in sequence too;
+    /// records in the order they were made would cost a cache miss per candidate read, most
+    /// of a walk's time on a two-piece E96 table of tens of megabytes. The records are made
+    /// here from their codes (the pieces are few and in cache) rather than gathered from a
+    /// list in the made order, which would cost the same misses once per record. Every other
+    /// run indexes this order.
+    fn lay_out(&mut self, spec: &Spec, codes: Vec<u64>, values: Vec<f64>, keys: Vec<f64>) {
+        // Each bucket's realisations as 8-byte words for the radix sort: the top 32 bits of
+        // the value (an order-preserving, coarser key), and the code itself in the low 32
+        // bits when it fits (up to 32 766 pieces), else the index of the code in the bucket's
+        // list. With the code in the word, the sorted words name their records directly and
+        // nothing is gathered out of order.
+        let compact = self.pieces.len() < SMALL_NONE as usize;
+        let (count, bucket) = buckets_of(&keys);
+        let mut local: Vec<(Vec<u64>, Vec<u64>)> = count
+            .iter()
+            .map(|&c| (Vec::with_capacity(c), Vec::new()))
+            .collect();
+        for (k, &b) in bucket.iter().enumerate() {
+            let (words, full) = &mut local[b as usize];
+            let low = if compact {
+                small_code(codes[k]) as u64
+            } else {
+                full.push(codes[k]);
+                (full.len() - 1) as u64
+            };
+            words.push((order_bits(values[k]) >> 32) << 32 | low);
+        }
+        drop((codes, values, keys, bucket));
+        let mut reals: Vec<Real> = Vec::with_capacity(count.iter().sum());
+        let mut runs = Vec::with_capacity(local.len());
+        for (words, full) in local {
+            let start = reals.len();
+            for w in radix_sort_high(words) {
+                let code = if compact {
+                    from_small(w as u32)
+                } else {
+                    full[w as u32 as usize]
+                };
+                reals.push(self.real_of(spec, code));
+            }
+            // Ties of the coarse key by exact value, then by code (the made order).
+            let run = &mut reals[start..];
+            for i in 1..run.len() {
+                let mut j = i;
+                while j > 0 && {
+                    let (a, b) = (&run[j], &run[j - 1]);
+                    a.value < b.value || (a.value == b.value && code_of(a) < code_of(b))
+                } {
+                    run.swap(j, j - 1);
+                    j -= 1;
+                }
+            }
+            let ids: Vec<u32> = (start as u32..(start + run.len()) as u32).collect();
+            let coord: Vec<f64> = run.iter().map(|r| r.value).collect();
+            let key: Vec<f64> = run
+                .iter()
+                .map(|r| r.pts + self.lambda * r.own_lines() as f64)
+                .collect();
+            runs.push(Sorted::with_minima(ids, coord, &key));
+        }
+        self.min_pts = reals.iter().map(|r| r.pts).fold(f64::INFINITY, f64::min);
+        self.reals = reals;
+        // A new table's cell is empty.
+        let _ = self.fresh[coord_index(Coord::Value)].set(runs);
     }
 
     fn single(&self, spec: &Spec, i: u32) -> Real {
@@ -401,13 +563,13 @@ impl Table {
     }
 
     /// The same stock with single pieces only (a seed for the search).
-    pub fn singles(&self) -> Table {
+    pub fn singles(&self, spec: &Spec) -> Table {
         let reals: Vec<Real> = self.reals.iter().filter(|r| r.b == NONE).copied().collect();
-        Table {
+        let mut table = Table {
             kind: self.kind,
             pieces: self.pieces.clone(),
-            min_pts: reals.iter().map(|r| r.pts).fold(f64::INFINITY, f64::min),
-            reals,
+            min_pts: f64::INFINITY,
+            reals: Vec::new(),
             by_line: self.by_line.clone(),
             arrangements: &[],
             range: self.range,
@@ -415,7 +577,15 @@ impl Table {
             fresh: Default::default(),
             partners: Default::default(),
             merged: Default::default(),
-        }
+        };
+        let codes = reals.iter().map(code_of).collect();
+        let values = reals.iter().map(|r| r.value).collect();
+        let keys = reals
+            .iter()
+            .map(|r| r.pts + table.lambda * r.own_lines() as f64)
+            .collect();
+        table.lay_out(spec, codes, values, keys);
+        table
     }
 
     /// What the stage's equations see of a realisation: the same figures `Part::slot_value`
