@@ -323,6 +323,8 @@ struct Dfs<'a> {
     progress: &'a mut dyn FnMut(Progress),
     /// The search over the whole stock (not the single-piece seed): it reports progress.
     whole: bool,
+    /// Per level: where `Walk::floor` last found each fresh run's start.
+    hints: Vec<Vec<usize>>,
 }
 
 /// Run the exact search. `progress` is called now and then with how far the first walk is.
@@ -442,6 +444,7 @@ fn explore<'a>(
         rest_static[l] = rest_static[l + 1] + pts;
         rest_kinds[l] = rest_kinds[l + 1] | bits;
     }
+    let n_levels = levels.len();
     let mut dfs = Dfs {
         req,
         tables,
@@ -460,6 +463,7 @@ fn explore<'a>(
         stats: std::mem::take(stats),
         progress,
         whole,
+        hints: vec![Vec::new(); n_levels],
     };
     // Locked parts are on the board: their points and lines count from the start.
     let mut acc = 0.0;
@@ -615,7 +619,14 @@ impl<'a> Dfs<'a> {
             .stage
             .walk(self.req.spec, next.group, next.k, &self.vals);
         let rest = self.rest_static[level + 2] + self.lines_lb(level + 2, Some(ki));
-        let floor = Walk::floor(table, &plan, &self.used[ki], self.bound() - score - rest);
+        let limit = self.bound() - score - rest;
+        let floor = Walk::floor(
+            table,
+            &plan,
+            &self.used[ki],
+            limit,
+            &mut self.hints[level + 1],
+        );
         self.admits(score + floor + rest)
     }
 

@@ -236,6 +236,45 @@ impl Sorted {
     pub fn start(&self, target: f64) -> usize {
         self.coord.partition_point(|&c| c < target)
     }
+
+    /// [`Sorted::start`], searched outward from `hint` by doubling steps, then by bisection
+    /// within the last step: a few reads when the target is near the last one's (the screen of
+    /// a pair's second slot asks it for first slots met one after another in value order).
+    pub fn start_near(&self, target: f64, hint: usize) -> usize {
+        let c = &self.coord;
+        let n = c.len();
+        let h = hint.min(n);
+        let below = |x: &f64| *x < target;
+        if h < n && c[h] < target {
+            // The answer is in (h, n]; c[lo - 1] < target throughout.
+            let (mut lo, mut step) = (h + 1, 1);
+            loop {
+                let probe = lo + step - 1;
+                if probe >= n {
+                    return lo + c[lo..n].partition_point(below);
+                }
+                if c[probe] >= target {
+                    return lo + c[lo..probe].partition_point(below);
+                }
+                lo = probe + 1;
+                step *= 2;
+            }
+        } else {
+            // The answer is in [0, hi]; every position from hi on is ≥ target.
+            let (mut hi, mut step) = (h, 1);
+            loop {
+                if hi < step {
+                    return c[..hi].partition_point(below);
+                }
+                let probe = hi - step;
+                if c[probe] < target {
+                    return probe + 1 + c[probe + 1..hi].partition_point(below);
+                }
+                hi = probe;
+                step *= 2;
+            }
+        }
+    }
 }
 
 /// Split ids 0..n into buckets of nearly equal key, so that each bucket's walk reads a bound
@@ -592,24 +631,26 @@ impl Table {
     /// gives for its part (the same functions compute them).
     pub fn slot_value(&self, r: &Real) -> SlotValue {
         let a = &self.pieces[r.a as usize].piece;
+        let capacitor = self.kind == PartKind::Capacitor;
         let (max, rating) = if r.b == NONE {
             (a.max(), a.voltage)
         } else {
             let b = &self.pieces[r.b as usize].piece;
             (
                 build::combine(self.kind, r.arr, a.max(), b.max()),
-                build::voltage_rating(self.kind, r.arr, a, Some(b)),
+                // Only a capacitor's rating is read (and this is asked at every node).
+                if capacitor {
+                    build::voltage_rating(self.kind, r.arr, a, Some(b))
+                } else {
+                    None
+                },
             )
         };
         SlotValue {
             value: r.value,
             min: r.min,
             max,
-            rating: if self.kind == PartKind::Capacitor {
-                rating
-            } else {
-                None
-            },
+            rating: if capacitor { rating } else { None },
         }
     }
 
@@ -731,6 +772,30 @@ mod tests {
                 }
             }
         }
+    }
+
+    #[test]
+    fn start_near_agrees_with_bisection() {
+        // Every target (on, between and beyond the values, with ties) from every hint.
+        let coord = vec![1.0, 2.0, 2.0, 2.0, 3.5, 4.0, 7.0, 7.0, 9.0, 10.0, 12.0];
+        let s = Sorted {
+            ids: (0..coord.len() as u32).collect(),
+            up: vec![0.0; coord.len()],
+            down: vec![0.0; coord.len()],
+            coord,
+        };
+        for t in 0..30 {
+            let target = t as f64 * 0.5;
+            for hint in 0..=s.len() + 2 {
+                assert_eq!(
+                    s.start_near(target, hint),
+                    s.start(target),
+                    "target {target}, hint {hint}"
+                );
+            }
+        }
+        let empty = Sorted::default();
+        assert_eq!(empty.start_near(1.0, 3), 0);
     }
 
     #[test]

@@ -461,7 +461,16 @@ impl<'t, 's> Walk<'t, 's> {
     /// below `limit` is found (then only "something may follow" matters, and −∞ says so
     /// whatever rounding the caller's own sum takes). The search asks it of a pair's second slot before walking it, to
     /// drop a first slot that nothing can follow for the price of a few bisections.
-    pub fn floor(table: &Table, plan: &WalkPlan, used: &[u32], limit: f64) -> f64 {
+    ///
+    /// `hints` keeps, per fresh run, where the last such call found its start; successive
+    /// calls for nearby targets then read a few positions instead of bisecting the run.
+    pub fn floor(
+        table: &Table,
+        plan: &WalkPlan,
+        used: &[u32],
+        limit: f64,
+        hints: &mut Vec<usize>,
+    ) -> f64 {
         let coord = plan.coord;
         let target = plan.target;
         let lambda = table.line_cost();
@@ -479,7 +488,9 @@ impl<'t, 's> Walk<'t, 's> {
                 *floor = floor.min(pts + b);
             }
         };
-        for run in table.fresh(coord) {
+        let runs = table.fresh(coord);
+        hints.resize(runs.len(), 0);
+        for (run, hint) in runs.iter().zip(hints.iter_mut()) {
             if run.is_empty() {
                 continue;
             }
@@ -487,7 +498,8 @@ impl<'t, 's> Walk<'t, 's> {
                 floor = floor.min(run.up[0]);
                 continue;
             }
-            let p = run.start(target);
+            let p = run.start_near(target, *hint);
+            *hint = p;
             if p < run.len() {
                 read(run.up[p], run.coord[p], true, &mut floor);
             }
