@@ -238,6 +238,8 @@ fn value_text(c: &Check) -> (String, String, String) {
                 "no".into()
             }
         }
+        // A loss of a few µdB is 0.00000x dB: three digits keep it inside the column.
+        Unit::Decibel if v.abs() < 0.01 => format_sig(v, Unit::Decibel, 3),
         unit => format_sig(v, unit, 4),
     };
     let margin = match c.unit {
