@@ -696,6 +696,52 @@ fn the_milp_engine_ranks_the_same_builds() {
     }
 }
 
+/// A stock whose pairs would make more realisations than the search takes is refused at
+/// once, with what to change, by both engines: not minutes of work and gigabytes of memory.
+/// The inventory is invented: 1 500 resistor lines (E96 values over 10 Ω–10 MΩ, in several
+/// tolerances), whose series and parallel pairs make over a million realisations.
+#[test]
+fn a_stock_with_too_many_pairs_is_refused_with_advice() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut csv = String::from("kind,value,tolerance,qty\n");
+    let mut lines = 0;
+    'fill: for tol in ["1%", "0.1%", "5%"] {
+        for decade in 1..7 {
+            for i in 0..96 {
+                if lines == 1500 {
+                    break 'fill;
+                }
+                // E96 significant figures, round(100 · 10^(i/96)) (IEC 60063; from memory).
+                let sig = (100.0 * 10f64.powf(i as f64 / 96.0)).round();
+                csv += &format!("resistor,{},{tol},10\n", sig * 10f64.powi(decade) / 100.0);
+                lines += 1;
+            }
+        }
+    }
+    csv += "capacitor,100n,10%,10\ncapacitor,10u,20%,10\n";
+    std::fs::write(dir.path().join("big.csv"), csv).unwrap();
+    let text = std::fs::read_to_string(data("cli-engines.toml"))
+        .unwrap()
+        .replace("cli-small-stock.csv", "big.csv")
+        + "combine = \"both\"\nresistor_range = [\"10\", \"10M\"]\n";
+    let spec = temp_spec(&dir, "big.toml", &text);
+    for engine in ["walk", "milp"] {
+        let r = run(&["pick", p(&spec), "--engine", engine, "--quiet"]);
+        r.expect_code(
+            2,
+            &format!("pick --engine {engine} on 1 500 lines, combine both"),
+        );
+        assert!(
+            r.stderr.contains("more than 1000000 resistor realisations")
+                && r.stderr.contains("1500 resistor lines")
+                && r.stderr.contains("combine = \"single\""),
+            "{}",
+            r.stderr
+        );
+        assert!(r.stdout.is_empty(), "{}", r.stdout);
+    }
+}
+
 #[test]
 fn an_unknown_engine_exits_2() {
     let spec = data("cli-qty-one-10k.toml");

@@ -77,6 +77,17 @@ pub enum SearchError {
         kind: String,
         range: String,
     },
+    #[error(
+        "combine = \"{combine}\" makes more than {limit} {kind} realisations from the \
+         stock's {lines} {kind} lines (every two of them paired), more than the search takes; \
+         use combine = \"single\", narrow the {kind} range, or a stock with fewer lines"
+    )]
+    TooManyRealisations {
+        kind: String,
+        lines: usize,
+        combine: String,
+        limit: usize,
+    },
     #[error("the MILP model would have {choices} choice variables, more than the MILP engine takes ({limit}); use `--engine walk`, narrow the ranges, or lock a slot")]
     ModelTooLarge { choices: usize, limit: usize },
     #[error("the MILP solver failed: {0}; `--engine walk` does not use it")]
@@ -144,6 +155,9 @@ pub fn slot_candidates(req: &Request) -> Result<Vec<Arc<Vec<Part>>>, SearchError
         .map(|(i, slot)| {
             if let Some((_, part)) = req.locks.iter().find(|(s, _)| *s == i) {
                 return Ok(Arc::new(vec![part.clone()]));
+            }
+            if !by_kind.contains_key(&slot.kind) {
+                too_many(req, slot.kind)?;
             }
             let parts = by_kind
                 .entry(slot.kind)
@@ -257,6 +271,20 @@ fn kind_index(kind: PartKind) -> usize {
     }
 }
 
+/// The error for a stock that makes more realisations of `kind` than a table takes.
+fn too_many(req: &Request, kind: PartKind) -> Result<(), SearchError> {
+    let limit = table::MAX_REALISATIONS;
+    match table::more_realisations_than(req.stock, kind, limit) {
+        None => Ok(()),
+        Some(_) => Err(SearchError::TooManyRealisations {
+            kind: format!("{kind:?}").to_lowercase(),
+            lines: req.stock.pieces(kind).len(),
+            combine: format!("{:?}", req.stock.combine).to_lowercase(),
+            limit,
+        }),
+    }
+}
+
 fn no_candidates(req: &Request, slot: usize) -> SearchError {
     let def = req.stage.slots()[slot];
     let (lo, hi) = req.stock.range(def.kind);
@@ -347,6 +375,9 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
             continue;
         }
         let k = kind_index(def.kind);
+        if owned[k].is_none() {
+            too_many(req, def.kind)?;
+        }
         let table = owned[k].get_or_insert_with(|| Table::new(spec, req.stock, def.kind));
         if table.reals.is_empty() {
             return Err(no_candidates(req, i));

@@ -350,6 +350,71 @@ fn buckets_of(key: &[f64]) -> (Vec<usize>, Vec<u8>) {
     (count, bucket)
 }
 
+/// The value of the pair of pieces `a` (with its quantity on hand) and `b` in `arr`, when
+/// `Stock::candidates` has that pair: its value inside the range (with the same tolerance),
+/// and two pieces on hand when both come from one line (`same`).
+fn pair_value(
+    kind: PartKind,
+    arr: Arrangement,
+    (a, qty): (&Piece, Option<u32>),
+    b: &Piece,
+    same: bool,
+    (lo, hi): (f64, f64),
+) -> Option<f64> {
+    if same && qty.is_some_and(|q| q < 2) {
+        return None;
+    }
+    let value = build::combine(kind, arr, a.value, b.value);
+    (value >= lo * (1.0 - 1e-9) && value <= hi * (1.0 + 1e-9)).then_some(value)
+}
+
+/// Realisations per kind the walk search takes at most. Two-piece realisations grow as the
+/// square of the lines (a 3 000-line inventory with `combine = "both"` makes ~9 million),
+/// and a table costs about 100 bytes per realisation while it is built: this keeps a search
+/// under ~100 MB. Two-piece E96 over 10 Ω–10 MΩ makes 330 268.
+pub const MAX_REALISATIONS: usize = 1_000_000;
+
+/// Whether the stock makes more than `limit` realisations of `kind` (more than [`Table::new`]
+/// would hold), found without building them: `Some(n)` with a count `n > limit` reached so
+/// far (counting stops there), `None` when the whole count is at most `limit`.
+pub fn more_realisations_than(stock: &Stock, kind: PartKind, limit: usize) -> Option<usize> {
+    let pieces = stock.pieces(kind);
+    let n = pieces.len();
+    let arrangements: &[Arrangement] = match stock.combine {
+        Combine::Single => &[],
+        Combine::Series => &[Arrangement::Series],
+        Combine::Parallel => &[Arrangement::Parallel],
+        Combine::Both => &[Arrangement::Series, Arrangement::Parallel],
+    };
+    // Every pair at most: when even that is within the limit, no need to look at values.
+    if n + arrangements.len() * n * (n + 1) / 2 <= limit {
+        return None;
+    }
+    let qty: Vec<Option<u32>> = pieces
+        .iter()
+        .map(|p| stock.quantity(LineKey::of(kind, p)))
+        .collect();
+    let range = stock.range(kind);
+    let mut count = n;
+    if count > limit {
+        return Some(count);
+    }
+    for &arr in arrangements {
+        for i in 0..n {
+            for j in i..n {
+                let a = (&pieces[i], qty[i]);
+                if pair_value(kind, arr, a, &pieces[j], i == j, range).is_some() {
+                    count += 1;
+                }
+            }
+            if count > limit {
+                return Some(count);
+            }
+        }
+    }
+    None
+}
+
 /// One stock piece with what the search reads of it.
 #[derive(Debug, Clone)]
 pub struct PieceRow {
@@ -565,15 +630,8 @@ impl Table {
     pub fn pair(&self, spec: &Spec, arr: Arrangement, i: u32, j: u32) -> Option<Real> {
         let (i, j) = (i.min(j), i.max(j));
         let (pa, pb) = (&self.pieces[i as usize], &self.pieces[j as usize]);
-        if i == j && pa.qty.is_some_and(|q| q < 2) {
-            return None;
-        }
         let (a, b) = (&pa.piece, &pb.piece);
-        let value = build::combine(self.kind, arr, a.value, b.value);
-        let (lo, hi) = self.range;
-        if !(value >= lo * (1.0 - 1e-9) && value <= hi * (1.0 + 1e-9)) {
-            return None;
-        }
+        let value = pair_value(self.kind, arr, (a, pa.qty), b, i == j, self.range)?;
         Some(Real {
             value,
             min: build::combine(self.kind, arr, a.min(), b.min()),
@@ -770,6 +828,24 @@ mod tests {
                     assert_eq!(r.pts, analysis::slot_points(&spec, &part));
                     assert_eq!(table.slot_value(r), part.slot_value());
                 }
+            }
+        }
+    }
+
+    #[test]
+    fn counted_realisations_match_the_table() {
+        // The count is exact: more than n − 1, not more than n.
+        for combine in ["single", "series", "parallel", "both"] {
+            let spec = spec(combine);
+            let stock = stock(&spec);
+            for kind in [PartKind::Resistor, PartKind::Capacitor] {
+                let n = Table::new(&spec, &stock, kind).reals.len();
+                assert_eq!(more_realisations_than(&stock, kind, n), None);
+                let over = more_realisations_than(&stock, kind, n - 1);
+                assert!(
+                    over.is_some_and(|c| c > n - 1),
+                    "{combine} {kind:?}: {over:?}"
+                );
             }
         }
     }
