@@ -614,7 +614,7 @@ impl<'a> Dfs<'a> {
                     // parts only tighten it); the next level's walk tightens it again.
                     let score = acc + own + if lv.last { share } else { 0.0 };
                     let lb = score + if lv.last { 0.0 } else { share };
-                    if self.admits(lb + rest) && self.second_can_follow(level, score) {
+                    if self.admits(lb + rest) && self.next_can_follow(level, score) {
                         self.descend(level + 1, score);
                     }
                 }
@@ -632,15 +632,15 @@ impl<'a> Dfs<'a> {
         }
     }
 
-    /// Before walking the second slot of a pair group: whether its cheapest candidate (a
-    /// bound from a few bisections, `Walk::floor`) can still lead under the bound, with the
-    /// first slot chosen and `score` so far. Most first slots of a large stock are dropped
-    /// here, for much less than a walk costs.
-    fn second_can_follow(&mut self, level: usize, score: f64) -> bool {
+    /// Before walking the next slot: whether its cheapest candidate (a bound from a few
+    /// bisections, `Walk::floor`) can still lead under the bound, with this slot chosen and
+    /// `score` so far. Most first slots of a pair on a large stock are dropped here, and most
+    /// complete gain pairs before the divider's walk, for much less than a walk costs.
+    fn next_can_follow(&mut self, level: usize, score: f64) -> bool {
         let Some(&next) = self.levels.get(level + 1) else {
             return true;
         };
-        if next.k == 0 || self.locked[next.slot].is_some() {
+        if self.locked[next.slot].is_some() {
             return true;
         }
         let ki = kind_index(self.req.stage.slots()[next.slot].kind);

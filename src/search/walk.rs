@@ -459,8 +459,9 @@ impl<'t, 's> Walk<'t, 's> {
     /// building it — each fresh run's key where the walk would start it, each partner run's
     /// least points, each explicit candidate's points and bound — or −∞ as soon as one key
     /// below `limit` is found (then only "something may follow" matters, and −∞ says so
-    /// whatever rounding the caller's own sum takes). The search asks it of a pair's second slot before walking it, to
-    /// drop a first slot that nothing can follow for the price of a few bisections.
+    /// whatever rounding the caller's own sum takes). The search asks it of the next slot
+    /// before walking it, to drop a part that nothing can follow for the price of a few
+    /// bisections.
     ///
     /// `hints` keeps, per fresh run, where the last such call found its start; successive
     /// calls for nearby targets then read a few positions instead of bisecting the run.
