@@ -164,17 +164,7 @@ pub fn slot_candidates(req: &Request) -> Result<Vec<Arc<Vec<Part>>>, SearchError
                 .or_insert_with(|| Arc::new(req.stock.candidates(slot.kind)))
                 .clone();
             if parts.is_empty() {
-                let (lo, hi) = req.stock.range(slot.kind);
-                let unit = parts_unit(slot.kind);
-                return Err(SearchError::NoCandidates {
-                    slot: slot.name.to_string(),
-                    kind: format!("{:?}", slot.kind).to_lowercase(),
-                    range: format!(
-                        "{} … {}",
-                        crate::value::format(lo, unit),
-                        crate::value::format(hi, unit)
-                    ),
-                });
+                return Err(no_candidates(req, i));
             }
             Ok(parts)
         })

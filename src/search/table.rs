@@ -122,12 +122,18 @@ fn order_bits(x: f64) -> u64 {
 /// realisations are made (single pieces, then series pairs, then parallel pairs, each by
 /// first piece then second).
 fn code(arr: Arrangement, a: u32, b: u32) -> u64 {
-    let arr = match arr {
-        Arrangement::Single => 0u64,
-        Arrangement::Series => 1,
-        Arrangement::Parallel => 2,
-    };
-    arr << 62 | (a as u64) << 31 | (b as u64 & 0x7fff_ffff)
+    arr_bits(arr) << 62 | (a as u64) << 31 | (b as u64 & 0x7fff_ffff)
+}
+
+fn decode(code: u64) -> (Arrangement, u32, u32) {
+    let arr = arr_of_bits(code >> 62);
+    let b = (code & 0x7fff_ffff) as u32;
+    let a = (code >> 31 & 0x7fff_ffff) as u32;
+    (arr, a, if arr == Arrangement::Single { NONE } else { b })
+}
+
+fn code_of(r: &Real) -> u64 {
+    code(r.arr, r.a, r.b)
 }
 
 /// The second piece of a single piece in a small code.
@@ -135,38 +141,45 @@ const SMALL_NONE: u32 = 0x7fff;
 
 /// A code in 32 bits for a table of fewer than 32 767 pieces, ordered as the full code.
 fn small_code(code: u64) -> u32 {
-    let (_, a, b) = decode(code);
+    let (arr, a, b) = decode(code);
     let b = if b == NONE { SMALL_NONE } else { b };
-    ((code >> 62) as u32) << 30 | a << 15 | b
+    (arr_bits(arr) as u32) << 30 | a << 15 | b
 }
 
 fn from_small(small: u32) -> u64 {
-    let arr = match small >> 30 {
-        0 => Arrangement::Single,
-        1 => Arrangement::Series,
-        _ => Arrangement::Parallel,
-    };
-    let a = small >> 15 & SMALL_NONE;
     let b = small & SMALL_NONE;
-    code(arr, a, if b == SMALL_NONE { NONE } else { b })
+    code(
+        arr_of_bits(u64::from(small >> 30)),
+        small >> 15 & SMALL_NONE,
+        if b == SMALL_NONE { NONE } else { b },
+    )
 }
 
-fn code_of(r: &Real) -> u64 {
-    code(r.arr, r.a, r.b)
+/// The arrangement's two bits in a code: single, series, parallel in the order made.
+fn arr_bits(arr: Arrangement) -> u64 {
+    match arr {
+        Arrangement::Single => 0,
+        Arrangement::Series => 1,
+        Arrangement::Parallel => 2,
+    }
 }
 
-fn decode(code: u64) -> (Arrangement, u32, u32) {
-    let arr = match code >> 62 {
+fn arr_of_bits(bits: u64) -> Arrangement {
+    match bits {
         0 => Arrangement::Single,
         1 => Arrangement::Series,
         _ => Arrangement::Parallel,
-    };
-    let a = (code >> 31 & 0x7fff_ffff) as u32;
-    let b = match arr {
-        Arrangement::Single => NONE,
-        _ => (code & 0x7fff_ffff) as u32,
-    };
-    (arr, a, b)
+    }
+}
+
+/// The pair arrangements a `combine` setting allows.
+fn arrangements(combine: Combine) -> &'static [Arrangement] {
+    match combine {
+        Combine::Single => &[],
+        Combine::Series => &[Arrangement::Series],
+        Combine::Parallel => &[Arrangement::Parallel],
+        Combine::Both => &[Arrangement::Series, Arrangement::Parallel],
+    }
 }
 
 impl Sorted {
@@ -380,12 +393,7 @@ pub const MAX_REALISATIONS: usize = 1_000_000;
 pub fn more_realisations_than(stock: &Stock, kind: PartKind, limit: usize) -> Option<usize> {
     let pieces = stock.pieces(kind);
     let n = pieces.len();
-    let arrangements: &[Arrangement] = match stock.combine {
-        Combine::Single => &[],
-        Combine::Series => &[Arrangement::Series],
-        Combine::Parallel => &[Arrangement::Parallel],
-        Combine::Both => &[Arrangement::Series, Arrangement::Parallel],
-    };
+    let arrangements = arrangements(stock.combine);
     // Every pair at most: when even that is within the limit, no need to look at values.
     if n + arrangements.len() * n * (n + 1) / 2 <= limit {
         return None;
@@ -480,12 +488,7 @@ impl Table {
                 }
             })
             .collect();
-        let arrangements: &'static [Arrangement] = match stock.combine {
-            Combine::Single => &[],
-            Combine::Series => &[Arrangement::Series],
-            Combine::Parallel => &[Arrangement::Parallel],
-            Combine::Both => &[Arrangement::Series, Arrangement::Parallel],
-        };
+        let arrangements = arrangements(stock.combine);
         let mut table = Table {
             kind,
             by_line: rows
