@@ -20,7 +20,7 @@ pub mod walk;
 use crate::analysis::{self, Evaluation};
 use crate::build::{Build, LineKey, Part, SlotValue};
 use crate::spec::{Combine, Spec};
-use crate::stage::Stage;
+use crate::stage::{Stage, WalkPlan};
 use crate::stock::inventory::PartKind;
 use crate::stock::Stock;
 use std::collections::HashMap;
@@ -505,7 +505,7 @@ fn explore<'a>(
             f64::INFINITY
         };
         dfs.cut_hit = false;
-        dfs.descend(0, acc);
+        dfs.descend(0, acc, None);
         let done = dfs.top.full() && dfs.top.bound() < dfs.cut;
         if done || !dfs.cut_hit || dfs.stats.truncated || !root.is_finite() {
             break;
@@ -516,7 +516,9 @@ fn explore<'a>(
 }
 
 impl<'a> Dfs<'a> {
-    fn descend(&mut self, level: usize, acc: f64) {
+    /// Search from `level` on with `acc` points so far; `plan` is this level's walk plan when
+    /// the screen before it (`screen_next`) has already made it.
+    fn descend(&mut self, level: usize, acc: f64, plan: Option<WalkPlan<'a>>) {
         if level == self.levels.len() {
             self.leaf(acc);
             return;
@@ -535,7 +537,7 @@ impl<'a> Dfs<'a> {
             if let Some(share) = share {
                 let score = acc + share;
                 if self.admits(score + self.rest_lb(level + 1, None)) {
-                    self.descend(level + 1, score);
+                    self.descend(level + 1, score, None);
                 }
             }
             return;
@@ -550,7 +552,7 @@ impl<'a> Dfs<'a> {
         // candidate is taken. First the cheap static bound; the look-ahead of the open
         // one-slot groups (which asks the stage) only once a candidate passes that.
         let mut rest = self.rest_static[level + 1] + self.lines_lb(level + 1, Some(ki));
-        let plan = stage.walk(spec, lv.group, lv.k, &self.vals);
+        let plan = plan.unwrap_or_else(|| stage.walk(spec, lv.group, lv.k, &self.vals));
         let mut walk = Walk::new(spec, table, plan, &self.used[ki], self.bound() - acc - rest);
         let mut tight = false;
         let lambda = spec.goals.bom_lines;
@@ -604,8 +606,10 @@ impl<'a> Dfs<'a> {
                     // parts only tighten it); the next level's walk tightens it again.
                     let score = acc + own + if lv.last { share } else { 0.0 };
                     let lb = score + if lv.last { 0.0 } else { share };
-                    if self.admits(lb + rest) && self.next_can_follow(level, score) {
-                        self.descend(level + 1, score);
+                    if self.admits(lb + rest) {
+                        if let Some(next) = self.screen_next(level, score) {
+                            self.descend(level + 1, score, next);
+                        }
                     }
                 }
                 self.vals[lv.slot] = None;
@@ -626,12 +630,14 @@ impl<'a> Dfs<'a> {
     /// bisections, `Walk::floor`) can still lead under the bound, with this slot chosen and
     /// `score` so far. Most first slots of a pair on a large stock are dropped here, and most
     /// complete gain pairs before the divider's walk, for much less than a walk costs.
-    fn next_can_follow(&mut self, level: usize, score: f64) -> bool {
+    /// `None` when nothing can follow; else the next slot's walk plan when one was made, for
+    /// its walk to use.
+    fn screen_next(&mut self, level: usize, score: f64) -> Option<Option<WalkPlan<'a>>> {
         let Some(&next) = self.levels.get(level + 1) else {
-            return true;
+            return Some(None);
         };
         if self.locked[next.slot].is_some() {
-            return true;
+            return Some(None);
         }
         let ki = kind_index(self.req.stage.slots()[next.slot].kind);
         let table = self.tables[ki].expect("table");
@@ -648,7 +654,7 @@ impl<'a> Dfs<'a> {
             limit,
             &mut self.hints[level + 1],
         );
-        self.admits(score + floor + rest)
+        self.admits(score + floor + rest).then_some(Some(plan))
     }
 
     /// The score a node must stay under: the N-th best build so far, and this round's cut.
@@ -818,7 +824,7 @@ impl<'a> Dfs<'a> {
 /// Least slot points plus stage bound of any candidate a plan lets through: on each side of
 /// the target, the least points there plus the bound at the first value met (the bound only
 /// grows outward).
-fn plan_floor(table: &Table, plan: &crate::stage::WalkPlan) -> f64 {
+fn plan_floor(table: &Table, plan: &WalkPlan) -> f64 {
     let m = table.merged(plan.coord);
     let p = m.start(plan.target);
     let up = (p < m.len())
