@@ -322,18 +322,12 @@ impl Stage for Inverting {
                 .with(R_IN, move |p| -(rs + end(spec, p, !high)).ln())
         };
         if let Some(t) = spec.gain_tolerance {
-            m.rows.push(LogRow {
-                name: "gain_low",
-                sum: ln_gain(false),
-                at_least: true,
-                limit: (g * (1.0 - t) * (1.0 - SLACK)).ln(),
-            });
-            m.rows.push(LogRow {
-                name: "gain_high",
-                sum: ln_gain(true),
-                at_least: false,
-                limit: (g * (1.0 + t) * (1.0 + SLACK)).ln(),
-            });
+            plans::gain_window_log(
+                ln_gain,
+                Some((g * (1.0 - t) * (1.0 - SLACK)).ln()),
+                Some((g * (1.0 + t) * (1.0 + SLACK)).ln()),
+                &mut m,
+            );
         }
         // How far below the target ln|G| can be in a build that passes: the window's floor,
         // or what the resistor range allows.

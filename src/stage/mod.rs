@@ -1081,6 +1081,14 @@ pub(crate) mod plans {
         let w_off = spec.goals.offset / 0.1;
         let b = spec.amplifier.input_bias_current;
         let c = spec.amplifier.input_offset_current / 2.0;
+        // The gain rises with r_fb: past the window on the walk's side, every farther value
+        // is out too.
+        let outside = move |v: f64, up: bool| {
+            let gain = form.gain(v, r_other);
+            (up && gain > g_hi) || (!up && gain < g_lo)
+        };
+        let f_gain =
+            move |v: f64| common::gain_points(spec, form.gain(v, r_other).copysign(spec.gain));
         if comp.is_none() {
             // The gain points alone: V-shaped about `mode`, so the clamped read is the gain
             // at max(v, mode) going up, min(v, mode) going down.
@@ -1089,13 +1097,11 @@ pub(crate) mod plans {
                 coord: Coord::Value,
                 target: mode,
                 bound: Box::new(move |v, up| {
-                    let gain = form.gain(v, r_other);
-                    if (up && gain > g_hi) || (!up && gain < g_lo) {
+                    if outside(v, up) {
                         return None;
                     }
                     let at = if up { v.max(mode) } else { v.min(mode) };
-                    let g = form.gain(at, r_other).copysign(spec.gain);
-                    Some(safe(common::gain_points(spec, g)))
+                    Some(safe(f_gain(at)))
                 }),
             };
         }
@@ -1104,13 +1110,9 @@ pub(crate) mod plans {
             coord: Coord::Value,
             target: mode,
             bound: Box::new(move |v, up| {
-                // The gain rises with r_fb.
-                let gain = form.gain(v, r_other);
-                if (up && gain > g_hi) || (!up && gain < g_lo) {
+                if outside(v, up) {
                     return None;
                 }
-                let f_gain =
-                    |v: f64| common::gain_points(spec, form.gain(v, r_other).copysign(spec.gain));
                 let f_comp = |v: f64| comp.map_or(0.0, |p| w_off * b * (v - p.rp).abs());
                 let f_ios = |v: f64| comp.map_or(0.0, |_| w_off * c * v.max(0.0));
                 let terms = [
@@ -1278,6 +1280,27 @@ pub(crate) mod plans {
         let c = spec.amplifier.input_offset_current / 2.0;
         m.points =
             std::mem::take(&mut m.points).with(r_fb, move |p| w * c * p.value * (1.0 - 1e-9));
+    }
+
+    /// The nominal gain window's rows, `gain_low` and `gain_high`: `sum(false)` (the parts at
+    /// the ends that lower the gain) at least `low`, `sum(true)` at most `high`, each when
+    /// given (ln values).
+    pub fn gain_window_log<'s>(
+        sum: impl Fn(bool) -> super::SlotSum<'s>,
+        low: Option<f64>,
+        high: Option<f64>,
+        m: &mut super::LogModel<'s>,
+    ) {
+        for (name, at_least, limit) in [("gain_low", true, low), ("gain_high", false, high)] {
+            if let Some(limit) = limit {
+                m.rows.push(super::LogRow {
+                    name,
+                    sum: sum(!at_least),
+                    at_least,
+                    limit,
+                });
+            }
+        }
     }
 
     /// A coupling network's row: ln C_low + ln(R_s + R_low) ≥ ln(1/(2π·f_c)) for the corner

@@ -532,24 +532,20 @@ impl Stage for NonInverting {
         };
         if let Some(t) = spec.gain_tolerance {
             let floor = g * (1.0 - t) * (1.0 - SLACK) - 1.0;
-            if floor > 0.0 {
-                m.rows.push(LogRow {
-                    name: "gain_low",
-                    sum: ln_ratio(false),
-                    at_least: true,
-                    limit: floor.ln(),
-                });
-            }
             let top = g * (1.0 + t) * (1.0 + SLACK) - 1.0;
-            if rs == 0.0 && top > 0.0 {
-                m.rows.push(LogRow {
-                    name: "gain_high",
-                    sum: ln_ratio(true),
-                    at_least: false,
-                    limit: top.ln(),
-                });
-            }
+            plans::gain_window_log(
+                ln_ratio,
+                (floor > 0.0).then(|| floor.ln()),
+                (rs == 0.0 && top > 0.0).then(|| top.ln()),
+                &mut m,
+            );
         }
+        // ln ρ at the nominal values, for the gain error terms.
+        let ln_rho = || {
+            SlotSum::default()
+                .with(R_FB, |p| p.value.ln())
+                .with(R_G, |p| -p.value.ln())
+        };
         if rs > 0.0 && g > 1.0 {
             // The divider attenuates by att = R_p/(R_s + R_p) < 1, so G ≤ 1 + ρ: a ρ below
             // G_t − 1 misses the target by at least G_t − (1 + ρ). And with an input
@@ -558,11 +554,6 @@ impl Stage for NonInverting {
             // error term on ln ρ (`relative_error_term`).
             let (r_lo, r_hi) = spec.stock.resistor_range;
             let w = spec.goals.gain_error / 0.01;
-            let ln_rho = || {
-                SlotSum::default()
-                    .with(R_FB, |p| p.value.ln())
-                    .with(R_G, |p| -p.value.ln())
-            };
             let rho = g - 1.0;
             let u_max = (rho * r_hi / r_lo).ln().max(0.0);
             let mut below =
@@ -596,12 +587,9 @@ impl Stage for NonInverting {
                 Some(f) => (rho / f).ln(),
                 None => (rho * r_hi / r_lo).ln().max(0.0),
             };
-            let nominal = SlotSum::default()
-                .with(R_FB, |p| p.value.ln())
-                .with(R_G, |p| -p.value.ln());
             m.terms.push(super::relative_error_term(
                 "gain",
-                nominal,
+                ln_rho(),
                 rho,
                 spec.goals.gain_error / 0.01 * rho / g,
                 u_max,
