@@ -7,72 +7,25 @@
 
 mod common;
 
-use common::{case_strategy, prepare, run_property, Case};
+use common::{
+    both_or_same_error, builds_are_sound, case_strategy, prepare, run_property, same_scores, Case,
+};
 use proptest::prelude::*;
-use stockfit::build::Part;
-use stockfit::search::{brute::brute_force, search, Request};
+use stockfit::search::{brute::brute_force, search};
 
 fn run_case(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCaseError> {
     let p = prepare(case)?;
-    let (spec, stage, stock, locks) = (&p.spec, p.stage, &p.stock, &p.locks);
-    let req = Request {
-        spec,
-        stage,
-        stock,
-        locks,
-        top: case.top,
-        max_nodes: None,
-    };
+    let req = p.request(case.top);
     let fast = search(&req, &mut |_| {});
     let slow = brute_force(&req);
-    let (fast, slow) = match (fast, slow) {
-        (Ok(f), Ok(s)) => (f, s),
-        (Err(a), Err(b)) => {
-            prop_assert_eq!(a, b);
-            return Ok(());
-        }
-        (a, b) => {
-            return Err(TestCaseError::fail(format!(
-                "one side failed: {:?} / {:?}",
-                a.err(),
-                b.err()
-            )))
-        }
+    let Some((fast, slow)) = both_or_same_error(case, fast, slow)? else {
+        return Ok(());
     };
     if !slow.builds.is_empty() {
         found.set(found.get() + 1);
     }
-    let fs: Vec<f64> = fast.builds.iter().map(|r| r.evaluation.score).collect();
-    let ss: Vec<f64> = slow.builds.iter().map(|r| r.evaluation.score).collect();
-    prop_assert_eq!(
-        fs.len(),
-        ss.len(),
-        "fast {:?} brute {:?}\n{}\n{}",
-        fs,
-        ss,
-        case.spec_toml,
-        case.csv
-    );
-    for (a, b) in fs.iter().zip(&ss) {
-        prop_assert!(
-            (a - b).abs() <= 1e-9 * b.abs().max(1.0),
-            "fast {:?} brute {:?}\n{}\n{}",
-            fs,
-            ss,
-            case.spec_toml,
-            case.csv
-        );
-    }
-    for r in &fast.builds {
-        // Every reported build passes the exact analysis and fits the quantities.
-        prop_assert!(r.evaluation.pass);
-        let parts: Vec<&Part> = r.build.parts.iter().collect();
-        prop_assert!(stock.fits(&parts));
-        for (slot, part) in locks {
-            prop_assert_eq!(&r.build.parts[*slot], part);
-        }
-    }
-    Ok(())
+    same_scores(case, ("fast", "brute"), &fast, &slow)?;
+    builds_are_sound(&p, &fast)
 }
 
 fn check(strategy: impl Strategy<Value = Case>, n: u32, min_feasible: u32) {

@@ -11,139 +11,75 @@
 
 mod common;
 
-use common::{case_strategy, prepare, run_property, Case};
+use common::{
+    both_or_same_error, builds_are_sound, case_strategy, prepare, run_property, same_scores, Case,
+};
 use proptest::prelude::*;
 use stockfit::analysis;
-use stockfit::build::{Build, SlotValue};
-use stockfit::search::{milp, search, slot_candidates, Request};
+use stockfit::build::SlotValue;
+use stockfit::search::{brute::each_build, milp, search, slot_candidates};
 use stockfit::stage::common as eq;
 
 fn agree(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCaseError> {
     let p = prepare(case)?;
-    let req = Request {
-        spec: &p.spec,
-        stage: p.stage,
-        stock: &p.stock,
-        locks: &p.locks,
-        top: case.top,
-        max_nodes: None,
-    };
+    let req = p.request(case.top);
     let walk = search(&req, &mut |_| {});
     let lp = milp::search(&req, &mut |_| {});
-    let (walk, lp) = match (walk, lp) {
-        (Ok(a), Ok(b)) => (a, b),
-        (Err(a), Err(b)) => {
-            prop_assert_eq!(a, b);
-            return Ok(());
-        }
-        (a, b) => {
-            return Err(TestCaseError::fail(format!(
-                "one engine failed: {:?} / {:?}\n{}\n{}",
-                a.err(),
-                b.err(),
-                case.spec_toml,
-                case.csv
-            )))
-        }
+    let Some((walk, lp)) = both_or_same_error(case, walk, lp)? else {
+        return Ok(());
     };
     prop_assert!(!lp.stats.truncated, "MILP solve cap reached");
     if !walk.builds.is_empty() {
         found.set(found.get() + 1);
     }
-    let ws: Vec<f64> = walk.builds.iter().map(|r| r.evaluation.score).collect();
-    let ms: Vec<f64> = lp.builds.iter().map(|r| r.evaluation.score).collect();
-    prop_assert_eq!(
-        ws.len(),
-        ms.len(),
-        "walk {:?} milp {:?}\n{}\n{}",
-        ws,
-        ms,
-        case.spec_toml,
-        case.csv
-    );
-    for (a, b) in ws.iter().zip(&ms) {
-        prop_assert!(
-            (a - b).abs() <= 1e-9 * b.abs().max(1.0),
-            "walk {:?} milp {:?}\n{}\n{}",
-            ws,
-            ms,
-            case.spec_toml,
-            case.csv
-        );
-    }
-    for r in &lp.builds {
-        prop_assert!(r.evaluation.pass);
-        let parts: Vec<_> = r.build.parts.iter().collect();
-        prop_assert!(p.stock.fits(&parts));
-        for (slot, part) in &p.locks {
-            prop_assert_eq!(&r.build.parts[*slot], part);
-        }
-    }
-    Ok(())
+    same_scores(case, ("walk", "milp"), &walk, &lp)?;
+    builds_are_sound(&p, &lp)
 }
 
 /// Every build of the case's stock that passes meets the log model.
 fn model_holds(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCaseError> {
     let p = prepare(case)?;
-    let req = Request {
-        spec: &p.spec,
-        stage: p.stage,
-        stock: &p.stock,
-        locks: &p.locks,
-        top: 1,
-        max_nodes: None,
-    };
-    let Ok(cands) = slot_candidates(&req) else {
+    let Ok(cands) = slot_candidates(&p.request(1)) else {
         return Ok(());
     };
     let model = p.stage.log_model(&p.spec);
-    let mut idx = vec![0usize; cands.len()];
     let mut passed = 0;
-    'all: loop {
-        let build = Build {
-            parts: idx.iter().zip(&cands).map(|(&i, c)| c[i].clone()).collect(),
-        };
+    each_build(&cands, |build| {
         let e = analysis::evaluate(&p.spec, p.stage, &build, Some(&p.stock));
-        if e.pass {
-            passed += 1;
-            let values: Vec<SlotValue> = build.parts.iter().map(|p| p.slot_value()).collect();
-            for row in &model.rows {
-                let sum = row.sum.eval(&values);
-                let ok = if row.at_least {
-                    sum >= row.limit
-                } else {
-                    sum <= row.limit
-                };
-                prop_assert!(
-                    ok,
-                    "row {} fails ({sum} vs {}) on a passing build {:?}\n{}",
-                    row.name,
-                    row.limit,
-                    build.parts.iter().map(|p| p.label()).collect::<Vec<_>>(),
-                    case.spec_toml
-                );
-            }
-            let v = build.values();
-            let stage_points = eq::gain_points(&p.spec, p.stage.mid_gain(&p.spec, &v))
-                + eq::offset_points(&p.spec, p.stage.offset_error(&p.spec, &v));
-            let model_points: f64 = model.terms.iter().map(|t| t.eval(&values)).sum::<f64>()
-                + model.points.eval(&values);
+        if !e.pass {
+            return Ok(());
+        }
+        passed += 1;
+        let values: Vec<SlotValue> = build.parts.iter().map(|p| p.slot_value()).collect();
+        for row in &model.rows {
+            let sum = row.sum.eval(&values);
+            let ok = if row.at_least {
+                sum >= row.limit
+            } else {
+                sum <= row.limit
+            };
             prop_assert!(
-                model_points <= stage_points + 1e-12,
-                "model terms {model_points} above the stage terms {stage_points} for {:?}\n{}",
+                ok,
+                "row {} fails ({sum} vs {}) on a passing build {:?}\n{}",
+                row.name,
+                row.limit,
                 build.parts.iter().map(|p| p.label()).collect::<Vec<_>>(),
                 case.spec_toml
             );
         }
-        for k in 0..idx.len() {
-            idx[k] += 1;
-            if idx[k] < cands[k].len() {
-                continue 'all;
-            }
-            idx[k] = 0;
-        }
-        break;
-    }
+        let v = build.values();
+        let stage_points = eq::gain_points(&p.spec, p.stage.mid_gain(&p.spec, &v))
+            + eq::offset_points(&p.spec, p.stage.offset_error(&p.spec, &v));
+        let model_points: f64 =
+            model.terms.iter().map(|t| t.eval(&values)).sum::<f64>() + model.points.eval(&values);
+        prop_assert!(
+            model_points <= stage_points + 1e-12,
+            "model terms {model_points} above the stage terms {stage_points} for {:?}\n{}",
+            build.parts.iter().map(|p| p.label()).collect::<Vec<_>>(),
+            case.spec_toml
+        );
+        Ok(())
+    })?;
     if passed > 0 {
         found.set(found.get() + 1);
     }

@@ -3,32 +3,23 @@
 
 use super::{slot_candidates, Outcome, Ranked, Request, SearchError, Stats, TopN};
 use crate::analysis;
-use crate::build::Build;
+use crate::build::{Build, Part};
+use std::convert::Infallible;
+use std::sync::Arc;
 
 /// All builds, best `top` kept. Exponential in the slot count: for tests and benchmarks.
 pub fn brute_force(req: &Request) -> Result<Outcome, SearchError> {
     let cands = slot_candidates(req)?;
     let mut top = TopN::new(req.top);
-    let mut idx = vec![0usize; cands.len()];
     let mut evaluated = 0;
-    'all: loop {
-        let build = Build {
-            parts: idx.iter().zip(&cands).map(|(&i, c)| c[i].clone()).collect(),
-        };
+    let Ok(()) = each_build(&cands, |build| -> Result<(), Infallible> {
         let evaluation = analysis::evaluate(req.spec, req.stage, &build, Some(req.stock));
         evaluated += 1;
         if evaluation.pass {
             top.offer(Ranked { build, evaluation });
         }
-        for k in 0..idx.len() {
-            idx[k] += 1;
-            if idx[k] < cands[k].len() {
-                continue 'all;
-            }
-            idx[k] = 0;
-        }
-        break;
-    }
+        Ok(())
+    });
     Ok(Outcome {
         builds: top.into_vec(),
         stats: Stats {
@@ -39,4 +30,26 @@ pub fn brute_force(req: &Request) -> Result<Outcome, SearchError> {
             evaluated,
         },
     })
+}
+
+/// Call `f` on every build of one candidate per slot (each slot's candidates in turn, the
+/// first slot fastest), stopping at its first error.
+pub fn each_build<E>(
+    cands: &[Arc<Vec<Part>>],
+    mut f: impl FnMut(Build) -> Result<(), E>,
+) -> Result<(), E> {
+    let mut idx = vec![0usize; cands.len()];
+    'all: loop {
+        f(Build {
+            parts: idx.iter().zip(cands).map(|(&i, c)| c[i].clone()).collect(),
+        })?;
+        for k in 0..idx.len() {
+            idx[k] += 1;
+            if idx[k] < cands[k].len() {
+                continue 'all;
+            }
+            idx[k] = 0;
+        }
+        return Ok(());
+    }
 }

@@ -7,6 +7,7 @@ use proptest::prelude::*;
 use proptest::test_runner::{Config, RngAlgorithm, TestCaseError, TestRng, TestRunner};
 use std::sync::Arc;
 use stockfit::build::Part;
+use stockfit::search::{Outcome, Request, SearchError};
 use stockfit::spec::Spec;
 use stockfit::stage::{self, Stage};
 use stockfit::stock::inventory::{Inventory, PartKind};
@@ -152,6 +153,80 @@ pub fn prepare(case: &Case) -> Result<Prepared, TestCaseError> {
         stock,
         locks,
     })
+}
+
+impl Prepared {
+    /// The search request of this case, keeping `top` builds, with no node limit.
+    pub fn request(&self, top: usize) -> Request<'_> {
+        Request {
+            spec: &self.spec,
+            stage: self.stage,
+            stock: &self.stock,
+            locks: &self.locks,
+            top,
+            max_nodes: None,
+        }
+    }
+}
+
+/// Two exact searches of one case either fail alike (`Ok(None)`) or both succeed.
+pub fn both_or_same_error(
+    case: &Case,
+    a: Result<Outcome, SearchError>,
+    b: Result<Outcome, SearchError>,
+) -> Result<Option<(Outcome, Outcome)>, TestCaseError> {
+    match (a, b) {
+        (Ok(a), Ok(b)) => Ok(Some((a, b))),
+        (Err(a), Err(b)) => {
+            prop_assert_eq!(a, b);
+            Ok(None)
+        }
+        (a, b) => Err(TestCaseError::fail(format!(
+            "one side failed: {:?} / {:?}\n{}\n{}",
+            a.err(),
+            b.err(),
+            case.spec_toml,
+            case.csv
+        ))),
+    }
+}
+
+/// Two exact searches of one case return the same top scores (`names` say which is which in
+/// a failure).
+pub fn same_scores(
+    case: &Case,
+    names: (&str, &str),
+    a: &Outcome,
+    b: &Outcome,
+) -> Result<(), TestCaseError> {
+    let scores =
+        |o: &Outcome| -> Vec<f64> { o.builds.iter().map(|r| r.evaluation.score).collect() };
+    let (sa, sb) = (scores(a), scores(b));
+    let show = || {
+        format!(
+            "{} {sa:?} {} {sb:?}\n{}\n{}",
+            names.0, names.1, case.spec_toml, case.csv
+        )
+    };
+    prop_assert_eq!(sa.len(), sb.len(), "{}", show());
+    for (x, y) in sa.iter().zip(&sb) {
+        prop_assert!((x - y).abs() <= 1e-9 * y.abs().max(1.0), "{}", show());
+    }
+    Ok(())
+}
+
+/// Every reported build passes the exact analysis, fits the quantities on hand and keeps the
+/// case's locks.
+pub fn builds_are_sound(p: &Prepared, outcome: &Outcome) -> Result<(), TestCaseError> {
+    for r in &outcome.builds {
+        prop_assert!(r.evaluation.pass);
+        let parts: Vec<&Part> = r.build.parts.iter().collect();
+        prop_assert!(p.stock.fits(&parts));
+        for (slot, part) in &p.locks {
+            prop_assert_eq!(&r.build.parts[*slot], part);
+        }
+    }
+    Ok(())
 }
 
 /// The number of cases of a property: `STOCKFIT_EXACT_CASES`, or `default`.
