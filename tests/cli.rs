@@ -1476,6 +1476,16 @@ fn every_example_report_fits_100_columns_without_escapes() {
                 "{name}: empty {title} table"
             );
         }
+        // No requirement is cut short: a check's label names its part.
+        let cut: Vec<&str> = table_lines(out, "Checks")
+            .into_iter()
+            .filter(|l| l.contains("… "))
+            .collect();
+        assert!(
+            cut.is_empty(),
+            "{name}: cut check labels:\n{}",
+            cut.join("\n")
+        );
         let long: Vec<&str> = out.lines().filter(|l| columns(l) > 100).collect();
         assert!(
             long.is_empty(),

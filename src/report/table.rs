@@ -252,6 +252,10 @@ fn value_text(c: &Check) -> (String, String, String) {
     (f(c.value), f(c.limit), margin)
 }
 
+/// Width of the requirement column: the longest label ("worst-case corner of the output
+/// network (c_out)", 47 characters) in full, and the table still within 100 columns (96).
+const CHECK_LABEL: usize = 48;
+
 /// The checks of one build: requirement, value, limit, margin, pass/fail.
 pub fn checks(evaluation: &Evaluation, style: Style) -> String {
     let mut out = String::new();
@@ -259,7 +263,7 @@ pub fn checks(evaluation: &Evaluation, style: Style) -> String {
     let _ = writeln!(
         out,
         "{}{}{}{}{}pass",
-        cell("requirement", 46),
+        cell("requirement", CHECK_LABEL),
         cell("value", 12),
         cell("limit", 13),
         cell("margin", 11),
@@ -278,7 +282,7 @@ pub fn checks(evaluation: &Evaluation, style: Style) -> String {
         let _ = writeln!(
             out,
             "{}{}{}{}{}{}",
-            cell(&c.label, 46),
+            cell(&c.label, CHECK_LABEL),
             cell(&v, 12),
             cell(&format!("{op}{l}"), 13),
             cell(&m, 11),
