@@ -197,7 +197,7 @@ fn series_stock(spec: &Spec) -> Stock {
     Stock::new(
         source(&spec.stock.resistors, spec.stock.resistor_tolerance),
         source(&spec.stock.capacitors, spec.stock.capacitor_tolerance),
-        &spec.stock,
+        spec.stock.limits(),
     )
 }
 
@@ -249,7 +249,7 @@ fn prepare(case: Case) -> Prepared {
                 stock: Stock::new(
                     Source::Inventory(inv.clone()),
                     Source::Inventory(inv),
-                    &spec.stock,
+                    spec.stock.limits(),
                 ),
                 locks: Vec::new(),
                 spec,

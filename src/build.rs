@@ -4,8 +4,8 @@
 //! its nominal value and the exact extremes its pieces' tolerances allow, so that the worst-case
 //! analysis can put every part "at the end of its tolerance that hurts".
 
-use crate::stock::inventory::PartKind;
 use crate::value::{self, Unit};
+use crate::vocab::PartKind;
 use serde::Serialize;
 
 /// One physical component: a value with its tolerance, and where it comes from.

@@ -14,6 +14,7 @@ pub mod spec;
 pub mod stage;
 pub mod stock;
 pub mod value;
+pub mod vocab;
 
 pub use build::{Build, Part, Piece};
 pub use error::Error;

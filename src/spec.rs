@@ -9,32 +9,9 @@
 
 use crate::series::Series;
 use crate::value::{self, Unit};
+use crate::vocab::{Combine, StageKind};
 use std::fmt;
 use toml::Value;
-
-/// Which stage to design.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum StageKind {
-    Inverting,
-    NonInverting,
-}
-
-impl StageKind {
-    pub const ALL: [StageKind; 2] = [StageKind::Inverting, StageKind::NonInverting];
-
-    pub fn name(self) -> &'static str {
-        match self {
-            StageKind::Inverting => "inverting",
-            StageKind::NonInverting => "non-inverting",
-        }
-    }
-
-    pub fn parse(text: &str) -> Option<StageKind> {
-        let t = text.trim().to_ascii_lowercase().replace('_', "-");
-        StageKind::ALL.into_iter().find(|k| k.name() == t)
-    }
-}
 
 /// How requirements are judged.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
@@ -44,28 +21,6 @@ pub enum ToleranceMode {
     Worst,
     /// Nominal values only.
     Nominal,
-}
-
-/// How a slot may be realised from stock.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
-#[serde(rename_all = "lowercase")]
-pub enum Combine {
-    Single,
-    Series,
-    Parallel,
-    Both,
-}
-
-impl Combine {
-    fn parse(text: &str) -> Option<Combine> {
-        match text.trim().to_ascii_lowercase().as_str() {
-            "single" => Some(Combine::Single),
-            "series" => Some(Combine::Series),
-            "parallel" => Some(Combine::Parallel),
-            "both" => Some(Combine::Both),
-            _ => None,
-        }
-    }
 }
 
 /// Where the parts of one kind come from.
@@ -153,7 +108,18 @@ pub struct StockSpec {
     pub capacitor_tolerance: f64,
     pub combine: Combine,
     /// How Monte Carlo draws a part inside its tolerance.
-    pub distribution: crate::analysis::yield_mc::Distribution,
+    pub distribution: crate::vocab::Distribution,
+}
+
+impl StockSpec {
+    /// The limits the stock applies to its sources.
+    pub fn limits(&self) -> crate::stock::Limits {
+        crate::stock::Limits {
+            resistor_range: self.resistor_range,
+            capacitor_range: self.capacitor_range,
+            combine: self.combine,
+        }
+    }
 }
 
 /// A slot fixed to a value (already on the board).
@@ -569,10 +535,10 @@ fn found(v: &Value) -> String {
 
 /// Resistances and capacitances outside what a gain stage is built from are taken for a value
 /// of the other kind typed in the wrong place: `"100n"` as a resistance is 100 nΩ, `"4k7"` as a
-/// capacitance 4.7 kF. The bounds are [`crate::stock::inventory::PLAUSIBLE_OHMS`] and
-/// [`crate::stock::inventory::PLAUSIBLE_FARADS`], shared with the inventory loader.
+/// capacitance 4.7 kF. The bounds are [`crate::vocab::PLAUSIBLE_OHMS`] and
+/// [`crate::vocab::PLAUSIBLE_FARADS`], shared with the inventory loader.
 fn plausible(x: f64, unit: Unit) -> Result<f64, String> {
-    use crate::stock::inventory::{implausible, PartKind};
+    use crate::vocab::{implausible, PartKind};
     let kind = match unit {
         Unit::Ohm => PartKind::Resistor,
         Unit::Farad => PartKind::Capacitor,
@@ -1050,15 +1016,15 @@ impl Spec {
             }
         }
         let distribution = match r.text(st, stock_t, "distribution").as_deref() {
-            None | Some("uniform") => crate::analysis::yield_mc::Distribution::Uniform,
-            Some("normal") => crate::analysis::yield_mc::Distribution::Normal,
+            None | Some("uniform") => crate::vocab::Distribution::Uniform,
+            Some("normal") => crate::vocab::Distribution::Normal,
             Some(other) => {
                 r.error(
                     st,
                     Some("distribution"),
                     format!("found {other:?}, expected \"uniform\" or \"normal\""),
                 );
-                crate::analysis::yield_mc::Distribution::Uniform
+                crate::vocab::Distribution::Uniform
             }
         };
         let combine = match r.text(st, stock_t, "combine") {
@@ -1113,8 +1079,8 @@ impl Spec {
                 None => None,
             };
             let unit = match slot_kind {
-                Some(crate::stock::inventory::PartKind::Capacitor) => Unit::Farad,
-                Some(crate::stock::inventory::PartKind::Resistor) => Unit::Ohm,
+                Some(crate::vocab::PartKind::Capacitor) => Unit::Farad,
+                Some(crate::vocab::PartKind::Resistor) => Unit::Ohm,
                 None if slot.starts_with("c_") => Unit::Farad,
                 None => Unit::Ohm,
             };

@@ -12,8 +12,9 @@ mod checks;
 use proptest::prelude::*;
 use std::path::Path;
 use stockfit::series::Series;
-use stockfit::spec::{Combine, Goals, Lock, SourceSpec, Spec, StageKind};
+use stockfit::spec::{Goals, Lock, SourceSpec, Spec};
 use stockfit::value::{format_sig, Unit};
+use stockfit::vocab::{Combine, StageKind};
 
 // ---- the fuzz checks on generated input ---------------------------------------------------
 
@@ -537,8 +538,8 @@ fn render(d: &Draw) -> (String, Spec, Vec<(usize, String)>) {
             continue;
         }
         let (unit, lo, hi): (Unit, f64, f64) = match slot.kind {
-            stockfit::stock::inventory::PartKind::Resistor => (Unit::Ohm, 10.0, 1e6),
-            stockfit::stock::inventory::PartKind::Capacitor => (Unit::Farad, 1e-12, 1e-3),
+            stockfit::vocab::PartKind::Resistor => (Unit::Ohm, 10.0, 1e6),
+            stockfit::vocab::PartKind::Capacitor => (Unit::Farad, 1e-12, 1e-3),
         };
         let v = lo * (hi / lo).powf(t);
         let text = format_sig(v, unit, 17);

@@ -31,7 +31,10 @@ struct Case {
 }
 
 fn rel(p: &Path) -> String {
-    p.strip_prefix(root()).unwrap().to_string_lossy().into_owned()
+    p.strip_prefix(root())
+        .unwrap()
+        .to_string_lossy()
+        .into_owned()
 }
 
 fn cases() -> Vec<Case> {
@@ -47,7 +50,13 @@ fn cases() -> Vec<Case> {
         let s = rel(spec);
         out.push(Case {
             name: format!("pick-{}", stem(spec)),
-            args: vec!["pick".into(), s.clone(), "-q".into(), "--yield".into(), "300".into()],
+            args: vec![
+                "pick".into(),
+                s.clone(),
+                "-q".into(),
+                "--yield".into(),
+                "300".into(),
+            ],
             files: vec![],
         });
         out.push(Case {
@@ -89,13 +98,12 @@ fn cases() -> Vec<Case> {
             args: vec!["stock".into(), rel(&inv)],
             files: vec![],
         });
-        for spec in ["examples/piezo-knock-5v.toml", "examples/line-stage-12v.toml"] {
+        for spec in [
+            "examples/piezo-knock-5v.toml",
+            "examples/line-stage-12v.toml",
+        ] {
             out.push(Case {
-                name: format!(
-                    "inv-{}-{}",
-                    stem(&inv),
-                    stem(Path::new(spec))
-                ),
+                name: format!("inv-{}-{}", stem(&inv), stem(Path::new(spec))),
                 args: vec![
                     "pick".into(),
                     spec.into(),
@@ -118,7 +126,14 @@ fn cases() -> Vec<Case> {
     });
     out.push(Case {
         name: "series-e24".into(),
-        args: vec!["series".into(), "E24".into(), "--from".into(), "1k".into(), "--to".into(), "10k".into()],
+        args: vec![
+            "series".into(),
+            "E24".into(),
+            "--from".into(),
+            "1k".into(),
+            "--to".into(),
+            "10k".into(),
+        ],
         files: vec![],
     });
     out.push(Case {

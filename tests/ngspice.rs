@@ -22,7 +22,7 @@ use stockfit::build::{Arrangement, Part, Piece};
 use stockfit::report::spice;
 use stockfit::spec::Spec;
 use stockfit::stage::{self, inverting};
-use stockfit::stock::inventory::PartKind;
+use stockfit::vocab::PartKind;
 
 /// Mid-band gain: the task's bound, 0.5 %.
 const GAIN_REL: f64 = 0.005;

@@ -17,7 +17,7 @@ use proptest::prelude::*;
 use proptest::test_runner::{Config, RngAlgorithm, TestRng, TestRunner};
 use stockfit::build::SlotValue;
 use stockfit::stage::Stage;
-use stockfit::stock::inventory::PartKind;
+use stockfit::vocab::PartKind;
 
 /// A random part for a slot of `kind`: value log-uniform over the kind's usual span, one of
 /// the usual tolerances, a rating now and then.

@@ -15,7 +15,7 @@
 use crate::build::Build;
 use crate::spec::{Spec, ToleranceMode};
 use crate::stage::{common, DcErrors, Stage};
-use crate::stock::inventory::PartKind;
+use crate::vocab::PartKind;
 use serde::Serialize;
 
 /// One cause's worst-case share of the output DC error.

@@ -15,9 +15,9 @@ pub mod yield_mc;
 use crate::build::{Build, Part};
 use crate::spec::Spec;
 use crate::stage::{common, DcErrors, OpAmp, Stage};
-use crate::stock::inventory::PartKind;
 use crate::stock::Stock;
 use crate::value::Unit;
+use crate::vocab::PartKind;
 use serde::Serialize;
 
 /// Derating of a capacitor's voltage: DC stress at most 80 % of the rating (common practice).

@@ -5,7 +5,7 @@ use crate::analysis::{evaluate, response};
 use crate::build::{Build, Part, Piece};
 use crate::spec::Spec;
 use crate::stage::{stage_for, OpAmp};
-use crate::stock::inventory::PartKind;
+use crate::vocab::PartKind;
 use approx::assert_relative_eq;
 use std::f64::consts::PI;
 

@@ -31,15 +31,7 @@ use rand::{Rng, SeedableRng};
 use rand_distr::StandardNormal;
 use serde::Serialize;
 
-/// How a piece's value spreads inside its tolerance.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "lowercase")]
-pub enum Distribution {
-    /// Evenly over ±tolerance.
-    Uniform,
-    /// Gaussian with σ = tolerance / 3, truncated at ±tolerance.
-    Normal,
-}
+pub use crate::vocab::Distribution;
 
 /// What to sample.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -408,7 +400,7 @@ mod tests {
     use super::*;
     use crate::analysis::evaluate;
     use crate::stage::stage_for;
-    use crate::stock::inventory::PartKind;
+    use crate::vocab::PartKind;
 
     const INVERTING: &str = r#"
 [stage]

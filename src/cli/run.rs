@@ -16,9 +16,10 @@ use stockfit::search::{self, diagnose, Progress, Ranked, Request};
 use stockfit::series::Series;
 use stockfit::spec::{self, SourceSpec, Spec};
 use stockfit::stage::{self, Stage};
-use stockfit::stock::inventory::{Inventory, PartKind};
+use stockfit::stock::inventory::Inventory;
 use stockfit::stock::{Source, Stock};
 use stockfit::value::{self, Unit};
+use stockfit::vocab::PartKind;
 
 /// Print to stdout; a closed pipe (`stockfit … | head`) is not an error worth a panic.
 macro_rules! say {
@@ -139,7 +140,7 @@ fn resolve_stock(spec: &Spec, base: &Path, over: Option<&str>) -> Result<(Stock,
         ),
     };
     let text = format!("resistors {}, capacitors {}", r.describe(), c.describe());
-    Ok((Stock::new(r, c, &spec.stock), text))
+    Ok((Stock::new(r, c, spec.stock.limits()), text))
 }
 
 /// Parse `SLOT=VALUE[/TOL]` entries into locked parts by slot index.

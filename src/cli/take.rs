@@ -18,10 +18,11 @@ use std::time::{SystemTime, UNIX_EPOCH};
 use stockfit::search::{self, Request};
 use stockfit::stage;
 use stockfit::stock::edit::{self, EditError};
-use stockfit::stock::inventory::{self, Inventory, PartKind, MAX_INVENTORY_BYTES};
+use stockfit::stock::inventory::{self, Inventory, MAX_INVENTORY_BYTES};
 use stockfit::stock::sha256::hex_digest;
 use stockfit::stock::{Source, Stock};
 use stockfit::value::{self, Unit};
+use stockfit::vocab::PartKind;
 
 /// Print to stdout; a closed pipe is not worth a panic.
 macro_rules! say {
@@ -127,7 +128,7 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
     let stock = Stock::new(
         Source::Inventory(inv.clone()),
         Source::Inventory(inv.clone()),
-        &spec.stock,
+        spec.stock.limits(),
     );
     let entries = lock_entries(&spec, &args.lock)?;
     let locked = parse_slot_values(stage, &stock, &entries, "--lock")?;

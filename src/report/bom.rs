@@ -12,9 +12,10 @@ use super::designators;
 use super::RenderError;
 use crate::build::{Build, LineKey, Piece};
 use crate::stage::Stage;
-use crate::stock::inventory::{Line, PartKind};
+use crate::stock::inventory::Line;
 use crate::stock::{Source, Stock};
 use crate::value::{format, Unit};
+use crate::vocab::PartKind;
 
 /// One line to fetch.
 #[derive(Debug, Clone, PartialEq)]
@@ -303,9 +304,10 @@ pub fn csv(stage: &dyn Stage, build: &Build, stock: Option<&Stock>) -> Result<St
 mod tests {
     use super::*;
     use crate::build::{Arrangement, Part, Piece};
-    use crate::spec::{Spec, StageKind};
+    use crate::spec::Spec;
     use crate::stage::stage_for;
     use crate::stock::inventory::Inventory;
+    use crate::vocab::StageKind;
     use std::sync::Arc;
 
     const INVENTORY: &str =
@@ -340,7 +342,7 @@ C,10u,20%,5,25V,,yes,electrolytic,0.15,box 3,\r\n";
             Stock::new(
                 Source::Inventory(inv.clone()),
                 Source::Inventory(inv.clone()),
-                &spec.stock,
+                spec.stock.limits(),
             ),
             inv,
         )

@@ -7,7 +7,7 @@
 
 use crate::build::Build;
 use crate::stage::Stage;
-use crate::stock::inventory::PartKind;
+use crate::vocab::PartKind;
 
 /// The op-amp's designator.
 pub const OPAMP: &str = "U1";
@@ -42,8 +42,8 @@ pub fn designators(stage: &dyn Stage, build: &Build) -> Vec<Vec<String>> {
 mod tests {
     use super::*;
     use crate::build::{Arrangement, Part, Piece};
-    use crate::spec::StageKind;
     use crate::stage::{inverting, stage_for};
+    use crate::vocab::StageKind;
 
     #[test]
     fn numbered_by_kind_in_slot_order() {

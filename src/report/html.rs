@@ -314,8 +314,8 @@ fn bom_table(out: &mut String, rows: &[bom::BomRow]) {
     for (i, r) in rows.iter().enumerate() {
         let c = bom::cells(i + 1, r);
         let unit = match r.kind {
-            crate::stock::inventory::PartKind::Resistor => Unit::Ohm,
-            crate::stock::inventory::PartKind::Capacitor => Unit::Farad,
+            crate::vocab::PartKind::Resistor => Unit::Ohm,
+            crate::vocab::PartKind::Capacitor => Unit::Farad,
         };
         let _ = writeln!(
             out,
@@ -455,10 +455,11 @@ mod tests {
     use super::*;
     use crate::analysis::evaluate;
     use crate::build::{Build, Part, Piece};
-    use crate::spec::StageKind;
     use crate::stage::stage_for;
-    use crate::stock::inventory::{Inventory, PartKind};
+    use crate::stock::inventory::Inventory;
     use crate::stock::Source;
+    use crate::vocab::PartKind;
+    use crate::vocab::StageKind;
     use std::sync::Arc;
 
     const SPEC: &str = r#"
@@ -496,7 +497,7 @@ C,100u,20%,10,25V,,yes,electrolytic,0.2,B2,\"=cmd|' /C calc'!A0\"\n";
         let stock = Stock::new(
             Source::Inventory(inv.clone()),
             Source::Inventory(inv.clone()),
-            &spec.stock,
+            spec.stock.limits(),
         );
         let p = |row: usize, kind| {
             let l = inv.lines.iter().find(|l| l.row == row).unwrap();

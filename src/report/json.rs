@@ -44,7 +44,7 @@ struct BuildJson<'a> {
 struct YieldJson {
     samples: usize,
     seed: u64,
-    distribution: crate::analysis::yield_mc::Distribution,
+    distribution: crate::vocab::Distribution,
     overall: f64,
     by_check: BTreeMap<String, f64>,
 }

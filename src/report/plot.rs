@@ -671,9 +671,9 @@ mod tests {
     use super::*;
     use crate::analysis::evaluate;
     use crate::build::Piece;
-    use crate::spec::StageKind;
     use crate::stage::{inverting, stage_for};
-    use crate::stock::inventory::PartKind;
+    use crate::vocab::PartKind;
+    use crate::vocab::StageKind;
 
     const SPEC: &str = r#"
         [stage]

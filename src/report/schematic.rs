@@ -16,8 +16,8 @@ use crate::build::{Arrangement, Build, Part};
 use crate::spec::Spec;
 use crate::stage::layout::{Layout, Placed, Side, P};
 use crate::stage::Stage;
-use crate::stock::inventory::PartKind;
 use crate::value::{format, Unit};
+use crate::vocab::PartKind;
 use std::fmt::Write;
 
 const FONT: &str = "font-family=\"sans-serif\"";
@@ -531,8 +531,8 @@ mod tests {
     use super::*;
     use crate::analysis::evaluate;
     use crate::build::Piece;
-    use crate::spec::StageKind;
     use crate::stage::{layout::MIN_SPAN, stage_for, DcPoint, Node};
+    use crate::vocab::StageKind;
     use std::collections::{BTreeSet, HashMap};
 
     /// Union-find over points.

@@ -25,7 +25,7 @@
 use crate::build::{Arrangement, Build, Part};
 use crate::spec::Spec;
 use crate::stage::{Node, Stage, OPEN_LOOP_GAIN};
-use crate::stock::inventory::PartKind;
+use crate::vocab::PartKind;
 use std::fmt::Write;
 
 /// Node names (see the module table).
@@ -417,8 +417,8 @@ pub fn netlist(spec: &Spec, stage: &dyn Stage, build: &Build) -> String {
 mod tests {
     use super::*;
     use crate::build::Piece;
-    use crate::spec::StageKind;
     use crate::stage::{inverting, non_inverting, stage_for};
+    use crate::vocab::StageKind;
     use approx::assert_relative_eq;
 
     /// Reads a SPICE number back (ngspice manual, scale factors, from memory: case-insensitive,

@@ -111,7 +111,7 @@ pub fn heading(spec: &Spec, stage: &dyn Stage, stock_text: &str) -> String {
 /// differ only in which line of a value they take can be told apart.
 fn table_label(part: &crate::build::Part) -> String {
     let mut label = part.label();
-    if part.kind != crate::stock::inventory::PartKind::Capacitor {
+    if part.kind != crate::vocab::PartKind::Capacitor {
         return label;
     }
     let mut kinds: Vec<&str> = part

@@ -9,10 +9,11 @@
 use super::{search, Ranked, Request, SearchError};
 use crate::analysis::{self, Check};
 use crate::build::{Build, Part};
-use crate::spec::{Combine, Spec};
-use crate::stock::inventory::PartKind;
+use crate::spec::Spec;
 use crate::stock::Source;
 use crate::value::{format_sig, Unit};
+use crate::vocab::Combine;
+use crate::vocab::PartKind;
 
 /// One requirement that blocks every build.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
@@ -610,7 +611,7 @@ mod tests {
         let stock = Stock::new(
             Source::Inventory(inv.clone()),
             Source::Inventory(inv),
-            &spec.stock,
+            spec.stock.limits(),
         );
         let stage = stage::stage_for(spec.stage);
         let req = Request {

@@ -19,10 +19,11 @@ pub mod walk;
 
 use crate::analysis::{self, Evaluation};
 use crate::build::{Build, LineKey, Part, SlotValue};
-use crate::spec::{Combine, Spec};
+use crate::spec::Spec;
 use crate::stage::{Stage, WalkPlan};
-use crate::stock::inventory::PartKind;
 use crate::stock::Stock;
+use crate::vocab::Combine;
+use crate::vocab::PartKind;
 use std::collections::HashMap;
 use std::sync::Arc;
 use table::{Real, Table};

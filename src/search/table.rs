@@ -12,10 +12,11 @@
 
 use crate::analysis;
 use crate::build::{self, Arrangement, LineKey, Part, Piece, SlotValue};
-use crate::spec::{Combine, Spec};
+use crate::spec::Spec;
 use crate::stage::Coord;
-use crate::stock::inventory::PartKind;
 use crate::stock::Stock;
+use crate::vocab::Combine;
+use crate::vocab::PartKind;
 use std::cell::OnceCell;
 use std::collections::HashMap;
 
@@ -801,7 +802,7 @@ mod tests {
                 series: Series::E6,
                 tolerance: 0.2,
             },
-            &spec.stock,
+            spec.stock.limits(),
         )
     }
 

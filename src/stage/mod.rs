@@ -9,8 +9,9 @@ pub mod layout;
 pub mod non_inverting;
 
 use crate::build::{Part, SlotValue};
-use crate::spec::{Spec, StageKind};
-use crate::stock::inventory::PartKind;
+use crate::spec::Spec;
+use crate::vocab::PartKind;
+use crate::vocab::StageKind;
 use num_complex::Complex64;
 
 /// One position in the circuit that a part fills. Names are the public contract (JSON,

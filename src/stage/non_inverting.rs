@@ -19,8 +19,9 @@ use super::{
     LogModel, LogRow, Network, OpAmp, SlotDef, SlotSum, Stage, WalkPlan,
 };
 use crate::build::SlotValue;
-use crate::spec::{Spec, StageKind};
-use crate::stock::inventory::PartKind;
+use crate::spec::Spec;
+use crate::vocab::PartKind;
+use crate::vocab::StageKind;
 use num_complex::Complex64;
 use std::f64::consts::PI;
 

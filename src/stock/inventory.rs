@@ -7,7 +7,7 @@
 //! own bookkeeping columns. Column names are matched trimmed and case-insensitively, with spaces
 //! and dashes read as underscores (`Unit Cost` is `unit_cost`). Lines starting with `#` are
 //! comments, empty lines are skipped, a UTF-8 byte-order mark and CRLF line ends are accepted.
-//! A value outside what any part of its kind can be ([`PLAUSIBLE_OHMS`], [`PLAUSIBLE_FARADS`])
+//! A value outside what any part of its kind can be ([`crate::vocab::PLAUSIBLE_OHMS`], [`crate::vocab::PLAUSIBLE_FARADS`])
 //! is reported as a value of the other kind typed on the wrong line (`c,4k7,…`). Input beyond
 //! [`MAX_INVENTORY_BYTES`] or [`MAX_INVENTORY_LINES`] is refused before it is parsed.
 //!
@@ -15,40 +15,12 @@
 //! `impl Read` and [`Inventory::parse_str`] a string; the binary adds the file name to errors.
 
 use std::collections::HashMap;
-use std::fmt;
 use std::io::Read;
 
 use serde::Serialize;
 
 use crate::value::{parse, Unit, ValueError};
-
-/// What a stock line holds. Only the two passive kinds a gain stage is built from.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
-#[serde(rename_all = "lowercase")]
-pub enum PartKind {
-    Resistor,
-    Capacitor,
-}
-
-impl PartKind {
-    /// Reads the `kind` cell: the full word or the short forms people type in a spreadsheet.
-    fn from_cell(text: &str) -> Option<PartKind> {
-        match text.to_ascii_lowercase().as_str() {
-            "resistor" | "res" | "r" => Some(PartKind::Resistor),
-            "capacitor" | "cap" | "c" => Some(PartKind::Capacitor),
-            _ => None,
-        }
-    }
-}
-
-impl fmt::Display for PartKind {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(match self {
-            PartKind::Resistor => "resistor",
-            PartKind::Capacitor => "capacitor",
-        })
-    }
-}
+use crate::vocab::{implausible, PartKind};
 
 /// One stock line: a number of identical parts in one place.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -164,43 +136,6 @@ fn missing_message(missing: &[String], found: &[String]) -> String {
         text.push_str("; the first row must be the header, e.g. `kind,value,tolerance,qty`");
     }
     text
-}
-
-/// Values this loader accepts as a resistor: 1 mΩ (a current-sense shunt) to 1 TΩ (an
-/// electrometer feedback resistor) — common practice. Outside, the value is most likely a
-/// capacitance typed on a resistor line (`100n` is 100 nΩ).
-pub const PLAUSIBLE_OHMS: (f64, f64) = (1e-3, 1e12);
-/// Values accepted as a capacitor: 1 fF to 100 mF (the largest aluminium electrolytic cans)
-/// — common practice. Above, the value is most likely a resistance or a bare number typed on a
-/// capacitor line (`4k7` is 4.7 kF, a bare `100` is 100 F).
-pub const PLAUSIBLE_FARADS: (f64, f64) = (1e-15, 0.1);
-
-/// Why `value` (SI units) cannot be a part of this kind, or `None` when it can.
-pub fn implausible(kind: PartKind, value: f64) -> Option<String> {
-    let (unit, (lo, hi), other) = match kind {
-        PartKind::Resistor => (Unit::Ohm, PLAUSIBLE_OHMS, "a capacitance"),
-        PartKind::Capacitor => (Unit::Farad, PLAUSIBLE_FARADS, "a resistance"),
-    };
-    if (lo..=hi).contains(&value) {
-        return None;
-    }
-    let f = |v| crate::value::format(v, unit);
-    let hint = match kind {
-        PartKind::Resistor if value < lo => {
-            format!("; is this {other}? (a small `m` is milli: write `M` for mega)")
-        }
-        PartKind::Capacitor if value > hi => {
-            format!("; is this {other}? A bare number is in farads: write `100n` or `4u7`")
-        }
-        _ => String::new(),
-    };
-    Some(format!(
-        "{} is outside the {} of any {kind} ({} … {}){hint}",
-        f(value),
-        unit.quantity(),
-        f(lo),
-        f(hi)
-    ))
 }
 
 fn rows_message(errors: &[RowError]) -> String {

@@ -10,8 +10,9 @@ pub mod sha256;
 
 use crate::build::{Arrangement, LineKey, Part, Piece};
 use crate::series::Series;
-use crate::spec::{Combine, StockSpec};
-use inventory::{Inventory, Line, PartKind};
+use crate::vocab::Combine;
+use crate::vocab::PartKind;
+use inventory::{Inventory, Line};
 use std::collections::HashMap;
 use std::sync::Arc;
 
@@ -33,6 +34,15 @@ impl Source {
             Source::Inventory(inv) => format!("inventory ({} lines)", inv.lines.len()),
         }
     }
+}
+
+/// What a stock offers of its sources: the value range of each kind and how a slot may be
+/// realised (the spec's `[stock]` limits).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Limits {
+    pub resistor_range: (f64, f64),
+    pub capacitor_range: (f64, f64),
+    pub combine: Combine,
 }
 
 /// The stock a search draws from.
@@ -61,7 +71,7 @@ fn piece_of(line: &Line) -> Piece {
 }
 
 impl Stock {
-    pub fn new(resistors: Source, capacitors: Source, spec: &StockSpec) -> Stock {
+    pub fn new(resistors: Source, capacitors: Source, spec: Limits) -> Stock {
         let mut qty: [Vec<u32>; 2] = [Vec::new(), Vec::new()];
         for (k, kind, source) in [
             (0, PartKind::Resistor, &resistors),
@@ -221,18 +231,12 @@ impl Stock {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::spec::DEFAULT_CAPACITOR_RANGE;
 
-    fn stock_spec(combine: Combine) -> StockSpec {
-        StockSpec {
-            resistors: crate::spec::SourceSpec::Series(Series::E12),
-            capacitors: crate::spec::SourceSpec::Series(Series::E6),
+    fn stock_spec(combine: Combine) -> Limits {
+        Limits {
             resistor_range: (1e3, 10e3),
-            capacitor_range: DEFAULT_CAPACITOR_RANGE,
-            resistor_tolerance: 0.01,
-            capacitor_tolerance: 0.2,
+            capacitor_range: (1e-9, 1e-3),
             combine,
-            distribution: crate::analysis::yield_mc::Distribution::Uniform,
         }
     }
 
@@ -245,7 +249,7 @@ mod tests {
 
     #[test]
     fn series_candidates_cover_the_range() {
-        let stock = Stock::new(e12(), e12(), &stock_spec(Combine::Single));
+        let stock = Stock::new(e12(), e12(), stock_spec(Combine::Single));
         let c = stock.candidates(PartKind::Resistor);
         // IEC 60063 E12 over one decade inclusive of both ends: 12 + 1 values.
         assert_eq!(c.len(), 13);
@@ -255,7 +259,7 @@ mod tests {
 
     #[test]
     fn pairs_stay_in_range_and_count() {
-        let stock = Stock::new(e12(), e12(), &stock_spec(Combine::Series));
+        let stock = Stock::new(e12(), e12(), stock_spec(Combine::Series));
         let c = stock.candidates(PartKind::Resistor);
         // Series pairs of 1k…10k that stay ≤ 10k: checked by brute force here.
         let vals = Series::E12.values_in(1e3, 10e3);
@@ -276,7 +280,7 @@ mod tests {
         let csv = "kind,value,tolerance,qty\nresistor,10k,1%,1\nresistor,4k7,1%,0\n";
         let inv = Arc::new(Inventory::parse_str(csv).unwrap());
         let spec = stock_spec(Combine::Series);
-        let stock = Stock::new(Source::Inventory(inv.clone()), e12(), &spec);
+        let stock = Stock::new(Source::Inventory(inv.clone()), e12(), spec);
         let c = stock.candidates(PartKind::Resistor);
         // 4k7 has none on hand; 10k + 10k needs two of a one-piece line.
         assert_eq!(c.len(), 1);

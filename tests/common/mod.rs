@@ -10,8 +10,9 @@ use stockfit::build::Part;
 use stockfit::search::{Outcome, Request, SearchError};
 use stockfit::spec::Spec;
 use stockfit::stage::{self, Stage};
-use stockfit::stock::inventory::{Inventory, PartKind};
+use stockfit::stock::inventory::Inventory;
 use stockfit::stock::{Source, Stock};
+use stockfit::vocab::PartKind;
 
 #[derive(Debug, Clone)]
 pub struct Case {
@@ -131,7 +132,7 @@ pub fn prepare(case: &Case) -> Result<Prepared, TestCaseError> {
     let stock = Stock::new(
         Source::Inventory(inv.clone()),
         Source::Inventory(inv),
-        &spec.stock,
+        spec.stock.limits(),
     );
     let locks: Vec<(usize, Part)> = case
         .lock

@@ -1,0 +1,152 @@
+//! The shared vocabulary below the spec: part kinds and their units, how slots are realised
+//! (`Combine`), how Monte Carlo draws a piece (`Distribution`), the circuit kinds (`StageKind`)
+//! and the plausible values of each part kind.
+//!
+//! Everything from the build up to the reports speaks these words; this module imports only
+//! `value`, so the top-level modules form a one-way graph (tests/module_graph.rs).
+
+use crate::value::{self, Unit};
+use serde::Serialize;
+use std::fmt;
+
+/// What a stock line holds. Only the two passive kinds a gain stage is built from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum PartKind {
+    Resistor,
+    Capacitor,
+}
+
+impl PartKind {
+    /// Reads the `kind` cell: the full word or the short forms people type in a spreadsheet.
+    pub(crate) fn from_cell(text: &str) -> Option<PartKind> {
+        match text.to_ascii_lowercase().as_str() {
+            "resistor" | "res" | "r" => Some(PartKind::Resistor),
+            "capacitor" | "cap" | "c" => Some(PartKind::Capacitor),
+            _ => None,
+        }
+    }
+}
+
+impl fmt::Display for PartKind {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(match self {
+            PartKind::Resistor => "resistor",
+            PartKind::Capacitor => "capacitor",
+        })
+    }
+}
+
+impl PartKind {
+    /// Both kinds, in the order tables are indexed by ([`PartKind::index`]).
+    pub const ALL: [PartKind; 2] = [PartKind::Resistor, PartKind::Capacitor];
+
+    /// The unit its values are in.
+    pub fn unit(self) -> Unit {
+        match self {
+            PartKind::Resistor => Unit::Ohm,
+            PartKind::Capacitor => Unit::Farad,
+        }
+    }
+
+    /// 0 for resistors, 1 for capacitors: the index of per-kind arrays.
+    pub fn index(self) -> usize {
+        match self {
+            PartKind::Resistor => 0,
+            PartKind::Capacitor => 1,
+        }
+    }
+}
+
+/// Values this loader accepts as a resistor: 1 mΩ (a current-sense shunt) to 1 TΩ (an
+/// electrometer feedback resistor) — common practice. Outside, the value is most likely a
+/// capacitance typed on a resistor line (`100n` is 100 nΩ).
+pub const PLAUSIBLE_OHMS: (f64, f64) = (1e-3, 1e12);
+/// Values accepted as a capacitor: 1 fF to 100 mF (the largest aluminium electrolytic cans)
+/// — common practice. Above, the value is most likely a resistance or a bare number typed on a
+/// capacitor line (`4k7` is 4.7 kF, a bare `100` is 100 F).
+pub const PLAUSIBLE_FARADS: (f64, f64) = (1e-15, 0.1);
+
+/// Why `value` (SI units) cannot be a part of this kind, or `None` when it can.
+pub fn implausible(kind: PartKind, value: f64) -> Option<String> {
+    let (unit, (lo, hi), other) = match kind {
+        PartKind::Resistor => (Unit::Ohm, PLAUSIBLE_OHMS, "a capacitance"),
+        PartKind::Capacitor => (Unit::Farad, PLAUSIBLE_FARADS, "a resistance"),
+    };
+    if (lo..=hi).contains(&value) {
+        return None;
+    }
+    let f = |v| value::format(v, unit);
+    let hint = match kind {
+        PartKind::Resistor if value < lo => {
+            format!("; is this {other}? (a small `m` is milli: write `M` for mega)")
+        }
+        PartKind::Capacitor if value > hi => {
+            format!("; is this {other}? A bare number is in farads: write `100n` or `4u7`")
+        }
+        _ => String::new(),
+    };
+    Some(format!(
+        "{} is outside the {} of any {kind} ({} … {}){hint}",
+        f(value),
+        unit.quantity(),
+        f(lo),
+        f(hi)
+    ))
+}
+
+/// Which stage to design.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum StageKind {
+    Inverting,
+    NonInverting,
+}
+
+impl StageKind {
+    pub const ALL: [StageKind; 2] = [StageKind::Inverting, StageKind::NonInverting];
+
+    pub fn name(self) -> &'static str {
+        match self {
+            StageKind::Inverting => "inverting",
+            StageKind::NonInverting => "non-inverting",
+        }
+    }
+
+    pub fn parse(text: &str) -> Option<StageKind> {
+        let t = text.trim().to_ascii_lowercase().replace('_', "-");
+        StageKind::ALL.into_iter().find(|k| k.name() == t)
+    }
+}
+
+/// How a slot may be realised from stock.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Combine {
+    Single,
+    Series,
+    Parallel,
+    Both,
+}
+
+impl Combine {
+    pub fn parse(text: &str) -> Option<Combine> {
+        match text.trim().to_ascii_lowercase().as_str() {
+            "single" => Some(Combine::Single),
+            "series" => Some(Combine::Series),
+            "parallel" => Some(Combine::Parallel),
+            "both" => Some(Combine::Both),
+            _ => None,
+        }
+    }
+}
+
+/// How a piece's value spreads inside its tolerance.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Distribution {
+    /// Evenly over ±tolerance.
+    Uniform,
+    /// Gaussian with σ = tolerance / 3, truncated at ±tolerance.
+    Normal,
+}
