@@ -24,10 +24,10 @@ use std::process::{Command, Stdio};
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 use stockfit::build::Part;
+use stockfit::circuit::{circuit_for, Circuit};
 use stockfit::search::{brute::brute_force, search, Outcome, Request};
 use stockfit::series::Series;
 use stockfit::spec::{SourceSpec, Spec};
-use stockfit::stage::{stage_for, Stage};
 use stockfit::stock::inventory::Inventory;
 use stockfit::stock::{Source, Stock};
 use stockfit::value::{format_sig, Unit};
@@ -158,7 +158,7 @@ impl Case {
 /// Everything a search of one case needs, built outside the timed code.
 struct Prepared {
     spec: Spec,
-    stage: &'static dyn Stage,
+    stage: &'static dyn Circuit,
     stock: Stock,
     locks: Vec<(usize, Part)>,
 }
@@ -202,7 +202,7 @@ fn series_stock(spec: &Spec) -> Stock {
 }
 
 fn prepare(case: Case) -> Prepared {
-    let stage_of = |spec: &Spec| stage_for(spec.stage);
+    let stage_of = |spec: &Spec| circuit_for(spec.stage);
     match case {
         Case::E96TwoPart | Case::E24Single => {
             let spec = spec_of(if case == Case::E96TwoPart {
@@ -230,7 +230,7 @@ fn prepare(case: Case) -> Prepared {
                 "the reduced instance has a build; if a change to the analysis made it \
                  infeasible, adjust REDUCED",
             );
-            let gain_pair = &p.stage.groups(&p.spec)[0];
+            let gain_pair = &p.stage.plan().expect("a hand-tuned plan").groups(&p.spec)[0];
             p.locks = (0..p.stage.slots().len())
                 .filter(|s| !gain_pair.contains(s))
                 .map(|s| (s, best.build.parts[s].clone()))

@@ -6,12 +6,12 @@
 
 pub mod analysis;
 pub mod build;
+pub mod circuit;
 pub mod error;
 pub mod report;
 pub mod search;
 pub mod series;
 pub mod spec;
-pub mod stage;
 pub mod stock;
 pub mod value;
 pub mod vocab;

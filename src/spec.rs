@@ -1053,7 +1053,7 @@ impl Spec {
         };
 
         let mut locks = Vec::new();
-        let stage_def = kind.map(crate::stage::stage_for);
+        let stage_def = kind.map(crate::circuit::circuit_for);
         for (slot, v) in lock_t {
             // The stage knows its slots; without a valid kind, judge by the name's prefix.
             let slot_kind = match stage_def {

@@ -529,7 +529,7 @@ fn render(d: &Draw) -> (String, Spec, Vec<(usize, String)>) {
     };
 
     // Locks on the stage's own slots, at most one per slot (a TOML table has unique keys).
-    let slots = stockfit::stage::stage_for(kind).slots();
+    let slots = stockfit::circuit::circuit_for(kind).slots();
     let mut lock_fields: Vec<Field> = Vec::new();
     let mut locks: Vec<(String, f64, Option<f64>)> = Vec::new();
     for &(i, t, tolerance) in &d.locks {

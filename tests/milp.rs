@@ -17,8 +17,8 @@ use common::{
 use proptest::prelude::*;
 use stockfit::analysis;
 use stockfit::build::SlotValue;
+use stockfit::circuit::common as eq;
 use stockfit::search::{brute::each_build, milp, search, slot_candidates};
-use stockfit::stage::common as eq;
 
 fn agree(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCaseError> {
     let p = prepare(case)?;
@@ -42,7 +42,11 @@ fn model_holds(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCase
     let Ok(cands) = slot_candidates(&p.request(1)) else {
         return Ok(());
     };
-    let model = p.stage.log_model(&p.spec);
+    let model = p
+        .stage
+        .plan()
+        .expect("a hand-tuned plan")
+        .log_model(&p.spec);
     let mut passed = 0;
     each_build(&cands, |build| {
         let e = analysis::evaluate(&p.spec, p.stage, &build, Some(&p.stock));

@@ -19,9 +19,9 @@ use std::path::{Path, PathBuf};
 use std::process::Command as Process;
 use stockfit::analysis::{evaluate, Metrics};
 use stockfit::build::{Arrangement, Part, Piece};
+use stockfit::circuit::{self, inverting};
 use stockfit::report::spice;
 use stockfit::spec::Spec;
-use stockfit::stage::{self, inverting};
 use stockfit::vocab::PartKind;
 
 /// Mid-band gain: the task's bound, 0.5 %.
@@ -552,7 +552,7 @@ fn two_piece_slots_agree_with_ngspice() {
     }
     let path = root().join("tests/data/spice-inverting-source-resistance.toml");
     let spec = Spec::from_toml(&std::fs::read_to_string(&path).unwrap()).unwrap();
-    let stage = stage::stage_for(spec.stage);
+    let stage = circuit::circuit_for(spec.stage);
     let r = |v| Piece::plain(v, 0.01);
     let c = |v| Piece::plain(v, 0.1);
     let single = |kind, p| Part::single(kind, p);

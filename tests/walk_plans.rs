@@ -1,4 +1,4 @@
-//! The contract of `Stage::walk` (see `stage::WalkPlan`), checked directly for every stage on
+//! The contract of `SearchPlan::walk` (see `circuit::WalkPlan`), checked directly for every stage on
 //! random specs and random parts (invented values; fixed seed):
 //!
 //! - along each side of the target the bound only grows, and once it says "fails" it keeps
@@ -16,7 +16,7 @@ use common::{case_strategy, cases, prepare};
 use proptest::prelude::*;
 use proptest::test_runner::{Config, RngAlgorithm, TestRng, TestRunner};
 use stockfit::build::SlotValue;
-use stockfit::stage::Stage;
+use stockfit::circuit::Circuit;
 use stockfit::vocab::PartKind;
 
 /// A random part for a slot of `kind`: value log-uniform over the kind's usual span, one of
@@ -48,12 +48,13 @@ static COMPARED: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize
 
 fn check_plans(
     spec: &stockfit::Spec,
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     context: &[Draw],
     probes: &[Draw],
 ) -> Result<(), TestCaseError> {
     let slots = stage.slots();
-    let groups = stage.groups(spec);
+    let sp = stage.plan().expect("a hand-tuned plan");
+    let groups = sp.groups(spec);
     // Every slot gets a random part; the walk of group g sees the groups before it.
     let all: Vec<SlotValue> = slots
         .iter()
@@ -66,7 +67,7 @@ fn check_plans(
     let mut parts: Vec<Option<SlotValue>> = vec![None; slots.len()];
     for (g, group) in groups.iter().enumerate() {
         for (k, &slot) in group.iter().enumerate() {
-            let plan = stage.walk(spec, g, k, &parts);
+            let plan = sp.walk(spec, g, k, &parts);
             let kind = slots[slot].kind;
             // Probe values on both sides of the target, sorted outward.
             // Half spread over the kind's span, half within ±10 % of the target, where the
@@ -145,7 +146,7 @@ fn check_plans(
                         vec![None]
                     } else {
                         let other = group[k + 1];
-                        let inner = stage.walk(spec, g, k + 1, &with);
+                        let inner = sp.walk(spec, g, k + 1, &with);
                         probes
                             .iter()
                             .enumerate()
@@ -167,7 +168,7 @@ fn check_plans(
                         if let Some(c) = c {
                             full[group[k + 1]] = Some(c);
                         }
-                        let share = stage.group_partial(spec, g, &full);
+                        let share = sp.group_partial(spec, g, &full);
                         let outside = coord(v) < plan.window.0 || coord(v) > plan.window.1;
                         if outside && share.is_some() {
                             return Err(TestCaseError::fail(format!(

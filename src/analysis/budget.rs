@@ -13,8 +13,8 @@
 //! cause *can* do.
 
 use crate::build::Build;
+use crate::circuit::{common, Circuit, DcErrors};
 use crate::spec::{Spec, ToleranceMode};
-use crate::stage::{common, DcErrors, Stage};
 use crate::vocab::PartKind;
 use serde::Serialize;
 
@@ -47,7 +47,7 @@ pub struct DcBudget {
 /// * offset current: ±I_os/2 into the inputs in opposite senses, (I_os/2)(R_fb + R_p);
 /// * offset voltage: V_os times the DC noise gain, which is 1 in both our stages (c_in and
 ///   c_g block DC, so at DC the amplifier is a follower of its + input).
-pub fn dc_budget(spec: &Spec, stage: &dyn Stage, build: &Build) -> DcBudget {
+pub fn dc_budget(spec: &Spec, stage: &dyn Circuit, build: &Build) -> DcBudget {
     let mut worst = spec.clone();
     worst.tolerance_mode = ToleranceMode::Worst;
     let parts: Vec<_> = build.parts.iter().collect();
@@ -121,7 +121,7 @@ mod tests {
     use super::*;
     use crate::analysis::evaluate;
     use crate::build::{Part, Piece};
-    use crate::stage::stage_for;
+    use crate::circuit::circuit_for;
     use approx::assert_relative_eq;
 
     const INVERTING: &str = r#"
@@ -197,7 +197,7 @@ input_offset_voltage = "3 mV"
             (&non, non_inverting(0.0), 100e3, (220e3, 180e3)),
         ] {
             let rp = hi * lo / (hi + lo);
-            let budget = dc_budget(s, stage_for(s.stage), &b);
+            let budget = dc_budget(s, circuit_for(s.stage), &b);
             assert_eq!(volts(&budget, "divider_tolerance"), 0.0);
             assert_relative_eq!(
                 volts(&budget, "bias_current"),
@@ -222,7 +222,7 @@ input_offset_voltage = "3 mV"
         let mut b = inverting(0.01);
         b.parts[2] = r(100e3, 0.01);
         b.parts[3] = r(100e3, 0.01);
-        let budget = dc_budget(&inv, stage_for(inv.stage), &b);
+        let budget = dc_budget(&inv, circuit_for(inv.stage), &b);
         assert_relative_eq!(
             volts(&budget, "divider_tolerance"),
             0.045,
@@ -233,7 +233,7 @@ input_offset_voltage = "3 mV"
     #[test]
     fn total_bounds_the_evaluated_dc_range() {
         for s in specs() {
-            let stage = stage_for(s.stage);
+            let stage = circuit_for(s.stage);
             for (b, tight) in [
                 (inverting(0.01), false),
                 (non_inverting(0.05), false),
@@ -267,7 +267,7 @@ input_offset_voltage = "3 mV"
     fn nominal_mode_still_budgets_tolerances() {
         let [mut inv, _] = specs();
         inv.tolerance_mode = ToleranceMode::Nominal;
-        let budget = dc_budget(&inv, stage_for(inv.stage), &inverting(0.01));
+        let budget = dc_budget(&inv, circuit_for(inv.stage), &inverting(0.01));
         assert!(volts(&budget, "divider_tolerance") > 0.0);
     }
 }

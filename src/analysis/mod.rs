@@ -13,8 +13,8 @@ mod textbook_checks;
 pub mod yield_mc;
 
 use crate::build::{Build, Part};
+use crate::circuit::{common, Circuit, DcErrors, OpAmp};
 use crate::spec::Spec;
-use crate::stage::{common, DcErrors, OpAmp, Stage};
 use crate::stock::Stock;
 use crate::value::Unit;
 use crate::vocab::PartKind;
@@ -173,7 +173,7 @@ pub struct Evaluation {
 /// band, the output DC budget by cause, and (with options) the Monte Carlo yield.
 pub fn complete(
     spec: &Spec,
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     build: &Build,
     evaluation: &mut Evaluation,
     yield_options: Option<&yield_mc::YieldOptions>,
@@ -234,7 +234,7 @@ pub fn pieces_points(
 }
 
 /// The ranking objective of a build (README, "Goals").
-pub fn score(spec: &Spec, stage: &dyn Stage, build: &Build) -> f64 {
+pub fn score(spec: &Spec, stage: &dyn Circuit, build: &Build) -> f64 {
     let v = build.values();
     common::gain_points(spec, stage.mid_gain(spec, &v))
         + common::offset_points(spec, stage.offset_error(spec, &v))
@@ -255,7 +255,7 @@ fn fold_range(it: impl Iterator<Item = f64>) -> (f64, f64) {
 /// Analyse a build exactly. `stock`, when given, adds the quantity check.
 pub fn evaluate(
     spec: &Spec,
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     build: &Build,
     stock: Option<&Stock>,
 ) -> Evaluation {
@@ -648,7 +648,7 @@ mod divider_current_tests {
             "[stage]\nkind = \"inverting\"\nsupply = 9\ngain = -10\nload = 10000\nband = [20, 20000]\nbias_current_max = \"100 uA\"\n",
         )
         .unwrap();
-        let stage = crate::stage::stage_for(spec.stage);
+        let stage = crate::circuit::circuit_for(spec.stage);
         let r = |v: f64| Part::single(PartKind::Resistor, Piece::plain(v, 0.01));
         let c = |v: f64| Part::single(PartKind::Capacitor, Piece::plain(v, 0.1));
         let judge = |div: f64| {

@@ -27,8 +27,8 @@
 //! A source resistance sits where the signal enters, so its transfer is the stage's signal
 //! response; the tests hold the two together.
 
+use crate::circuit::{Circuit, OpAmp};
 use crate::spec::Spec;
-use crate::stage::{OpAmp, Stage};
 use num_complex::Complex64;
 use serde::Serialize;
 
@@ -99,15 +99,15 @@ pub struct NoiseReport {
     pub by_source: Vec<SourceNoise>,
 }
 
-pub use crate::stage::{NoiseCircuit as Circuit, NoisePlace as Place};
+pub use crate::circuit::{NoiseCircuit, NoisePlace as Place};
 
 fn re(r: f64) -> Complex64 {
     Complex64::new(r, 0.0)
 }
 
 /// The stage's noise circuit at `f` (each stage describes its own, see
-/// [`Stage::noise_circuit`]).
-fn circuit(stage: &dyn Stage, spec: &Spec, v: &[f64], f: f64) -> Circuit {
+/// [`Circuit::noise_circuit`]).
+fn circuit(stage: &dyn Circuit, spec: &Spec, v: &[f64], f: f64) -> NoiseCircuit {
     stage.noise_circuit(spec, v, f)
 }
 
@@ -115,7 +115,7 @@ fn circuit(stage: &dyn Stage, spec: &Spec, v: &[f64], f: f64) -> Circuit {
 /// stage's slot order, with `source_resistance` where there is one), then `en` and `in`.
 pub fn output_psd(
     inputs: &NoiseInputs,
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     spec: &Spec,
     v: &[f64],
     opamp: &OpAmp,
@@ -184,7 +184,7 @@ pub fn integrate_band(f_lo: f64, f_hi: f64, mut psd: impl FnMut(f64) -> f64) -> 
 }
 
 /// Noise of a build with slot values `v` over the spec's band, at the load.
-pub fn noise(inputs: &NoiseInputs, stage: &dyn Stage, spec: &Spec, v: &[f64]) -> NoiseReport {
+pub fn noise(inputs: &NoiseInputs, stage: &dyn Circuit, spec: &Spec, v: &[f64]) -> NoiseReport {
     let opamp = OpAmp::of(spec);
     let (f_lo, f_hi) = spec.band;
     let f_mid = (f_lo * f_hi).sqrt();
@@ -229,7 +229,7 @@ pub fn noise(inputs: &NoiseInputs, stage: &dyn Stage, spec: &Spec, v: &[f64]) ->
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::stage::stage_for;
+    use crate::circuit::circuit_for;
     use approx::assert_relative_eq;
 
     const INVERTING: &str = r#"
@@ -287,7 +287,7 @@ band = ["20 Hz", "20 kHz"]
         // R_fb's noise at the output as is, R_in's times the gain, the divider's times the
         // noise gain. With R_in = R_fb = R and R_p = R: 4kT·(R + R + 4R) = 4kT·6R.
         let s = spec(INVERTING);
-        let stage = stage_for(s.stage);
+        let stage = circuit_for(s.stage);
         let v = inverting_values(10e3, 10e3, 20e3, 20e3);
         let quiet = NoiseInputs::new(0.0, 0.0);
         let psd = output_psd(&quiet, stage, &s, &v, &OpAmp { gbw: None }, 1e3);
@@ -303,7 +303,7 @@ band = ["20 Hz", "20 kHz"]
         // The full sum (op-amp noise texts, from memory), G = 4.7, NG = 1 + G:
         //   e_out² = 4kT(R_fb + R_in G² + R_p NG²) + e_n² NG² + i_n² (R_fb² + R_p² NG²).
         let s = spec(INVERTING);
-        let stage = stage_for(s.stage);
+        let stage = circuit_for(s.stage);
         let (r_in, r_fb, hi, lo) = (10e3, 47e3, 100e3, 82e3);
         let v = inverting_values(r_in, r_fb, hi, lo);
         let inputs = NoiseInputs::new(12e-9, 0.8e-12);
@@ -342,7 +342,7 @@ output_peak = "3 V"
         // NG = 1 + R_fb/R_g, R_p' = R_hi ∥ R_lo ∥ R_s (parallel resistors' noise is that of
         // their parallel value, 4kT·R_p').
         let s = spec(NON_INVERTING);
-        let stage = stage_for(s.stage);
+        let stage = circuit_for(s.stage);
         let v = non_inverting_values();
         let (en, in_) = (5e-9f64, 2e-12f64);
         let inputs = NoiseInputs::new(en, in_);
@@ -372,7 +372,7 @@ output_peak = "3 V"
             (non, vec![1e-6, 220e3, 220e3, 100e3, 10e3, 22e-6, 4.7e-6]),
         ];
         for (s, v) in &cases {
-            let stage = stage_for(s.stage);
+            let stage = circuit_for(s.stage);
             let opamp = OpAmp::of(s);
             for f in [0.5, 5.0, 20.0, 1e3, 20e3, 200e3] {
                 let psd = output_psd(&NoiseInputs::new(0.0, 0.0), stage, s, v, &opamp, f);
@@ -390,7 +390,7 @@ output_peak = "3 V"
         // density, calculus), e_n·NG·√B / G at the input.
         let mut s = spec(NON_INVERTING);
         s.source_resistance = 0.0;
-        let stage = stage_for(s.stage);
+        let stage = circuit_for(s.stage);
         let v = non_inverting_values();
         let mut inputs = NoiseInputs::new(10e-9, 0.0);
         // Take the resistors out of the picture by cooling them to 0 K.
@@ -416,7 +416,7 @@ output_peak = "3 V"
     fn powers_add_and_shares_sum_to_one() {
         let mut s = spec(NON_INVERTING);
         s.amplifier.gbw = Some(1e6);
-        let stage = stage_for(s.stage);
+        let stage = circuit_for(s.stage);
         let v = vec![1e-6, 220e3, 220e3, 100e3, 10e3, 22e-6, 4.7e-6];
         let r = noise(&NoiseInputs::new(8e-9, 1e-12), stage, &s, &v);
         let sum: f64 = r.by_source.iter().map(|x| x.output_rms_v.powi(2)).sum();

@@ -4,11 +4,11 @@
 //! op-amp's single pole together), not one pole at a time: bisection in log frequency on
 //! |H(f)| = |H_mid|/√2, where H_mid is the ideal mid-band gain.
 
+use crate::circuit::{Circuit, OpAmp};
 use crate::spec::Spec;
-use crate::stage::{OpAmp, Stage};
 
 /// Loss in dB at `f` against the ideal mid-band gain.
-pub fn loss_db(stage: &dyn Stage, spec: &Spec, v: &[f64], opamp: &OpAmp, f: f64) -> f64 {
+pub fn loss_db(stage: &dyn Circuit, spec: &Spec, v: &[f64], opamp: &OpAmp, f: f64) -> f64 {
     let reference = stage.mid_gain(spec, v).abs();
     20.0 * (reference / stage.response(spec, v, opamp, f).norm()).log10()
 }
@@ -25,7 +25,7 @@ const HALF_POWER_DB: f64 = 10.0 * std::f64::consts::LOG10_2;
 /// `rising`). The result is within 1e-10 relative:
 /// far below the 1 ppm any check needs.
 fn bisect(
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     spec: &Spec,
     v: &[f64],
     opamp: &OpAmp,
@@ -50,7 +50,7 @@ fn bisect(
 }
 
 /// The −3 dB low corner, `None` when the band's centre is itself 3 dB down (no passband).
-pub fn low_corner(stage: &dyn Stage, spec: &Spec, v: &[f64], opamp: &OpAmp) -> Option<f64> {
+pub fn low_corner(stage: &dyn Circuit, spec: &Spec, v: &[f64], opamp: &OpAmp) -> Option<f64> {
     let c = centre(spec);
     if loss_db(stage, spec, v, opamp, c) >= HALF_POWER_DB {
         return None;
@@ -63,7 +63,7 @@ pub fn low_corner(stage: &dyn Stage, spec: &Spec, v: &[f64], opamp: &OpAmp) -> O
 }
 
 /// The −3 dB high corner, `None` when the response stays up (ideal op-amp).
-pub fn high_corner(stage: &dyn Stage, spec: &Spec, v: &[f64], opamp: &OpAmp) -> Option<f64> {
+pub fn high_corner(stage: &dyn Circuit, spec: &Spec, v: &[f64], opamp: &OpAmp) -> Option<f64> {
     let c = centre(spec);
     if loss_db(stage, spec, v, opamp, c) >= HALF_POWER_DB {
         return None;
@@ -79,7 +79,7 @@ pub fn high_corner(stage: &dyn Stage, spec: &Spec, v: &[f64], opamp: &OpAmp) -> 
 /// `guess` (tolerances below 50 % move an RC corner by less than 4×): bisection in that bracket,
 /// falling back to the full search when the bracket does not hold the crossing.
 pub fn low_corner_near(
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     spec: &Spec,
     v: &[f64],
     opamp: &OpAmp,
@@ -99,7 +99,7 @@ pub fn low_corner_near(
 
 /// The high corner near `guess`, as [`low_corner_near`].
 pub fn high_corner_near(
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     spec: &Spec,
     v: &[f64],
     opamp: &OpAmp,
@@ -121,7 +121,7 @@ pub fn high_corner_near(
 /// monotone below its passband, so a vertex's corner exceeds the best so far exactly when it
 /// is still 3 dB down there: one evaluation per vertex, a bisection only for a new worst.
 pub fn worst_low_corner(
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     spec: &Spec,
     vertices: &[Vec<f64>],
     opamp: &OpAmp,
@@ -143,7 +143,7 @@ pub fn worst_low_corner(
 /// The lowest high corner over `vertices`, as [`worst_low_corner`]; `None` when some vertex
 /// has no high corner (ideal amplifier) or no passband.
 pub fn worst_high_corner(
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     spec: &Spec,
     vertices: &[Vec<f64>],
     opamp: &OpAmp,

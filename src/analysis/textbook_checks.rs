@@ -3,8 +3,8 @@
 
 use crate::analysis::{evaluate, response};
 use crate::build::{Build, Part, Piece};
+use crate::circuit::{circuit_for, OpAmp};
 use crate::spec::Spec;
-use crate::stage::{stage_for, OpAmp};
 use crate::vocab::PartKind;
 use approx::assert_relative_eq;
 use std::f64::consts::PI;
@@ -51,7 +51,7 @@ fn full_power_bandwidth() {
     // 7.96 kHz (the classic worked example, from memory: "about 8 kHz").
     let spec = Spec::from_toml(INVERTING).unwrap();
     let build = inverting(10e3, 10e-6, 10e-6);
-    let eval = evaluate(&spec, stage_for(spec.stage), &build, None);
+    let eval = evaluate(&spec, circuit_for(spec.stage), &build, None);
     let check = eval.checks.iter().find(|c| c.name == "slew_rate").unwrap();
     let fp = 0.5e6 / (2.0 * PI * 10.0);
     assert_relative_eq!(check.value, fp, max_relative = 1e-12);
@@ -77,7 +77,7 @@ fn equal_high_pass_sections_combine() {
     // texts, from memory). Inverting stage, ideal op-amp: the input network (R_in, C_in) and
     // the output network (R_L, C_out) are the two sections.
     let spec = Spec::from_toml(INVERTING).unwrap();
-    let stage = stage_for(spec.stage);
+    let stage = circuit_for(spec.stage);
     let ideal = OpAmp { gbw: None };
     let fc = 1.0 / (2.0 * PI * 10e3 * 1e-6);
     let combined = |n: f64| fc / (2f64.powf(1.0 / n) - 1.0).sqrt();

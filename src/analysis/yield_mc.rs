@@ -24,8 +24,8 @@
 
 use super::{response, Bound, CAP_DERATING, RESISTOR_DERATING};
 use crate::build::{Arrangement, Build, Part, Piece};
+use crate::circuit::{common, Circuit, DcErrors, OpAmp};
 use crate::spec::Spec;
-use crate::stage::{common, DcErrors, OpAmp, Stage};
 use rand::rngs::StdRng;
 use rand::{Rng, SeedableRng};
 use rand_distr::StandardNormal;
@@ -160,7 +160,7 @@ enum Judge {
 }
 
 /// The judges in `analysis::checks` order, with their check names.
-fn judges(spec: &Spec, stage: &dyn Stage, build: &Build) -> Vec<(String, Judge)> {
+fn judges(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Vec<(String, Judge)> {
     let slots = stage.slots();
     let v = build.values();
     let mut out = Vec::new();
@@ -295,7 +295,7 @@ impl Sampler {
 /// requirement `analysis::evaluate` checks (but the stock quantity). Deterministic for a seed.
 pub fn monte_carlo(
     spec: &Spec,
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     build: &Build,
     opts: &YieldOptions,
 ) -> YieldReport {
@@ -399,7 +399,7 @@ pub fn monte_carlo(
 mod tests {
     use super::*;
     use crate::analysis::evaluate;
-    use crate::stage::stage_for;
+    use crate::circuit::circuit_for;
     use crate::vocab::PartKind;
 
     const INVERTING: &str = r#"
@@ -440,7 +440,7 @@ band = ["20 Hz", "20 kHz"]
             seed: 7,
             distribution: d,
         };
-        monte_carlo(spec, stage_for(spec.stage), build, &opts)
+        monte_carlo(spec, circuit_for(spec.stage), build, &opts)
     }
 
     /// A seven-part non-inverting build with every kind of check: ratings, polarity, power,
@@ -507,7 +507,7 @@ slew_rate = "0.5 V/us"
         assert_eq!(a, b);
         let other = monte_carlo(
             &spec,
-            stage_for(spec.stage),
+            circuit_for(spec.stage),
             &build,
             &YieldOptions {
                 samples: 2000,
@@ -522,7 +522,7 @@ slew_rate = "0.5 V/us"
     fn check_names_match_evaluate() {
         let spec = Spec::from_toml(RICH).unwrap();
         let build = rich_build(0.01, 0.2, 16.0);
-        let eval = evaluate(&spec, stage_for(spec.stage), &build, None);
+        let eval = evaluate(&spec, circuit_for(spec.stage), &build, None);
         let y = run(&spec, &build, 10, Distribution::Uniform);
         let names: Vec<&str> = eval.checks.iter().map(|c| c.name.as_str()).collect();
         let ours: Vec<&str> = y.by_check.iter().map(|(n, _)| n.as_str()).collect();
@@ -536,7 +536,7 @@ slew_rate = "0.5 V/us"
     fn worst_case_pass_means_full_yield() {
         let spec = Spec::from_toml(RICH).unwrap();
         let build = rich_build(0.01, 0.2, 16.0);
-        let eval = evaluate(&spec, stage_for(spec.stage), &build, None);
+        let eval = evaluate(&spec, circuit_for(spec.stage), &build, None);
         assert!(eval.pass, "{:#?}", eval.checks);
         for d in [Distribution::Uniform, Distribution::Normal] {
             let y = run(&spec, &build, 3000, d);
@@ -558,7 +558,7 @@ slew_rate = "0.5 V/us"
         spec.gain = 11.5;
         spec.gain_tolerance = Some(0.01);
         let build = rich_build(0.0, 0.0, 5.0);
-        let eval = evaluate(&spec, stage_for(spec.stage), &build, None);
+        let eval = evaluate(&spec, circuit_for(spec.stage), &build, None);
         assert!(!eval.pass);
         let y = run(&spec, &build, 50, Distribution::Uniform);
         for (check, (name, f)) in eval.checks.iter().zip(&y.by_check) {

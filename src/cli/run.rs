@@ -11,11 +11,11 @@ use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 use stockfit::build::Part;
+use stockfit::circuit::{self, Circuit};
 use stockfit::report::{bom, html, json, plot, schematic, spice, table};
 use stockfit::search::{self, diagnose, Progress, Ranked, Request};
 use stockfit::series::Series;
 use stockfit::spec::{self, SourceSpec, Spec};
-use stockfit::stage::{self, Stage};
 use stockfit::stock::inventory::Inventory;
 use stockfit::stock::{Source, Stock};
 use stockfit::value::{self, Unit};
@@ -145,14 +145,14 @@ fn resolve_stock(spec: &Spec, base: &Path, over: Option<&str>) -> Result<(Stock,
 
 /// Parse `SLOT=VALUE[/TOL]` entries into locked parts by slot index.
 pub(super) fn parse_slot_values(
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     stock: &Stock,
     entries: &[(String, String)],
     flag: &str,
 ) -> Result<Vec<(usize, Part)>, Failure> {
     let mut out: Vec<(usize, Part)> = Vec::new();
     for (slot, text) in entries {
-        let idx = stage::slot_index(stage, slot).ok_or_else(|| {
+        let idx = circuit::slot_index(stage, slot).ok_or_else(|| {
             let names: Vec<&str> = stage.slots().iter().map(|s| s.name).collect();
             anyhow!(
                 "{flag} {slot}=…: the {} stage has no slot `{slot}`; its slots are {}",
@@ -245,7 +245,7 @@ fn write_json(output: &Output, text: &str) -> Result<(), Failure> {
 fn write_spice(
     output: &Output,
     spec: &Spec,
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     build: &stockfit::Build,
 ) -> Result<(), Failure> {
     match &output.spice {
@@ -261,7 +261,7 @@ fn write_spice(
 fn write_visuals(
     output: &Output,
     spec: &Spec,
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     ranked: &[Ranked],
     stock: &Stock,
     stock_text: &str,
@@ -300,7 +300,7 @@ fn pick(
     top: usize,
     output: &Output,
 ) -> Result<i32, Failure> {
-    let stage = stage::stage_for(spec.stage);
+    let stage = circuit::circuit_for(spec.stage);
     let (stock, stock_text) = resolve_stock(spec, base, stock_over)?;
     let entries = lock_entries(spec, locks)?;
     let locked = parse_slot_values(stage, &stock, &entries, "--lock")?;
@@ -443,7 +443,7 @@ fn check(
     set: &[String],
     output: &Output,
 ) -> Result<i32, Failure> {
-    let stage = stage::stage_for(spec.stage);
+    let stage = circuit::circuit_for(spec.stage);
     let (stock, stock_text) = resolve_stock(spec, base, stock_over)?;
     let entries = split_entries(set, "--set")?;
     let given = parse_slot_values(stage, &stock, &entries, "--set")?;
@@ -467,7 +467,7 @@ fn check(
         p.locked = false;
         let tol = entries
             .iter()
-            .find(|(slot, _)| stage::slot_index(stage, slot) == Some(i))
+            .find(|(slot, _)| circuit::slot_index(stage, slot) == Some(i))
             .and_then(|(_, text)| text.contains('/').then_some(p.pieces[0].tolerance));
         if let Some(piece) = stock.find_piece(p.kind, p.value, tol) {
             p = Part::single(p.kind, piece);

@@ -15,8 +15,8 @@ use std::io::{self, Read, Write};
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use std::time::{SystemTime, UNIX_EPOCH};
+use stockfit::circuit;
 use stockfit::search::{self, Request};
-use stockfit::stage;
 use stockfit::stock::edit::{self, EditError};
 use stockfit::stock::inventory::{self, Inventory, MAX_INVENTORY_BYTES};
 use stockfit::stock::sha256::hex_digest;
@@ -124,7 +124,7 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
         inventory::parse_bytes(&original).with_context(|| format!("in {}", path.display()))?,
     );
 
-    let stage = stage::stage_for(spec.stage);
+    let stage = circuit::circuit_for(spec.stage);
     let stock = Stock::new(
         Source::Inventory(inv.clone()),
         Source::Inventory(inv.clone()),

@@ -11,7 +11,7 @@
 use super::designators;
 use super::RenderError;
 use crate::build::{Build, LineKey, Piece};
-use crate::stage::Stage;
+use crate::circuit::Circuit;
 use crate::stock::inventory::Line;
 use crate::stock::{Source, Stock};
 use crate::value::{format, Unit};
@@ -89,7 +89,7 @@ fn number(d: &str) -> usize {
 /// `stock` (the stock the build was drawn from) adds the inventory's location, note and the
 /// pieces on hand; each kind is looked up in its own source, so resistors and capacitors may
 /// come from different files.
-pub fn rows(stage: &dyn Stage, build: &Build, stock: Option<&Stock>) -> Vec<BomRow> {
+pub fn rows(stage: &dyn Circuit, build: &Build, stock: Option<&Stock>) -> Vec<BomRow> {
     let names = designators::designators(stage, build);
     let slots = stage.slots();
     let mut rows: Vec<(Key, BomRow)> = Vec::new();
@@ -264,7 +264,11 @@ pub fn cells(item: usize, r: &BomRow) -> Vec<String> {
 
 /// The BOM of `build` as CSV text (see the module docs). `stock` is the stock the build was
 /// drawn from, for the inventory's location and note; `None` leaves those cells empty.
-pub fn csv(stage: &dyn Stage, build: &Build, stock: Option<&Stock>) -> Result<String, RenderError> {
+pub fn csv(
+    stage: &dyn Circuit,
+    build: &Build,
+    stock: Option<&Stock>,
+) -> Result<String, RenderError> {
     let rows = rows(stage, build, stock);
     let mut w = ::csv::WriterBuilder::new()
         .terminator(::csv::Terminator::CRLF)
@@ -304,8 +308,8 @@ pub fn csv(stage: &dyn Stage, build: &Build, stock: Option<&Stock>) -> Result<St
 mod tests {
     use super::*;
     use crate::build::{Arrangement, Part, Piece};
+    use crate::circuit::circuit_for;
     use crate::spec::Spec;
-    use crate::stage::stage_for;
     use crate::stock::inventory::Inventory;
     use crate::vocab::StageKind;
     use std::sync::Arc;
@@ -394,7 +398,7 @@ C,10u,20%,5,25V,,yes,electrolytic,0.15,box 3,\r\n";
     #[test]
     fn one_row_per_line_and_quantities_add_up() {
         let (stock, inv) = stock();
-        let stage = stage_for(StageKind::Inverting);
+        let stage = circuit_for(StageKind::Inverting);
         let b = build(&inv);
         let rows = rows(stage, &b, Some(&stock));
         // Lines: 10k (r_in + half of r_fb), 47k, 100k (both divider halves), 1u, 10u.
@@ -426,7 +430,7 @@ C,10u,20%,5,25V,,yes,electrolytic,0.15,box 3,\r\n";
     #[test]
     fn hostile_notes_are_neutralised_and_survive_quoting() {
         let (stock, inv) = stock();
-        let stage = stage_for(StageKind::Inverting);
+        let stage = circuit_for(StageKind::Inverting);
         let text = csv(stage, &build(&inv), Some(&stock)).unwrap();
         let table = parse(&text);
         let note = |i: usize| table[i][14].as_str();
@@ -455,7 +459,7 @@ C,10u,20%,5,25V,,yes,electrolytic,0.15,box 3,\r\n";
     #[test]
     fn large_series_capacitors_stay_apart() {
         // 4.7 µF, 10 µF and 100 µF from a series are three lines, not one.
-        let stage = stage_for(StageKind::Inverting);
+        let stage = circuit_for(StageKind::Inverting);
         let r = |v| Part::single(PartKind::Resistor, Piece::plain(v, 0.01));
         let c = |v| Part::single(PartKind::Capacitor, Piece::plain(v, 0.2));
         let b = Build {
@@ -500,7 +504,7 @@ C,10u,20%,5,25V,,yes,electrolytic,0.15,box 3,\r\n";
 
     #[test]
     fn series_values_and_locks() {
-        let stage = stage_for(StageKind::Inverting);
+        let stage = circuit_for(StageKind::Inverting);
         let r = |v| Part::single(PartKind::Resistor, Piece::plain(v, 0.01));
         let c = |v| Part::single(PartKind::Capacitor, Piece::plain(v, 0.1));
         let mut parts = vec![r(10e3), r(47e3), r(100e3), r(100e3), c(1e-6), c(1e-6)];

@@ -6,17 +6,17 @@
 //! (common practice; IEEE 315 / IEC 81346 letter codes R and C, from memory).
 
 use crate::build::Build;
-use crate::stage::Stage;
+use crate::circuit::Circuit;
 use crate::vocab::PartKind;
 
 /// The op-amp's designator.
 pub const OPAMP: &str = "U1";
 
 /// The designators of `build`'s pieces, indexed `[slot][piece]`.
-pub fn designators(stage: &dyn Stage, build: &Build) -> Vec<Vec<String>> {
+pub fn designators(stage: &dyn Circuit, build: &Build) -> Vec<Vec<String>> {
     let mut out: Vec<Vec<String>> = vec![Vec::new(); build.parts.len()];
     let (mut n_r, mut n_c) = (0usize, 0usize);
-    for e in stage.spice_elements() {
+    for e in stage.drawing().spice_elements() {
         let Some(part) = build.parts.get(e.slot) else {
             continue;
         };
@@ -42,12 +42,12 @@ pub fn designators(stage: &dyn Stage, build: &Build) -> Vec<Vec<String>> {
 mod tests {
     use super::*;
     use crate::build::{Arrangement, Part, Piece};
-    use crate::stage::{inverting, stage_for};
+    use crate::circuit::{circuit_for, inverting};
     use crate::vocab::StageKind;
 
     #[test]
     fn numbered_by_kind_in_slot_order() {
-        let stage = stage_for(StageKind::Inverting);
+        let stage = circuit_for(StageKind::Inverting);
         let r = |v| Part::single(PartKind::Resistor, Piece::plain(v, 0.01));
         let c = |v| Part::single(PartKind::Capacitor, Piece::plain(v, 0.1));
         let mut parts = vec![r(10e3), r(47e3), r(100e3), r(100e3), c(1e-6), c(1e-6)];

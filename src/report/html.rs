@@ -8,9 +8,9 @@
 
 use super::{bom, escape, plot, schematic, table, RenderError};
 use crate::analysis::{Bound, Check};
+use crate::circuit::Circuit;
 use crate::search::Ranked;
 use crate::spec::Spec;
-use crate::stage::Stage;
 use crate::stock::Stock;
 use crate::value::{format, format_sig, Unit};
 use std::fmt::Write;
@@ -115,7 +115,7 @@ fn inline_svg(svg: &str) -> String {
     s
 }
 
-fn spec_table(out: &mut String, spec: &Spec, stage: &dyn Stage, stock_text: &str) {
+fn spec_table(out: &mut String, spec: &Spec, stage: &dyn Circuit, stock_text: &str) {
     let mut rows: Vec<(&str, String)> = vec![
         (
             "stage",
@@ -214,7 +214,7 @@ fn spec_table(out: &mut String, spec: &Spec, stage: &dyn Stage, stock_text: &str
     out.push_str("</table>\n");
 }
 
-fn builds_table(out: &mut String, spec: &Spec, stage: &dyn Stage, ranked: &[Ranked]) {
+fn builds_table(out: &mut String, spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked]) {
     let worst = if spec.worst_case() {
         "worst"
     } else {
@@ -282,12 +282,12 @@ fn checks_table(out: &mut String, r: &Ranked) {
     out.push_str("</table>\n");
 }
 
-fn caps_table(out: &mut String, stage: &dyn Stage, r: &Ranked) {
+fn caps_table(out: &mut String, stage: &dyn Circuit, r: &Ranked) {
     out.push_str(
         "<table>\n<tr><th>slot</th><th>part</th><th>DC across (range)</th><th>+ lead toward</th><th>rating needed</th><th>rating</th><th>kind</th></tr>\n",
     );
     for c in &r.evaluation.caps {
-        let label = crate::stage::slot_index(stage, &c.slot)
+        let label = crate::circuit::slot_index(stage, &c.slot)
             .and_then(|i| r.build.parts.get(i))
             .map_or(String::new(), |p| p.label());
         let _ = writeln!(
@@ -362,7 +362,7 @@ fn bom_table(out: &mut String, rows: &[bom::BomRow]) {
 /// stock the builds came from (for the BOM's inventory columns), `stock_text` its description.
 pub fn report(
     spec: &Spec,
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     ranked: &[Ranked],
     stock: Option<&Stock>,
     stock_text: &str,
@@ -455,7 +455,7 @@ mod tests {
     use super::*;
     use crate::analysis::evaluate;
     use crate::build::{Build, Part, Piece};
-    use crate::stage::stage_for;
+    use crate::circuit::circuit_for;
     use crate::stock::inventory::Inventory;
     use crate::stock::Source;
     use crate::vocab::PartKind;
@@ -533,7 +533,7 @@ C,100u,20%,10,25V,,yes,electrolytic,0.2,B2,\"=cmd|' /C calc'!A0\"\n";
 
     fn page() -> String {
         let (spec, build, stock) = fixture();
-        let stage = stage_for(StageKind::NonInverting);
+        let stage = circuit_for(StageKind::NonInverting);
         let evaluation = evaluate(&spec, stage, &build, Some(&stock));
         let ranked = vec![Ranked { build, evaluation }];
         report(&spec, stage, &ranked, Some(&stock), "inventory (5 lines)").unwrap()

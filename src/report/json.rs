@@ -3,9 +3,9 @@
 
 use crate::analysis::{CapReport, Check, Metrics, PowerReport};
 use crate::build::{Arrangement, Piece};
+use crate::circuit::Circuit;
 use crate::search::Ranked;
 use crate::spec::Spec;
-use crate::stage::Stage;
 use serde::Serialize;
 use std::collections::BTreeMap;
 
@@ -59,7 +59,7 @@ struct Document<'a> {
 }
 
 /// The builds as a pretty-printed JSON document.
-pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked]) -> String {
+pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked]) -> String {
     let slots = stage.slots();
     let front = crate::search::pareto(ranked);
     let builds = ranked
@@ -125,7 +125,11 @@ struct DiagnosisJson<'a> {
 }
 
 /// JSON for a spec no build meets: no builds, the blockers, and the nearest build.
-pub fn diagnosis(spec: &Spec, stage: &dyn Stage, d: &crate::search::diagnose::Diagnosis) -> String {
+pub fn diagnosis(
+    spec: &Spec,
+    stage: &dyn Circuit,
+    d: &crate::search::diagnose::Diagnosis,
+) -> String {
     let nearest = d.nearest.as_ref().and_then(|n| {
         let text = builds(spec, stage, std::slice::from_ref(n));
         serde_json::from_str::<serde_json::Value>(&text)

@@ -4,13 +4,13 @@
 //!
 //! The curves come from the stage's own transfer function (`Stage::response`), the same one the
 //! analysis judges; the envelope is the pointwise min and max over the corners of the tolerance
-//! box (`stage::common::vertices`, the extreme-value rule of the analysis).
+//! box (`circuit::common::vertices`, the extreme-value rule of the analysis).
 
 use super::RenderError;
 use crate::analysis::Evaluation;
 use crate::build::{Build, Part};
+use crate::circuit::{common, Circuit, OpAmp};
 use crate::spec::Spec;
-use crate::stage::{common, OpAmp, Stage};
 use crate::value::{format, format_sig, Unit};
 use num_complex::Complex64;
 use plotters::coord::Shift;
@@ -134,7 +134,7 @@ fn unwrapped_phase(h: &[Complex64], c: usize) -> Vec<f64> {
 }
 
 /// Sample the response of `build` from `f_lo` to `f_hi`, nominal and at every tolerance corner.
-pub fn sweep(spec: &Spec, stage: &dyn Stage, build: &Build, f_lo: f64, f_hi: f64) -> Sweep {
+pub fn sweep(spec: &Spec, stage: &dyn Circuit, build: &Build, f_lo: f64, f_hi: f64) -> Sweep {
     let opamp = OpAmp::of(spec);
     let decades = (f_hi / f_lo).log10().max(0.1);
     let n = (decades * PER_DECADE as f64).round() as usize + 1;
@@ -268,7 +268,7 @@ fn ceil_to(x: f64, step: f64) -> f64 {
 /// The plot of `build` as an SVG document.
 pub fn svg(
     spec: &Spec,
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     build: &Build,
     evaluation: &Evaluation,
 ) -> Result<String, RenderError> {
@@ -286,7 +286,7 @@ pub fn svg(
 fn draw<DB: DrawingBackend>(
     root: &DrawingArea<DB, Shift>,
     spec: &Spec,
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     build: &Build,
     evaluation: &Evaluation,
     s: &Sweep,
@@ -671,7 +671,7 @@ mod tests {
     use super::*;
     use crate::analysis::evaluate;
     use crate::build::Piece;
-    use crate::stage::{inverting, stage_for};
+    use crate::circuit::{circuit_for, inverting};
     use crate::vocab::PartKind;
     use crate::vocab::StageKind;
 
@@ -705,7 +705,7 @@ mod tests {
     #[test]
     fn plot_marks_band_corners_and_edges() {
         let spec = Spec::from_toml(SPEC).unwrap();
-        let stage = stage_for(StageKind::Inverting);
+        let stage = circuit_for(StageKind::Inverting);
         let b = build();
         let e = evaluate(&spec, stage, &b, None);
         let svg = svg(&spec, stage, &b, &e).unwrap();
@@ -727,7 +727,7 @@ mod tests {
     #[test]
     fn sweep_envelope_holds_nominal_and_corners_sit_at_minus_3_db() {
         let spec = Spec::from_toml(SPEC).unwrap();
-        let stage = stage_for(StageKind::Inverting);
+        let stage = circuit_for(StageKind::Inverting);
         let b = build();
         let e = evaluate(&spec, stage, &b, None);
         let (lo, hi) = range(&spec, &e);

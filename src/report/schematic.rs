@@ -13,9 +13,9 @@ use super::designators::{self, OPAMP};
 use super::escape;
 use crate::analysis::Evaluation;
 use crate::build::{Arrangement, Build, Part};
+use crate::circuit::layout::{Layout, Placed, Side, P};
+use crate::circuit::Circuit;
 use crate::spec::Spec;
-use crate::stage::layout::{Layout, Placed, Side, P};
-use crate::stage::Stage;
 use crate::value::{format, Unit};
 use crate::vocab::PartKind;
 use std::fmt::Write;
@@ -462,8 +462,8 @@ fn load(c: &mut Canvas, p: P, spec: &Spec) {
 }
 
 /// The schematic of `build` as an SVG document.
-pub fn svg(spec: &Spec, stage: &dyn Stage, build: &Build, evaluation: &Evaluation) -> String {
-    let layout = stage.schematic_layout();
+pub fn svg(spec: &Spec, stage: &dyn Circuit, build: &Build, evaluation: &Evaluation) -> String {
+    let layout = stage.drawing().schematic_layout();
     let slots = stage.slots();
     let names = designators::designators(stage, build);
     let (w, h) = (layout.size.0, layout.size.1 + FOOTER);
@@ -531,7 +531,7 @@ mod tests {
     use super::*;
     use crate::analysis::evaluate;
     use crate::build::Piece;
-    use crate::stage::{layout::MIN_SPAN, stage_for, DcPoint, Node};
+    use crate::circuit::{circuit_for, layout::MIN_SPAN, DcPoint, Node};
     use crate::vocab::StageKind;
     use std::collections::{BTreeSet, HashMap};
 
@@ -571,8 +571,8 @@ mod tests {
     #[test]
     fn layouts_connect_as_the_netlists_do() {
         for kind in StageKind::ALL {
-            let stage = stage_for(kind);
-            let l = stage.schematic_layout();
+            let stage = circuit_for(kind);
+            let l = stage.drawing().schematic_layout();
             let (plus, minus) = l.plus_minus();
             let pins = l.pins();
             let mut terminals: Vec<P> = vec![plus, minus, pins.out, l.source, l.load];
@@ -671,7 +671,7 @@ mod tests {
                 bind(&mut node_net, Node::Ground, r);
             }
             assert_eq!(l.parts.len(), stage.slots().len(), "{kind:?}");
-            for e in stage.spice_elements() {
+            for e in stage.drawing().spice_elements() {
                 let placed = l.parts.iter().find(|p| p.slot == e.slot).unwrap();
                 let mut got = vec![nets.find(placed.from), nets.find(placed.to)];
                 let name = stage.slots()[e.slot].name;
@@ -709,7 +709,7 @@ mod tests {
     fn capacitor_sides_match_the_bias_analysis() {
         let spec = Spec::from_toml(SPEC_INV).unwrap();
         for kind in StageKind::ALL {
-            let stage = stage_for(kind);
+            let stage = circuit_for(kind);
             let v = vec![10e3; stage.slots().len()];
             let dc = DcPoint {
                 v_plus: 1.0,
@@ -719,6 +719,7 @@ mod tests {
             };
             for b in stage.cap_bias(&spec, &v, &dc) {
                 let p = stage
+                    .drawing()
                     .schematic_layout()
                     .parts
                     .iter()
@@ -727,7 +728,7 @@ mod tests {
                 let side = p.from_side.expect("a capacitor names its from side");
                 assert!(side == b.a_node || side == b.b_node, "{kind:?} {side}");
             }
-            for p in stage.schematic_layout().parts {
+            for p in stage.drawing().schematic_layout().parts {
                 let is_cap = stage.slots()[p.slot].kind == PartKind::Capacitor;
                 assert_eq!(p.from_side.is_some(), is_cap);
             }
@@ -761,7 +762,7 @@ mod tests {
     #[test]
     fn every_designator_value_and_plus_is_drawn() {
         let spec = Spec::from_toml(SPEC_INV).unwrap();
-        let stage = stage_for(StageKind::Inverting);
+        let stage = circuit_for(StageKind::Inverting);
         let r = |v| Piece::plain(v, 0.01);
         let build = Build {
             parts: vec![
@@ -812,7 +813,7 @@ mod tests {
         // c_in sits between the source (0 V DC) and V− (≈ the divider, 4.5 V): + toward r_in,
         // which is the `to` end of the layout's c_in; so the "+" lies right of the centre.
         let spec = Spec::from_toml(SPEC_INV).unwrap();
-        let stage = stage_for(StageKind::Inverting);
+        let stage = circuit_for(StageKind::Inverting);
         let r = |v| Part::single(PartKind::Resistor, Piece::plain(v, 0.01));
         let c = |v| Part::single(PartKind::Capacitor, polar(v, 25.0));
         let build = Build {
@@ -821,7 +822,7 @@ mod tests {
         let e = evaluate(&spec, stage, &build, None);
         assert_eq!(e.caps[0].positive_side, "r_in side");
         let svg = svg(&spec, stage, &build, &e);
-        let placed = stage.schematic_layout().parts[crate::stage::inverting::C_IN];
+        let placed = stage.drawing().schematic_layout().parts[crate::circuit::inverting::C_IN];
         let centre = (placed.from.0 + placed.to.0) as f64 / 2.0;
         let first_plus = svg
             .lines()

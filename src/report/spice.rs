@@ -23,8 +23,8 @@
 //! (SPICE reads `M` as milli).
 
 use crate::build::{Arrangement, Build, Part};
+use crate::circuit::{Circuit, Node, OPEN_LOOP_GAIN};
 use crate::spec::Spec;
-use crate::stage::{Node, Stage, OPEN_LOOP_GAIN};
 use crate::vocab::PartKind;
 use std::fmt::Write;
 
@@ -177,7 +177,7 @@ fn part_text(part: &Part) -> String {
 }
 
 /// The SPICE netlist of `build` (a plain circuit; see the module docs for its names).
-pub fn netlist(spec: &Spec, stage: &dyn Stage, build: &Build) -> String {
+pub fn netlist(spec: &Spec, stage: &dyn Circuit, build: &Build) -> String {
     let mut out = String::new();
     let slots = stage.slots();
     let v = build.values();
@@ -270,7 +270,7 @@ pub fn netlist(spec: &Spec, stage: &dyn Stage, build: &Build) -> String {
     // One numbering for the netlist, the schematic and the BOM (`report::designators`).
     let designators = super::designators::designators(stage, build);
     let mut n_bleed = 0usize;
-    for e in stage.spice_elements() {
+    for e in stage.drawing().spice_elements() {
         let (slot, part) = (&slots[e.slot], &build.parts[e.slot]);
         let (a, b) = (node_name(e.a, input), node_name(e.b, input));
         let mid = format!("{}_mid", slot.name);
@@ -355,7 +355,7 @@ pub fn netlist(spec: &Spec, stage: &dyn Stage, build: &Build) -> String {
     );
     let _ = writeln!(out);
 
-    // The amplifier of `stage::OpAmp`: a(s) = A0 / (1 + s/ωp), ωp = 2π·GBW/A0, built as 1 S
+    // The amplifier of `circuit::OpAmp`: a(s) = A0 / (1 + s/ωp), ωp = 2π·GBW/A0, built as 1 S
     // into A0 Ω ∥ 1/(2π·GBW) F (R·C = A0/(2π·GBW) = 1/ωp), then an output buffer.
     let _ = writeln!(out, ".subckt {OPAMP} inp inn out vcc");
     let (a0, pole_cap) = match amp.gbw {
@@ -417,7 +417,7 @@ pub fn netlist(spec: &Spec, stage: &dyn Stage, build: &Build) -> String {
 mod tests {
     use super::*;
     use crate::build::Piece;
-    use crate::stage::{inverting, non_inverting, stage_for};
+    use crate::circuit::{circuit_for, inverting, non_inverting};
     use crate::vocab::StageKind;
     use approx::assert_relative_eq;
 
@@ -567,7 +567,7 @@ capacitors = "E6"
     #[test]
     fn plain_circuit_with_fixed_names() {
         let spec = spec("inverting", "", true);
-        let stage = stage_for(StageKind::Inverting);
+        let stage = circuit_for(StageKind::Inverting);
         let net = netlist(&spec, stage, &inverting_build());
         assert!(net.is_ascii());
         // First line: a title for a standalone deck, a comment for `.include`.
@@ -611,7 +611,7 @@ capacitors = "E6"
     #[test]
     fn every_slot_is_an_element_with_its_value() {
         let spec = spec("inverting", "", true);
-        let stage = stage_for(StageKind::Inverting);
+        let stage = circuit_for(StageKind::Inverting);
         let build = inverting_build();
         let net = netlist(&spec, stage, &build);
         let els = elements(&net);
@@ -649,7 +649,7 @@ capacitors = "E6"
     #[test]
     fn two_piece_slots_are_two_elements() {
         let spec = spec("inverting", "", true);
-        let stage = stage_for(StageKind::Inverting);
+        let stage = circuit_for(StageKind::Inverting);
         let mut build = inverting_build();
         let rp = |v| Piece::plain(v, 0.01);
         let cp = |v| Piece::plain(v, 0.1);
@@ -689,7 +689,7 @@ capacitors = "E6"
             "source_resistance = \"1k\"\nsource_dc = \"2.5 V\"",
             false,
         );
-        let stage = stage_for(StageKind::NonInverting);
+        let stage = circuit_for(StageKind::NonInverting);
         let r = |v| single(PartKind::Resistor, v);
         let c = |v| single(PartKind::Capacitor, v);
         let mut parts = vec![r(1e6); 7];
@@ -717,8 +717,8 @@ capacitors = "E6"
     #[test]
     fn every_stage_wires_every_slot_once() {
         for kind in StageKind::ALL {
-            let stage = stage_for(kind);
-            let els = stage.spice_elements();
+            let stage = circuit_for(kind);
+            let els = stage.drawing().spice_elements();
             let mut seen: Vec<usize> = els.iter().map(|e| e.slot).collect();
             seen.sort_unstable();
             assert_eq!(

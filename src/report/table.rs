@@ -3,9 +3,9 @@
 
 use crate::analysis::{Bound, Check, Evaluation};
 use crate::build::Build;
+use crate::circuit::Circuit;
 use crate::search::Ranked;
 use crate::spec::Spec;
-use crate::stage::Stage;
 use crate::value::{format, format_sig, Unit};
 use std::fmt::Write;
 
@@ -95,7 +95,7 @@ fn cost_text(c: Option<f64>) -> String {
 }
 
 /// One-line heading for a report.
-pub fn heading(spec: &Spec, stage: &dyn Stage, stock_text: &str) -> String {
+pub fn heading(spec: &Spec, stage: &dyn Circuit, stock_text: &str) -> String {
     format!(
         "{} stage · gain {} · {} supply · band {} – {} · stock: {}",
         stage.kind().name(),
@@ -127,7 +127,7 @@ fn table_label(part: &crate::build::Part) -> String {
 }
 
 /// The ranked builds: a parts table, then a figures table.
-pub fn builds(spec: &Spec, stage: &dyn Stage, ranked: &[Ranked], style: Style) -> String {
+pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style) -> String {
     let mut out = String::new();
     let slots = stage.slots();
     let labels: Vec<Vec<String>> = ranked
@@ -298,7 +298,7 @@ pub fn capacitors(
     spec: &Spec,
     evaluation: &Evaluation,
     build: &Build,
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
 ) -> String {
     let mut out = String::new();
     let worst = if spec.worst_case() {
@@ -311,7 +311,7 @@ pub fn capacitors(
         "Capacitor DC bias ({worst} range; + lead toward the side named)"
     );
     for c in &evaluation.caps {
-        let idx = crate::stage::slot_index(stage, &c.slot).unwrap_or(0);
+        let idx = crate::circuit::slot_index(stage, &c.slot).unwrap_or(0);
         let part = &build.parts[idx];
         let kind = if c.polarized {
             "polarised"
@@ -538,11 +538,11 @@ pub fn fit_width(text: &str, width: usize) -> String {
 }
 
 /// The full report of one build (the best of a pick, or a `check`).
-pub fn detail(spec: &Spec, stage: &dyn Stage, ranked: &Ranked, style: Style) -> String {
+pub fn detail(spec: &Spec, stage: &dyn Circuit, ranked: &Ranked, style: Style) -> String {
     fit_width(&detail_lines(spec, stage, ranked, style), WIDTH)
 }
 
-fn detail_lines(spec: &Spec, stage: &dyn Stage, ranked: &Ranked, style: Style) -> String {
+fn detail_lines(spec: &Spec, stage: &dyn Circuit, ranked: &Ranked, style: Style) -> String {
     let mut out = String::new();
     out.push_str(&figures(spec, &ranked.evaluation));
     out.push('\n');
@@ -565,7 +565,7 @@ pub fn cautions() -> String {
 /// Why no build meets the spec, for people.
 pub fn diagnosis(
     spec: &Spec,
-    stage: &dyn Stage,
+    stage: &dyn Circuit,
     d: &crate::search::diagnose::Diagnosis,
     style: Style,
 ) -> String {

@@ -595,7 +595,7 @@ pub fn diagnose(req: &Request) -> Result<Diagnosis, SearchError> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::stage;
+    use crate::circuit;
     use crate::stock::inventory::Inventory;
     use crate::stock::Stock;
     use std::sync::Arc;
@@ -613,7 +613,7 @@ mod tests {
             Source::Inventory(inv),
             spec.stock.limits(),
         );
-        let stage = stage::stage_for(spec.stage);
+        let stage = circuit::circuit_for(spec.stage);
         let req = Request {
             spec: &spec,
             stage,

@@ -23,7 +23,7 @@
 use super::{slot_candidates, Outcome, Progress, Ranked, Request, SearchError, Stats, TopN};
 use crate::analysis;
 use crate::build::{Build, LineKey, Part, SlotValue};
-use crate::stage::LogModel;
+use crate::circuit::LogModel;
 use good_lp::{
     microlp, variable, Expression, ProblemVariables, ResolutionError, Solution, SolutionStatus,
     SolverModel, Variable,
@@ -53,7 +53,7 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
     let stage = req.stage;
     let n = stage.slots().len();
     let cands = slot_candidates(req)?;
-    let model = stage.log_model(spec);
+    let model = req.plan().log_model(spec);
     let lambda = spec.goals.bom_lines;
 
     // Candidates: every realisation the rows on its slot alone allow.
@@ -264,7 +264,7 @@ fn solve(
         }
     }
     // The stage's rows and the deviations of its terms.
-    let slot_sum = |sum: &crate::stage::SlotSum| {
+    let slot_sum = |sum: &crate::circuit::SlotSum| {
         let mut e = Expression::from(0.0);
         for (slot, f) in &sum.terms {
             for &i in &per_slot[*slot] {

@@ -19,8 +19,8 @@ pub mod walk;
 
 use crate::analysis::{self, Evaluation};
 use crate::build::{Build, LineKey, Part, SlotValue};
+use crate::circuit::{Circuit, SearchPlan, WalkPlan};
 use crate::spec::Spec;
-use crate::stage::{Stage, WalkPlan};
 use crate::stock::Stock;
 use crate::vocab::Combine;
 use crate::vocab::PartKind;
@@ -136,13 +136,22 @@ pub fn run(
 /// A request: what to search and how many builds to keep.
 pub struct Request<'a> {
     pub spec: &'a Spec,
-    pub stage: &'a dyn Stage,
+    pub stage: &'a dyn Circuit,
     pub stock: &'a Stock,
     /// Parts fixed by the user, by slot index.
     pub locks: &'a [(usize, Part)],
     pub top: usize,
     /// Stop after this many search nodes (the result is then not proven); `None`: no limit.
     pub max_nodes: Option<u64>,
+}
+
+impl Request<'_> {
+    /// The search plan the walk engine follows: the circuit's own.
+    pub fn plan(&self) -> &dyn SearchPlan {
+        self.stage
+            .plan()
+            .expect("every circuit has a search plan of its own for now")
+    }
 }
 
 /// The candidates of every slot: the stock's realisations (one shared list per kind), or the
@@ -317,6 +326,8 @@ struct LineUse {
 
 struct Dfs<'a> {
     req: &'a Request<'a>,
+    /// The plan the walks follow: the circuit's own or the generic one.
+    plan: &'a dyn SearchPlan,
     tables: [Option<&'a Table>; 2],
     levels: Vec<Level>,
     locked: Vec<Option<&'a Part>>,
@@ -350,6 +361,7 @@ struct Dfs<'a> {
 pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
     let spec = req.spec;
     let stage = req.stage;
+    let plan = req.plan();
     let slots = stage.slots();
     let n = slots.len();
     let mut locked: Vec<Option<&Part>> = vec![None; n];
@@ -383,7 +395,7 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
                     .map_or(0, |t| t.reals.len()),
             })
             .collect(),
-        nodes_by_group: vec![0; stage.groups(spec).len()],
+        nodes_by_group: vec![0; plan.groups(spec).len()],
         ..Stats::default()
     };
     let mut top = TopN::new(req.top);
@@ -397,11 +409,20 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
             owned[1].as_ref().map(|t| t.singles(spec)),
         ];
         let seed = [singles[0].as_ref(), singles[1].as_ref()];
-        top = explore(req, &locked, seed, top, &mut stats, &mut |_| {}, false);
+        top = explore(
+            req,
+            plan,
+            &locked,
+            seed,
+            top,
+            &mut stats,
+            &mut |_| {},
+            false,
+        );
     }
     if !stats.truncated {
         let tables = [owned[0].as_ref(), owned[1].as_ref()];
-        top = explore(req, &locked, tables, top, &mut stats, progress, true);
+        top = explore(req, plan, &locked, tables, top, &mut stats, progress, true);
     }
     Ok(Outcome {
         stats,
@@ -415,8 +436,10 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
 /// so once it holds N builds below T (or no node waited for a later round) the result is
 /// the exact top N. The cut starts a little above the root's bound and its distance from it
 /// doubles each round; the last round has none.
+#[allow(clippy::too_many_arguments)]
 fn explore<'a>(
     req: &'a Request<'a>,
+    plan: &'a dyn SearchPlan,
     locked: &[Option<&'a Part>],
     tables: [Option<&'a Table>; 2],
     top: TopN,
@@ -428,7 +451,7 @@ fn explore<'a>(
     let stage = req.stage;
     let slots = stage.slots();
     let n = slots.len();
-    let groups = stage.groups(spec);
+    let groups = plan.groups(spec);
     let mut levels = Vec::new();
     for (g, group) in groups.iter().enumerate() {
         for (k, &slot) in group.iter().enumerate() {
@@ -457,8 +480,8 @@ fn explore<'a>(
                 let table = tables[k].expect("a table for every unlocked slot's kind");
                 let mut pts = table.min_pts;
                 if lv.alone {
-                    let plan = stage.walk(spec, lv.group, lv.k, &locked_vals);
-                    pts = pts.max(plan_floor(table, &plan));
+                    let walk_plan = plan.walk(spec, lv.group, lv.k, &locked_vals);
+                    pts = pts.max(plan_floor(table, &walk_plan));
                 }
                 (pts, 1u8 << k)
             }
@@ -469,6 +492,7 @@ fn explore<'a>(
     let n_levels = levels.len();
     let mut dfs = Dfs {
         req,
+        plan,
         tables,
         levels,
         locked: locked.to_vec(),
@@ -529,9 +553,7 @@ impl<'a> Dfs<'a> {
             // Already counted; only the group's share is new.
             let _ = part;
             let share = if lv.last {
-                self.req
-                    .stage
-                    .group_partial(self.req.spec, lv.group, &self.vals)
+                self.plan.group_partial(self.req.spec, lv.group, &self.vals)
             } else {
                 Some(0.0)
             };
@@ -553,7 +575,7 @@ impl<'a> Dfs<'a> {
         // candidate is taken. First the cheap static bound; the look-ahead of the open
         // one-slot groups (which asks the stage) only once a candidate passes that.
         let mut rest = self.rest_static[level + 1] + self.lines_lb(level + 1, Some(ki));
-        let plan = plan.unwrap_or_else(|| stage.walk(spec, lv.group, lv.k, &self.vals));
+        let plan = plan.unwrap_or_else(|| self.plan.walk(spec, lv.group, lv.k, &self.vals));
         let mut walk = Walk::new(spec, table, plan, &self.used[ki], self.bound() - acc - rest);
         let mut tight = false;
         let lambda = spec.goals.bom_lines;
@@ -596,7 +618,7 @@ impl<'a> Dfs<'a> {
                 self.vals[lv.slot] = Some(table.slot_value(&real));
                 self.chosen[lv.slot] = Some(real);
                 let share = if lv.last {
-                    stage.group_partial(spec, lv.group, &self.vals)
+                    self.plan.group_partial(spec, lv.group, &self.vals)
                 } else {
                     walk.bound_of(&item)
                 };
@@ -643,8 +665,7 @@ impl<'a> Dfs<'a> {
         let ki = kind_index(self.req.stage.slots()[next.slot].kind);
         let table = self.tables[ki].expect("table");
         let plan = self
-            .req
-            .stage
+            .plan
             .walk(self.req.spec, next.group, next.k, &self.vals);
         let rest = self.rest_static[level + 2] + self.lines_lb(level + 2, Some(ki));
         let limit = self.bound() - score - rest;
@@ -709,7 +730,7 @@ impl<'a> Dfs<'a> {
             let table = self.tables[ki].expect("table");
             let mut lb = self.rest_static[l] - self.rest_static[l + 1];
             if lv.alone {
-                let plan = self.req.stage.walk(spec, lv.group, lv.k, &self.vals);
+                let plan = self.plan.walk(spec, lv.group, lv.k, &self.vals);
                 lb = lb.max(plan_floor(table, &plan));
             }
             total += lb;
@@ -875,7 +896,7 @@ mod pareto_tests {
             "[stage]\nkind = \"inverting\"\nsupply = 9\ngain = -10\nload = 10000\nband = [20, 20000]\n",
         )
         .unwrap();
-        let stage = crate::stage::stage_for(spec.stage);
+        let stage = crate::circuit::circuit_for(spec.stage);
         let r = |v: f64| Part::single(PartKind::Resistor, crate::build::Piece::plain(v, 0.01));
         let c = |v: f64| Part::single(PartKind::Capacitor, crate::build::Piece::plain(v, 0.1));
         let mk = |rin: f64, rfb: f64, pair: bool| {

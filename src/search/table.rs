@@ -12,8 +12,8 @@
 
 use crate::analysis;
 use crate::build::{self, Arrangement, LineKey, Part, Piece, SlotValue};
+use crate::circuit::Coord;
 use crate::spec::Spec;
-use crate::stage::Coord;
 use crate::stock::Stock;
 use crate::vocab::Combine;
 use crate::vocab::PartKind;

@@ -20,8 +20,8 @@
 
 use super::table::{Real, Table, NONE};
 use crate::build::Arrangement;
+use crate::circuit::{Coord, WalkPlan};
 use crate::spec::Spec;
-use crate::stage::{Coord, WalkPlan};
 use smallvec::SmallVec;
 use std::cmp::Ordering;
 

@@ -7,9 +7,9 @@ use proptest::prelude::*;
 use proptest::test_runner::{Config, RngAlgorithm, TestCaseError, TestRng, TestRunner};
 use std::sync::Arc;
 use stockfit::build::Part;
+use stockfit::circuit::{self, Circuit};
 use stockfit::search::{Outcome, Request, SearchError};
 use stockfit::spec::Spec;
-use stockfit::stage::{self, Stage};
 use stockfit::stock::inventory::Inventory;
 use stockfit::stock::{Source, Stock};
 use stockfit::vocab::PartKind;
@@ -116,7 +116,7 @@ pub fn case_strategy(
 /// What a search of one case needs.
 pub struct Prepared {
     pub spec: Spec,
-    pub stage: &'static dyn Stage,
+    pub stage: &'static dyn Circuit,
     pub stock: Stock,
     pub locks: Vec<(usize, Part)>,
 }
@@ -126,7 +126,7 @@ pub struct Prepared {
 pub fn prepare(case: &Case) -> Result<Prepared, TestCaseError> {
     let spec = Spec::from_toml(&case.spec_toml)
         .map_err(|e| TestCaseError::fail(format!("{e}\n{}", case.spec_toml)))?;
-    let stage: &'static dyn Stage = stage::stage_for(spec.stage);
+    let stage: &'static dyn Circuit = circuit::circuit_for(spec.stage);
     let inv =
         Arc::new(Inventory::parse_str(&case.csv).map_err(|e| TestCaseError::fail(e.to_string()))?);
     let stock = Stock::new(

@@ -13,11 +13,10 @@
 //! bias-current compensation asks R_bias_hi ∥ R_bias_lo = R_fb (the DC resistance at −).
 
 use super::common::{self, end, SLACK};
+use super::plan::{Coord, Group, LogModel, LogRow, SlotSum, WalkPlan};
 use super::plans::{self, DividerContext, GainForm};
-use super::{
-    CapBias, Coord, DcErrors, DcPoint, Group, LogModel, LogRow, Network, OpAmp, SlotDef, SlotSum,
-    Stage, WalkPlan,
-};
+use super::traits::{Circuit, Drawing, SearchPlan};
+use super::types::{CapBias, DcErrors, DcPoint, Network, OpAmp, SlotDef};
 use crate::build::SlotValue;
 use crate::spec::Spec;
 use crate::vocab::PartKind;
@@ -98,7 +97,7 @@ impl Inverting {
     }
 }
 
-impl Stage for Inverting {
+impl Circuit for Inverting {
     fn kind(&self) -> StageKind {
         StageKind::Inverting
     }
@@ -151,17 +150,8 @@ impl Stage for Inverting {
         ]
     }
 
-    fn network_loss_db(&self, spec: &Spec, v: &[f64], network: usize, f: f64) -> f64 {
-        let n = self.networks(spec, v)[network];
-        common::high_pass_loss_db(n.resistance, n.capacitance, f)
-    }
-
     fn dc(&self, spec: &Spec, v: &[f64], e: &DcErrors) -> DcPoint {
         common::dc_point(spec, v[R_BIAS_HI], v[R_BIAS_LO], v[R_FB], e)
-    }
-
-    fn divider_voltage(&self, spec: &Spec, v: &[f64]) -> f64 {
-        spec.supply * v[R_BIAS_LO] / (v[R_BIAS_HI] + v[R_BIAS_LO])
     }
 
     fn offset_error(&self, spec: &Spec, v: &[f64]) -> f64 {
@@ -211,7 +201,7 @@ impl Stage for Inverting {
         let k = spec.bias_target() / spec.supply;
         // Compensation: R_hi ∥ R_lo = R_fb with R_lo/(R_hi + R_lo) = k.
         let (hi, lo) = (r_fb / k, r_fb / (1.0 - k));
-        let fc = super::common_corner_target(spec, 2);
+        let fc = common::common_corner_target(spec, 2);
         let c = |r: f64| fc.map(|fc| 1.0 / (2.0 * std::f64::consts::PI * r * fc));
         vec![
             Some(r_in),
@@ -223,12 +213,8 @@ impl Stage for Inverting {
         ]
     }
 
-    fn groups(&self, _spec: &Spec) -> &'static [Group] {
-        GROUPS
-    }
-
-    fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> super::NoiseCircuit {
-        use super::NoisePlace as Place;
+    fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> super::types::NoiseCircuit {
+        use super::types::NoisePlace as Place;
         let re = |r: f64| Complex64::new(r, 0.0);
         let name = |slot: usize| SLOTS[slot].name;
         let rs = spec.source_resistance;
@@ -243,187 +229,29 @@ impl Stage for Inverting {
         resistors.push((name(R_FB), v[R_FB], Place::Feedback));
         resistors.push((name(R_BIAS_HI), hi, Place::Plus(re(hi))));
         resistors.push((name(R_BIAS_LO), lo, Place::Plus(re(lo))));
-        super::NoiseCircuit {
+        super::types::NoiseCircuit {
             z_f: re(v[R_FB]),
-            z_s: re(rs + v[R_IN]) + super::cap_z(v[C_IN], f),
+            z_s: re(rs + v[R_IN]) + super::types::cap_z(v[C_IN], f),
             z_p: re(common::parallel(hi, lo)),
             h_out: common::high_pass(spec.load, v[C_OUT], f),
             resistors,
         }
     }
 
-    fn walk<'s>(
-        &self,
-        spec: &'s Spec,
-        g: usize,
-        k: usize,
-        parts: &[Option<SlotValue>],
-    ) -> WalkPlan<'s> {
-        let form = GainForm {
-            att: 1.0,
-            plus: 0.0,
-            offset: spec.source_resistance,
-        };
-        // The input resistance is r_in itself: a nominal value below the minimum fails at
-        // any tolerance.
-        let floor = spec.input_resistance_min.map_or(0.0, |m| m * (1.0 - SLACK));
-        match (g, k) {
-            (0, 0) => match get(parts, R_FB) {
-                Some(fb) => plans::gain_other_given_fb(spec, form, fb.value, floor, None),
-                None => plans::gain_other_first(spec, form, floor, None),
-            },
-            (0, _) => match get(parts, R_IN) {
-                Some(r_in) => plans::gain_fb(spec, form, r_in.value, None),
-                None => WalkPlan::free(),
-            },
-            (1, k) => {
-                let ctx = DividerContext {
-                    r_fb: get(parts, R_FB).map(|p| p.value),
-                    rp_min: None,
-                    gain: match (get(parts, R_IN), get(parts, R_FB)) {
-                        (Some(i), Some(f)) => f.value / (spec.source_resistance + i.value),
-                        _ => 0.0,
-                    },
-                };
-                let walked = if k == 0 { R_BIAS_HI } else { R_BIAS_LO };
-                plans::divider_walk(spec, walked == R_BIAS_HI, parts, R_BIAS_HI, R_BIAS_LO, ctx)
-            }
-            (2, _) => {
-                // Before r_in is chosen, the largest r_in the gain window lets an r_fb inside
-                // the resistor range serve needs the least capacitance.
-                let r = match get(parts, R_IN) {
-                    Some(r) => end(spec, r, false),
-                    None => plans::largest_other(spec, form),
-                };
-                let need = super::needed_capacitance(spec, spec.source_resistance + r, true);
-                WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
-            }
-            _ => {
-                // The loss budget left once c_in's network has taken its share.
-                let spent = match (get(parts, R_IN), get(parts, C_IN)) {
-                    (Some(r), Some(c)) => Self::input_network_ok(spec, r, c).unwrap_or(0.0),
-                    _ => 0.0,
-                };
-                let need = super::needed_capacitance_after(spec, spec.load, spent);
-                WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
-            }
-        }
+    fn drawing(&self) -> &dyn Drawing {
+        self
     }
 
-    /// ln|G| = ln R_fb − ln(R_s + R_in): the gain window (worst-case ends, as `group_partial`
-    /// reads them) and the gain error; r_in's floor; each coupling network's corner; the
-    /// divider's ratio window and offset (`plans::divider_log`).
-    fn log_model<'s>(&self, spec: &'s Spec) -> LogModel<'s> {
-        let rs = spec.source_resistance;
-        let g = spec.gain.abs();
-        let mut m = LogModel::default();
-        let ln_gain = |high: bool| {
-            SlotSum::default()
-                .with(R_FB, move |p| end(spec, p, high).ln())
-                .with(R_IN, move |p| -(rs + end(spec, p, !high)).ln())
-        };
-        if let Some(t) = spec.gain_tolerance {
-            plans::gain_window_log(
-                ln_gain,
-                Some((g * (1.0 - t) * (1.0 - SLACK)).ln()),
-                Some((g * (1.0 + t) * (1.0 + SLACK)).ln()),
-                &mut m,
-            );
-        }
-        // How far below the target ln|G| can be in a build that passes: the window's floor,
-        // or what the resistor range allows.
-        let (r_lo, r_hi) = spec.stock.resistor_range;
-        let u_max = match spec.gain_tolerance {
-            Some(t) => -((1.0 - t) * (1.0 - SLACK)).ln(),
-            None => (g * (rs + r_hi) / r_lo).ln().max(0.0),
-        };
-        let nominal = SlotSum::default()
-            .with(R_FB, |p| p.value.ln())
-            .with(R_IN, move |p| -(rs + p.value).ln());
-        m.terms.push(super::relative_error_term(
-            "gain",
-            nominal,
-            g,
-            spec.goals.gain_error / 0.01,
-            u_max,
-        ));
-        if let Some(min) = spec.input_resistance_min {
-            m.rows.push(LogRow {
-                name: "input_resistance",
-                sum: SlotSum::default().with(R_IN, move |p| end(spec, p, false).ln()),
-                at_least: true,
-                limit: (min * (1.0 - SLACK)).ln(),
-            });
-        }
-        plans::network_log(spec, "corner_c_in", C_IN, Some(R_IN), rs, true, &mut m);
-        plans::network_log(spec, "corner_c_out", C_OUT, None, spec.load, true, &mut m);
-        let gain_floor = spec
-            .gain_tolerance
-            .map_or(0.0, |t| g * (1.0 - t) * (1.0 - SLACK));
-        plans::divider_log(spec, R_BIAS_HI, R_BIAS_LO, R_FB, gain_floor, &mut m);
-        m
+    fn plan(&self) -> Option<&dyn SearchPlan> {
+        Some(self)
     }
+}
 
-    fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<SlotValue>]) -> Option<f64> {
-        match g {
-            0 => {
-                let (r_in, r_fb) = (get(parts, R_IN)?, get(parts, R_FB)?);
-                if let Some(min) = spec.input_resistance_min {
-                    if end(spec, r_in, false) < min * (1.0 - SLACK) {
-                        return None;
-                    }
-                }
-                let (lo, hi) = Self::gain_range(spec, r_in, r_fb);
-                if !common::gain_window_ok(spec, lo, hi) {
-                    return None;
-                }
-                Some(common::gain_points(
-                    spec,
-                    -r_fb.value / (spec.source_resistance + r_in.value),
-                ))
-            }
-            1 => {
-                let (r_in, r_fb) = (get(parts, R_IN)?, get(parts, R_FB)?);
-                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
-                if !common::divider_current_ok(spec, hi, lo) {
-                    return None;
-                }
-                let (vmin, vmax) = common::divider_range(spec, hi, lo);
-                let (_, g_max) = Self::gain_range(spec, r_in, r_fb);
-                if !common::swing_ok(spec, common::swing(spec, vmin, vmax), g_max) {
-                    return None;
-                }
-                let err = common::offset_error(spec, hi.value, lo.value, r_fb.value);
-                Some(common::offset_points(spec, err))
-            }
-            2 => {
-                let (r_in, c_in) = (get(parts, R_IN)?, get(parts, C_IN)?);
-                Self::input_network_ok(spec, r_in, c_in)?;
-                let v_div = spec.supply * get(parts, R_BIAS_LO)?.value
-                    / (get(parts, R_BIAS_HI)?.value + get(parts, R_BIAS_LO)?.value);
-                common::cap_ok(c_in, v_div - spec.source_dc).then_some(0.0)
-            }
-            3 => {
-                let (r_in, c_in, c_out) =
-                    (get(parts, R_IN)?, get(parts, C_IN)?, get(parts, C_OUT)?);
-                let out_loss = Self::output_network_ok(spec, c_out)?;
-                let in_loss = Self::input_network_ok(spec, r_in, c_in)?;
-                // The two networks are buffered by the op-amp: their losses add (in dB).
-                if !common::losses_ok(spec, in_loss + out_loss) {
-                    return None;
-                }
-                let v_div = spec.supply * get(parts, R_BIAS_LO)?.value
-                    / (get(parts, R_BIAS_HI)?.value + get(parts, R_BIAS_LO)?.value);
-                common::cap_ok(c_out, v_div).then_some(0.0)
-            }
-            _ => Some(0.0),
-        }
-    }
-
+impl Drawing for Inverting {
     /// The drawing above: source → c_in → r_in → − input, r_fb from − to the output, the
     /// divider on +, c_out to the load.
-    fn spice_elements(&self) -> &'static [super::SpiceElement] {
-        use super::{Node::*, SpiceElement as E};
+    fn spice_elements(&self) -> &'static [super::types::SpiceElement] {
+        use super::types::{Node::*, SpiceElement as E};
         const ELEMENTS: &[E] = &[
             E {
                 slot: R_IN,
@@ -530,5 +358,190 @@ impl Stage for Inverting {
             ],
         };
         &LAYOUT
+    }
+}
+
+impl SearchPlan for Inverting {
+    fn groups(&self, _spec: &Spec) -> &'static [Group] {
+        GROUPS
+    }
+
+    fn walk<'s>(
+        &self,
+        spec: &'s Spec,
+        g: usize,
+        k: usize,
+        parts: &[Option<SlotValue>],
+    ) -> WalkPlan<'s> {
+        let form = GainForm {
+            att: 1.0,
+            plus: 0.0,
+            offset: spec.source_resistance,
+        };
+        // The input resistance is r_in itself: a nominal value below the minimum fails at
+        // any tolerance.
+        let floor = spec.input_resistance_min.map_or(0.0, |m| m * (1.0 - SLACK));
+        match (g, k) {
+            (0, 0) => match get(parts, R_FB) {
+                Some(fb) => plans::gain_other_given_fb(spec, form, fb.value, floor, None),
+                None => plans::gain_other_first(spec, form, floor, None),
+            },
+            (0, _) => match get(parts, R_IN) {
+                Some(r_in) => plans::gain_fb(spec, form, r_in.value, None),
+                None => WalkPlan::free(),
+            },
+            (1, k) => {
+                let ctx = DividerContext {
+                    r_fb: get(parts, R_FB).map(|p| p.value),
+                    rp_min: None,
+                    gain: match (get(parts, R_IN), get(parts, R_FB)) {
+                        (Some(i), Some(f)) => f.value / (spec.source_resistance + i.value),
+                        _ => 0.0,
+                    },
+                };
+                let walked = if k == 0 { R_BIAS_HI } else { R_BIAS_LO };
+                plans::divider_walk(spec, walked == R_BIAS_HI, parts, R_BIAS_HI, R_BIAS_LO, ctx)
+            }
+            (2, _) => {
+                // Before r_in is chosen, the largest r_in the gain window lets an r_fb inside
+                // the resistor range serve needs the least capacitance.
+                let r = match get(parts, R_IN) {
+                    Some(r) => end(spec, r, false),
+                    None => plans::largest_other(spec, form),
+                };
+                let need = common::needed_capacitance(spec, spec.source_resistance + r, true);
+                WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
+            }
+            _ => {
+                // The loss budget left once c_in's network has taken its share.
+                let spent = match (get(parts, R_IN), get(parts, C_IN)) {
+                    (Some(r), Some(c)) => Self::input_network_ok(spec, r, c).unwrap_or(0.0),
+                    _ => 0.0,
+                };
+                let need = common::needed_capacitance_after(spec, spec.load, spent);
+                WalkPlan::at_least(Coord::low_end(spec), need.unwrap_or(0.0))
+            }
+        }
+    }
+
+    /// ln|G| = ln R_fb − ln(R_s + R_in): the gain window (worst-case ends, as `group_partial`
+    /// reads them) and the gain error; r_in's floor; each coupling network's corner; the
+    /// divider's ratio window and offset (`plans::divider_log`).
+    fn log_model<'s>(&self, spec: &'s Spec) -> LogModel<'s> {
+        let rs = spec.source_resistance;
+        let g = spec.gain.abs();
+        let mut m = LogModel::default();
+        let ln_gain = |high: bool| {
+            SlotSum::default()
+                .with(R_FB, move |p| end(spec, p, high).ln())
+                .with(R_IN, move |p| -(rs + end(spec, p, !high)).ln())
+        };
+        if let Some(t) = spec.gain_tolerance {
+            plans::gain_window_log(
+                ln_gain,
+                Some((g * (1.0 - t) * (1.0 - SLACK)).ln()),
+                Some((g * (1.0 + t) * (1.0 + SLACK)).ln()),
+                &mut m,
+            );
+        }
+        // How far below the target ln|G| can be in a build that passes: the window's floor,
+        // or what the resistor range allows.
+        let (r_lo, r_hi) = spec.stock.resistor_range;
+        let u_max = match spec.gain_tolerance {
+            Some(t) => -((1.0 - t) * (1.0 - SLACK)).ln(),
+            None => (g * (rs + r_hi) / r_lo).ln().max(0.0),
+        };
+        let nominal = SlotSum::default()
+            .with(R_FB, |p| p.value.ln())
+            .with(R_IN, move |p| -(rs + p.value).ln());
+        m.terms.push(super::plan::relative_error_term(
+            "gain",
+            nominal,
+            g,
+            spec.goals.gain_error / 0.01,
+            u_max,
+        ));
+        if let Some(min) = spec.input_resistance_min {
+            m.rows.push(LogRow {
+                name: "input_resistance",
+                sum: SlotSum::default().with(R_IN, move |p| end(spec, p, false).ln()),
+                at_least: true,
+                limit: (min * (1.0 - SLACK)).ln(),
+            });
+        }
+        plans::network_log(spec, "corner_c_in", C_IN, Some(R_IN), rs, true, &mut m);
+        plans::network_log(spec, "corner_c_out", C_OUT, None, spec.load, true, &mut m);
+        let gain_floor = spec
+            .gain_tolerance
+            .map_or(0.0, |t| g * (1.0 - t) * (1.0 - SLACK));
+        plans::divider_log(spec, R_BIAS_HI, R_BIAS_LO, R_FB, gain_floor, &mut m);
+        m
+    }
+
+    fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<SlotValue>]) -> Option<f64> {
+        match g {
+            0 => {
+                let (r_in, r_fb) = (get(parts, R_IN)?, get(parts, R_FB)?);
+                if let Some(min) = spec.input_resistance_min {
+                    if end(spec, r_in, false) < min * (1.0 - SLACK) {
+                        return None;
+                    }
+                }
+                let (lo, hi) = Self::gain_range(spec, r_in, r_fb);
+                if !common::gain_window_ok(spec, lo, hi) {
+                    return None;
+                }
+                Some(common::gain_points(
+                    spec,
+                    -r_fb.value / (spec.source_resistance + r_in.value),
+                ))
+            }
+            1 => {
+                let (r_in, r_fb) = (get(parts, R_IN)?, get(parts, R_FB)?);
+                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+                if !common::divider_current_ok(spec, hi, lo) {
+                    return None;
+                }
+                let (vmin, vmax) = common::divider_range(spec, hi, lo);
+                let (_, g_max) = Self::gain_range(spec, r_in, r_fb);
+                if !common::swing_ok(spec, common::swing(spec, vmin, vmax), g_max) {
+                    return None;
+                }
+                let err = common::offset_error(spec, hi.value, lo.value, r_fb.value);
+                Some(common::offset_points(spec, err))
+            }
+            2 => {
+                let (r_in, c_in) = (get(parts, R_IN)?, get(parts, C_IN)?);
+                Self::input_network_ok(spec, r_in, c_in)?;
+                let v_div = spec.supply * get(parts, R_BIAS_LO)?.value
+                    / (get(parts, R_BIAS_HI)?.value + get(parts, R_BIAS_LO)?.value);
+                common::cap_ok(c_in, v_div - spec.source_dc).then_some(0.0)
+            }
+            3 => {
+                let (r_in, c_in, c_out) =
+                    (get(parts, R_IN)?, get(parts, C_IN)?, get(parts, C_OUT)?);
+                let out_loss = Self::output_network_ok(spec, c_out)?;
+                let in_loss = Self::input_network_ok(spec, r_in, c_in)?;
+                // The two networks are buffered by the op-amp: their losses add (in dB).
+                if !common::losses_ok(spec, in_loss + out_loss) {
+                    return None;
+                }
+                let v_div = spec.supply * get(parts, R_BIAS_LO)?.value
+                    / (get(parts, R_BIAS_HI)?.value + get(parts, R_BIAS_LO)?.value);
+                common::cap_ok(c_out, v_div).then_some(0.0)
+            }
+            _ => Some(0.0),
+        }
+    }
+}
+
+impl Inverting {
+    pub fn network_loss_db(&self, spec: &Spec, v: &[f64], network: usize, f: f64) -> f64 {
+        let n = self.networks(spec, v)[network];
+        common::high_pass_loss_db(n.resistance, n.capacitance, f)
+    }
+
+    pub fn divider_voltage(&self, spec: &Spec, v: &[f64]) -> f64 {
+        spec.supply * v[R_BIAS_LO] / (v[R_BIAS_HI] + v[R_BIAS_LO])
     }
 }

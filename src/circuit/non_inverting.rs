@@ -12,12 +12,11 @@
 //! resistance. c_g makes the DC gain 1, so the output sits on the divider's voltage; the DC
 //! resistance at − is R_fb, so compensation asks R_p = R_fb.
 
-use super::common::{self, end, SLACK};
+use super::common::{self, end, needed_capacitance, needed_capacitance_after, SLACK};
+use super::plan::{Coord, Group, LogModel, LogRow, SlotSum, WalkPlan};
 use super::plans::{self, Compensation, DividerContext, GainForm};
-use super::{
-    needed_capacitance, needed_capacitance_after, CapBias, Coord, DcErrors, DcPoint, Group,
-    LogModel, LogRow, Network, OpAmp, SlotDef, SlotSum, Stage, WalkPlan,
-};
+use super::traits::{Circuit, Drawing, SearchPlan};
+use super::types::{CapBias, DcErrors, DcPoint, Network, OpAmp, SlotDef};
 use crate::build::SlotValue;
 use crate::spec::Spec;
 use crate::vocab::PartKind;
@@ -241,7 +240,7 @@ impl NonInverting {
     }
 }
 
-impl Stage for NonInverting {
+impl Circuit for NonInverting {
     fn kind(&self) -> StageKind {
         StageKind::NonInverting
     }
@@ -303,20 +302,8 @@ impl Stage for NonInverting {
         ]
     }
 
-    fn network_loss_db(&self, spec: &Spec, v: &[f64], network: usize, f: f64) -> f64 {
-        if network == 1 {
-            return gain_leg_loss_db(v[R_FB], v[R_G], v[C_G], f);
-        }
-        let n = self.networks(spec, v)[network];
-        common::high_pass_loss_db(n.resistance, n.capacitance, f)
-    }
-
     fn dc(&self, spec: &Spec, v: &[f64], e: &DcErrors) -> DcPoint {
         common::dc_point(spec, v[R_BIAS_HI], v[R_BIAS_LO], v[R_FB], e)
-    }
-
-    fn divider_voltage(&self, spec: &Spec, v: &[f64]) -> f64 {
-        spec.supply * v[R_BIAS_LO] / (v[R_BIAS_HI] + v[R_BIAS_LO])
     }
 
     fn offset_error(&self, spec: &Spec, v: &[f64]) -> f64 {
@@ -374,7 +361,7 @@ impl Stage for NonInverting {
         // Compensation: R_fb = R_p; then R_g from the gain (infinite for a follower).
         let r_fb = rp;
         let r_g = (spec.gain > 1.0).then(|| r_fb / (spec.gain - 1.0));
-        let fc = super::common_corner_target(spec, 3);
+        let fc = common::common_corner_target(spec, 3);
         let c = |r: Option<f64>| match (fc, r) {
             (Some(fc), Some(r)) => Some(1.0 / (2.0 * PI * r * fc)),
             _ => None,
@@ -390,16 +377,8 @@ impl Stage for NonInverting {
         ]
     }
 
-    fn groups(&self, spec: &Spec) -> &'static [Group] {
-        if spec.source_resistance > 0.0 {
-            GROUPS_DIVIDER_FIRST
-        } else {
-            GROUPS
-        }
-    }
-
-    fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> super::NoiseCircuit {
-        use super::NoisePlace as Place;
+    fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> super::types::NoiseCircuit {
+        use super::types::NoisePlace as Place;
         let re = |r: f64| Complex64::new(r, 0.0);
         let name = |slot: usize| SLOTS[slot].name;
         let rs = spec.source_resistance;
@@ -407,7 +386,7 @@ impl Stage for NonInverting {
         // − input: R_fb to the output, R_g + c_g to ground. + input: the divider in
         // parallel with the input branch (c_in and the source's resistance).
         let (hi, lo) = (v[R_BIAS_HI], v[R_BIAS_LO]);
-        let branch = re(rs) + super::cap_z(v[C_IN], f);
+        let branch = re(rs) + super::types::cap_z(v[C_IN], f);
         let one = re(1.0);
         let z_p = one / (one / hi + one / lo + one / branch);
         resistors.push((name(R_BIAS_HI), hi, Place::Plus(re(hi))));
@@ -417,12 +396,154 @@ impl Stage for NonInverting {
         }
         resistors.push((name(R_FB), v[R_FB], Place::Feedback));
         resistors.push((name(R_G), v[R_G], Place::Shunt));
-        super::NoiseCircuit {
+        super::types::NoiseCircuit {
             z_f: re(v[R_FB]),
-            z_s: re(v[R_G]) + super::cap_z(v[C_G], f),
+            z_s: re(v[R_G]) + super::types::cap_z(v[C_G], f),
             z_p,
             h_out: common::high_pass(spec.load, v[C_OUT], f),
             resistors,
+        }
+    }
+
+    fn drawing(&self) -> &dyn Drawing {
+        self
+    }
+
+    fn plan(&self) -> Option<&dyn SearchPlan> {
+        Some(self)
+    }
+}
+
+impl Drawing for NonInverting {
+    /// The drawing above: c_in from the source to + with the divider, r_fb from the output
+    /// to −, r_g and c_g from − to ground, c_out to the load.
+    fn spice_elements(&self) -> &'static [super::types::SpiceElement] {
+        use super::types::{Node::*, SpiceElement as E};
+        const ELEMENTS: &[E] = &[
+            E {
+                slot: C_IN,
+                a: Input,
+                b: PlusInput,
+            },
+            E {
+                slot: R_BIAS_HI,
+                a: Supply,
+                b: PlusInput,
+            },
+            E {
+                slot: R_BIAS_LO,
+                a: PlusInput,
+                b: Ground,
+            },
+            E {
+                slot: R_FB,
+                a: MinusInput,
+                b: AmpOut,
+            },
+            E {
+                slot: R_G,
+                a: MinusInput,
+                b: Internal("n_g"),
+            },
+            E {
+                slot: C_G,
+                a: Internal("n_g"),
+                b: Ground,
+            },
+            E {
+                slot: C_OUT,
+                a: AmpOut,
+                b: Out,
+            },
+        ];
+        ELEMENTS
+    }
+
+    /// The drawing of the module docs: the input onto the divider at the + input, r_fb below
+    /// the op-amp with the gain leg r_g + c_g under the − input, c_out to the load on the right.
+    fn schematic_layout(&self) -> &'static super::layout::Layout {
+        use super::layout::{opamp_pins, Layout, Placed, Side, P};
+        const U: P = P(460, 200);
+        const PINS: super::layout::OpAmpPins = opamp_pins(U);
+        const LAYOUT: Layout = Layout {
+            size: (900, 580),
+            opamp: U,
+            plus_on_top: true,
+            source: P(60, 200),
+            load: P(780, 220),
+            supplies: &[P(280, 100)],
+            grounds: &[P(280, 300), P(430, 530)],
+            wires: &[
+                &[P(60, 200), P(90, 200)],
+                &[P(190, 200), PINS.upper],
+                &[PINS.lower, P(430, 240), P(430, 330), P(470, 330)],
+                &[P(570, 330), P(620, 330), P(620, 220)],
+                &[PINS.out, P(640, 220)],
+                &[P(740, 220), P(780, 220)],
+            ],
+            dots: &[P(280, 200), P(430, 330), P(620, 220)],
+            parts: &[
+                Placed {
+                    slot: C_IN,
+                    from: P(90, 200),
+                    to: P(190, 200),
+                    label: Side::Above,
+                    from_side: Some("source side"),
+                },
+                Placed {
+                    slot: R_BIAS_HI,
+                    from: P(280, 100),
+                    to: P(280, 200),
+                    label: Side::Right,
+                    from_side: None,
+                },
+                Placed {
+                    slot: R_BIAS_LO,
+                    from: P(280, 200),
+                    to: P(280, 300),
+                    label: Side::Right,
+                    from_side: None,
+                },
+                Placed {
+                    slot: R_FB,
+                    from: P(470, 330),
+                    to: P(570, 330),
+                    label: Side::Below,
+                    from_side: None,
+                },
+                Placed {
+                    slot: R_G,
+                    from: P(430, 330),
+                    to: P(430, 430),
+                    label: Side::Left,
+                    from_side: None,
+                },
+                Placed {
+                    slot: C_G,
+                    from: P(430, 430),
+                    to: P(430, 530),
+                    label: Side::Left,
+                    from_side: Some("r_g side"),
+                },
+                Placed {
+                    slot: C_OUT,
+                    from: P(640, 220),
+                    to: P(740, 220),
+                    label: Side::Above,
+                    from_side: Some("op-amp side"),
+                },
+            ],
+        };
+        &LAYOUT
+    }
+}
+
+impl SearchPlan for NonInverting {
+    fn groups(&self, spec: &Spec) -> &'static [Group] {
+        if spec.source_resistance > 0.0 {
+            GROUPS_DIVIDER_FIRST
+        } else {
+            GROUPS
         }
     }
 
@@ -558,14 +679,14 @@ impl Stage for NonInverting {
             let rho = g - 1.0;
             let u_max = (rho * r_hi / r_lo).ln().max(0.0);
             let mut below =
-                super::relative_error_term("gain_below", ln_rho(), rho, w * rho / g, u_max);
+                super::plan::relative_error_term("gain_below", ln_rho(), rho, w * rho / g, u_max);
             below.above = 0.0;
             m.terms.push(below);
             if let Some(min) = spec.input_resistance_min {
                 let att = min / (rs + min);
                 let rho2 = g / att - 1.0;
                 if rho2 > 0.0 {
-                    let mut above = super::relative_error_term(
+                    let mut above = super::plan::relative_error_term(
                         "gain_above",
                         ln_rho(),
                         rho2,
@@ -588,7 +709,7 @@ impl Stage for NonInverting {
                 Some(f) => (rho / f).ln(),
                 None => (rho * r_hi / r_lo).ln().max(0.0),
             };
-            m.terms.push(super::relative_error_term(
+            m.terms.push(super::plan::relative_error_term(
                 "gain",
                 ln_rho(),
                 rho,
@@ -733,126 +854,18 @@ impl Stage for NonInverting {
             }
         }
     }
+}
 
-    /// The drawing above: c_in from the source to + with the divider, r_fb from the output
-    /// to −, r_g and c_g from − to ground, c_out to the load.
-    fn spice_elements(&self) -> &'static [super::SpiceElement] {
-        use super::{Node::*, SpiceElement as E};
-        const ELEMENTS: &[E] = &[
-            E {
-                slot: C_IN,
-                a: Input,
-                b: PlusInput,
-            },
-            E {
-                slot: R_BIAS_HI,
-                a: Supply,
-                b: PlusInput,
-            },
-            E {
-                slot: R_BIAS_LO,
-                a: PlusInput,
-                b: Ground,
-            },
-            E {
-                slot: R_FB,
-                a: MinusInput,
-                b: AmpOut,
-            },
-            E {
-                slot: R_G,
-                a: MinusInput,
-                b: Internal("n_g"),
-            },
-            E {
-                slot: C_G,
-                a: Internal("n_g"),
-                b: Ground,
-            },
-            E {
-                slot: C_OUT,
-                a: AmpOut,
-                b: Out,
-            },
-        ];
-        ELEMENTS
+impl NonInverting {
+    pub fn network_loss_db(&self, spec: &Spec, v: &[f64], network: usize, f: f64) -> f64 {
+        if network == 1 {
+            return gain_leg_loss_db(v[R_FB], v[R_G], v[C_G], f);
+        }
+        let n = self.networks(spec, v)[network];
+        common::high_pass_loss_db(n.resistance, n.capacitance, f)
     }
 
-    /// The drawing of the module docs: the input onto the divider at the + input, r_fb below
-    /// the op-amp with the gain leg r_g + c_g under the − input, c_out to the load on the right.
-    fn schematic_layout(&self) -> &'static super::layout::Layout {
-        use super::layout::{opamp_pins, Layout, Placed, Side, P};
-        const U: P = P(460, 200);
-        const PINS: super::layout::OpAmpPins = opamp_pins(U);
-        const LAYOUT: Layout = Layout {
-            size: (900, 580),
-            opamp: U,
-            plus_on_top: true,
-            source: P(60, 200),
-            load: P(780, 220),
-            supplies: &[P(280, 100)],
-            grounds: &[P(280, 300), P(430, 530)],
-            wires: &[
-                &[P(60, 200), P(90, 200)],
-                &[P(190, 200), PINS.upper],
-                &[PINS.lower, P(430, 240), P(430, 330), P(470, 330)],
-                &[P(570, 330), P(620, 330), P(620, 220)],
-                &[PINS.out, P(640, 220)],
-                &[P(740, 220), P(780, 220)],
-            ],
-            dots: &[P(280, 200), P(430, 330), P(620, 220)],
-            parts: &[
-                Placed {
-                    slot: C_IN,
-                    from: P(90, 200),
-                    to: P(190, 200),
-                    label: Side::Above,
-                    from_side: Some("source side"),
-                },
-                Placed {
-                    slot: R_BIAS_HI,
-                    from: P(280, 100),
-                    to: P(280, 200),
-                    label: Side::Right,
-                    from_side: None,
-                },
-                Placed {
-                    slot: R_BIAS_LO,
-                    from: P(280, 200),
-                    to: P(280, 300),
-                    label: Side::Right,
-                    from_side: None,
-                },
-                Placed {
-                    slot: R_FB,
-                    from: P(470, 330),
-                    to: P(570, 330),
-                    label: Side::Below,
-                    from_side: None,
-                },
-                Placed {
-                    slot: R_G,
-                    from: P(430, 330),
-                    to: P(430, 430),
-                    label: Side::Left,
-                    from_side: None,
-                },
-                Placed {
-                    slot: C_G,
-                    from: P(430, 430),
-                    to: P(430, 530),
-                    label: Side::Left,
-                    from_side: Some("r_g side"),
-                },
-                Placed {
-                    slot: C_OUT,
-                    from: P(640, 220),
-                    to: P(740, 220),
-                    label: Side::Above,
-                    from_side: Some("op-amp side"),
-                },
-            ],
-        };
-        &LAYOUT
+    pub fn divider_voltage(&self, spec: &Spec, v: &[f64]) -> f64 {
+        spec.supply * v[R_BIAS_LO] / (v[R_BIAS_HI] + v[R_BIAS_LO])
     }
 }

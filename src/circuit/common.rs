@@ -1,0 +1,283 @@
+//! Shared equations of the single-supply stages: divider, DC point, offset, the relaxed
+//! checks the hand-tuned plans use, tolerance vertices, and the capacitance a coupling network
+//! needs.
+
+use super::types::{DcErrors, DcPoint};
+use crate::build::{Part, SlotValue};
+use crate::spec::Spec;
+use num_complex::Complex64;
+use std::f64::consts::PI;
+
+pub fn parallel(a: f64, b: f64) -> f64 {
+    a * b / (a + b)
+}
+
+/// First-order high-pass R/(R + 1/(jωC)) (circuit theory).
+pub fn high_pass(r: f64, c: f64, f: f64) -> Complex64 {
+    let zc = Complex64::new(0.0, -1.0 / (2.0 * PI * f * c));
+    Complex64::new(r, 0.0) / (Complex64::new(r, 0.0) + zc)
+}
+
+/// Loss of a first-order high-pass at f: 10·log10(1 + (fc/f)²) dB.
+pub fn high_pass_loss_db(r: f64, c: f64, f: f64) -> f64 {
+    let fc = 1.0 / (2.0 * PI * r * c);
+    10.0 * (1.0 + (fc / f).powi(2)).log10()
+}
+
+/// DC point of a single-supply stage whose + input sits on a divider and whose − input
+/// sees `r_minus` to the output at DC (capacitors open): V+ = V_div − I_b+·R_p,
+/// V− = V+ + V_os, V_out = V− + I_b−·R_fb (KCL at each input).
+pub fn dc_point(spec: &Spec, r_hi: f64, r_lo: f64, r_fb: f64, e: &DcErrors) -> DcPoint {
+    let v_div = spec.supply * r_lo / (r_hi + r_lo);
+    let rp = parallel(r_hi, r_lo);
+    let v_plus = v_div - e.ib_plus * rp;
+    let v_minus = v_plus + e.vos;
+    DcPoint {
+        v_plus,
+        v_minus,
+        v_out: v_minus + e.ib_minus * r_fb,
+        divider_current: spec.supply / (r_hi + r_lo),
+    }
+}
+
+/// Nominal output DC error bound: |V_div − target| + I_b·|R_fb − R_p| + (I_os/2)·(R_fb + R_p).
+/// With I_b± = I_b ± I_os/2 the bias currents shift the output by
+/// I_b·(R_fb − R_p) − (I_os/2)·(R_fb + R_p); compensation (R_p = R_fb) removes the first
+/// term only, so large resistances still cost through the second (any op-amp text, "bias
+/// current compensation").
+pub fn offset_error(spec: &Spec, r_hi: f64, r_lo: f64, r_fb: f64) -> f64 {
+    let rp = parallel(r_hi, r_lo);
+    divider_error(spec, r_hi, r_lo)
+        + spec.amplifier.input_bias_current * (r_fb - rp).abs()
+        + spec.amplifier.input_offset_current / 2.0 * r_fb
+}
+
+/// The part of `offset_error` the divider alone decides (a lower bound of it).
+pub fn divider_error(spec: &Spec, r_hi: f64, r_lo: f64) -> f64 {
+    let v_div = spec.supply * r_lo / (r_hi + r_lo);
+    (v_div - spec.bias_target()).abs()
+        + spec.amplifier.input_offset_current / 2.0 * parallel(r_hi, r_lo)
+}
+
+/// Weighted points of the offset term: `offset` points per 100 mV.
+pub fn offset_points(spec: &Spec, error_v: f64) -> f64 {
+    spec.goals.offset * error_v / 0.1
+}
+
+/// Weighted points of the gain term: `gain_error` points per 1 %.
+pub fn gain_points(spec: &Spec, gain: f64) -> f64 {
+    spec.goals.gain_error * gain_error(spec, gain) / 0.01
+}
+
+pub fn gain_error(spec: &Spec, gain: f64) -> f64 {
+    (gain - spec.gain).abs() / spec.gain.abs()
+}
+
+/// Slack for the search's relaxations, so rounding never rejects what the exact analysis
+/// would accept.
+pub const SLACK: f64 = 1e-6;
+
+/// Worst-case (or nominal) gain range inside the tolerance window, when one is given.
+pub fn gain_window_ok(spec: &Spec, g_lo: f64, g_hi: f64) -> bool {
+    match spec.gain_tolerance {
+        None => true,
+        Some(t) => {
+            let target = spec.gain.abs();
+            let (lo, hi) = (g_lo.abs().min(g_hi.abs()), g_lo.abs().max(g_hi.abs()));
+            lo >= target * (1.0 - t) * (1.0 - SLACK) && hi <= target * (1.0 + t) * (1.0 + SLACK)
+        }
+    }
+}
+
+/// The end of a part's tolerance to use: worst case takes the given end, nominal mode the
+/// nominal value.
+pub fn end(spec: &Spec, part: &SlotValue, high: bool) -> f64 {
+    if spec.worst_case() {
+        part.at(high)
+    } else {
+        part.value
+    }
+}
+
+/// Divider output extremes over the divider's tolerances, ignoring op-amp errors (which
+/// widen the range symmetrically, so leaving them out is the optimistic side).
+pub fn divider_range(spec: &Spec, hi: &SlotValue, lo: &SlotValue) -> (f64, f64) {
+    let vmin = spec.supply * end(spec, lo, false) / (end(spec, hi, true) + end(spec, lo, false));
+    let vmax = spec.supply * end(spec, lo, true) / (end(spec, hi, false) + end(spec, lo, true));
+    (vmin, vmax)
+}
+
+/// Relaxed `bias_current_max`: the nominal divider current (the worst case is higher).
+pub fn divider_current_ok(spec: &Spec, hi: &SlotValue, lo: &SlotValue) -> bool {
+    spec.bias_current_max
+        .is_none_or(|max| spec.supply / (hi.value + lo.value) <= max * (1.0 + SLACK))
+}
+
+/// Output peak the headroom allows around a DC range.
+pub fn swing(spec: &Spec, dc_min: f64, dc_max: f64) -> f64 {
+    (dc_min - spec.headroom.0).min(spec.supply - spec.headroom.1 - dc_max)
+}
+
+/// Relaxed swing requirement: the output swing, or the input range at the highest gain.
+pub fn swing_ok(spec: &Spec, swing: f64, gain_max: f64) -> bool {
+    if let Some(out) = spec.output_peak {
+        return swing >= out * (1.0 - SLACK) - SLACK;
+    }
+    if let Some(inp) = spec.input_peak {
+        return swing / gain_max.abs() >= inp * (1.0 - SLACK) - SLACK;
+    }
+    swing > -SLACK
+}
+
+/// 10·log10(2): the loss at a −3 dB corner (half the power).
+pub const THREE_DB: f64 = 3.010_299_956_639_812;
+
+/// The loss the stage may take at the band's low edge, summed over its buffered coupling
+/// networks: `band_loss_max`; or with neither it nor `corner_low_max` given, 3 dB (the
+/// whole response's −3 dB corner must then sit at or below the band's low edge); or none.
+pub fn loss_budget(spec: &Spec) -> Option<f64> {
+    match (spec.band_loss_max, spec.corner_low_max) {
+        (Some(max), _) => Some(max),
+        (None, None) => Some(THREE_DB),
+        (None, Some(_)) => None,
+    }
+}
+
+/// Whether the summed worst-case losses of the networks fit `loss_budget`.
+pub fn losses_ok(spec: &Spec, total_db: f64) -> bool {
+    loss_budget(spec).is_none_or(|max| total_db <= max * (1.0 + SLACK) + SLACK)
+}
+
+/// Relaxed per-network checks of one coupling network: its worst corner and its own loss
+/// at the band's low edge against the whole budget; with neither limit given, a plain
+/// first-order network's corner at or below the band's low edge (the whole response's
+/// −3 dB corner lies above each section's, and must sit at or below the band's edge).
+pub fn plain_network_ok(spec: &Spec, worst_corner: f64, worst_loss_db: f64) -> bool {
+    if spec.corner_low_max.is_none()
+        && spec.band_loss_max.is_none()
+        && worst_corner > spec.band.0 * (1.0 + SLACK)
+    {
+        return false;
+    }
+    network_ok(spec, worst_corner, worst_loss_db)
+}
+
+/// Relaxed per-network checks of one coupling network: its worst corner and its own loss
+/// at the band's low edge against the whole budget.
+pub fn network_ok(spec: &Spec, worst_corner: f64, worst_loss_db: f64) -> bool {
+    if let Some(max) = spec.corner_low_max {
+        if worst_corner > max * (1.0 + SLACK) {
+            return false;
+        }
+    }
+    if let Some(max) = spec.band_loss_max {
+        if worst_loss_db > max * (1.0 + SLACK) + SLACK {
+            return false;
+        }
+    }
+    true
+}
+
+/// Relaxed rating check at the nominal DC point (the exact analysis checks every tolerance
+/// corner and the polarity): DC stress ≤ 80 % of the rating (common-practice derating).
+pub fn cap_ok(part: &SlotValue, volts: f64) -> bool {
+    match part.rating {
+        Some(rating) => volts.abs() <= rating * 0.8 * (1.0 + SLACK),
+        None => true,
+    }
+}
+
+/// The vertices of the tolerance box of slot values (2^n), or just the nominal point.
+pub fn value_vertices(spec: &Spec, parts: &[&SlotValue]) -> Vec<Vec<f64>> {
+    let nominal: Vec<f64> = parts.iter().map(|p| p.value).collect();
+    if !spec.worst_case() {
+        return vec![nominal];
+    }
+    (0..1usize << parts.len())
+        .map(|mask| {
+            (0..parts.len())
+                .map(|i| parts[i].at(mask >> i & 1 == 1))
+                .collect()
+        })
+        .collect()
+}
+
+/// All vertices of the tolerance box of `parts` (2^n), or just the nominal point.
+pub fn vertices(spec: &Spec, parts: &[&Part]) -> Vec<Vec<f64>> {
+    vertices_where(spec, parts, |_| true)
+}
+
+/// Vertices over the parts `vary` selects, the others at nominal: 2^k points.
+pub fn vertices_where(spec: &Spec, parts: &[&Part], vary: impl Fn(&Part) -> bool) -> Vec<Vec<f64>> {
+    let nominal: Vec<f64> = parts.iter().map(|p| p.value).collect();
+    if !spec.worst_case() {
+        return vec![nominal];
+    }
+    let varied: Vec<usize> = (0..parts.len()).filter(|&i| vary(parts[i])).collect();
+    (0..1usize << varied.len())
+        .map(|mask| {
+            let mut v = nominal.clone();
+            for (bit, &i) in varied.iter().enumerate() {
+                v[i] = parts[i].at(mask >> bit & 1 == 1);
+            }
+            v
+        })
+        .collect()
+}
+/// Corner each of `n` coupling networks should have so that the spec holds with equal shares:
+/// the smaller of `corner_low_max` and the corner that spends 1/n of `band_loss_max` at the
+/// band's low edge (first-order loss 10·log10(1 + (fc/f)²) solved for fc). With neither given,
+/// a decade below the band (common practice).
+pub fn common_corner_target(spec: &Spec, n: usize) -> Option<f64> {
+    let f = spec.band.0;
+    let from_loss = spec
+        .band_loss_max
+        .map(|l| f * (10f64.powf(l / (10.0 * n as f64)) - 1.0).sqrt());
+    match (spec.corner_low_max, from_loss) {
+        (Some(a), Some(b)) => Some(a.min(b)),
+        (Some(a), None) => Some(a),
+        (None, Some(b)) => Some(b),
+        (None, None) => Some(f / 10.0),
+    }
+}
+
+/// The least capacitance a first-order coupling network against `r` (its low-end value) needs
+/// for the spec's corner and band-loss limits, each alone: C ≥ 1/(2π·R·f_c) with f_c the
+/// corner limit, or the corner that spends the whole loss budget at the band's low edge,
+/// f·√(10^(L/10) − 1) (first-order high-pass). With `loss` false only the corner limit counts.
+pub fn needed_capacitance(spec: &Spec, r: f64, loss: bool) -> Option<f64> {
+    let mut fc = f64::INFINITY;
+    if let Some(max) = spec.corner_low_max {
+        fc = fc.min(max);
+    }
+    if let (true, Some(l)) = (loss, spec.band_loss_max) {
+        fc = fc.min(spec.band.0 * (10f64.powf(l / 10.0) - 1.0).sqrt());
+    }
+    if loss && spec.corner_low_max.is_none() && spec.band_loss_max.is_none() {
+        // Then the whole response's −3 dB corner must sit at or below the band's low edge,
+        // and a cascade's corner is above each first-order section's own corner.
+        fc = fc.min(spec.band.0);
+    }
+    fc.is_finite()
+        .then(|| 1.0 / (2.0 * std::f64::consts::PI * r * fc))
+}
+
+/// The least capacitance a first-order coupling network against `r` (its low-end value) may
+/// have once other networks, buffered from it, have spent `spent` dB of the loss budget at
+/// the band's low edge (`loss_budget`): the corner limit and the loss left, each with
+/// the search's slack (as `common::network_ok` and the stages' summed-loss checks read them).
+/// `Some(∞)` when no loss is left.
+pub fn needed_capacitance_after(spec: &Spec, r: f64, spent: f64) -> Option<f64> {
+    let mut fc = f64::INFINITY;
+    if let Some(max) = spec.corner_low_max {
+        fc = fc.min(max * (1.0 + SLACK));
+    }
+    if let Some(l) = loss_budget(spec) {
+        let left = l * (1.0 + SLACK) + SLACK - spent;
+        if left <= 0.0 {
+            return Some(f64::INFINITY);
+        }
+        fc = fc.min(spec.band.0 * (10f64.powf(left / 10.0) - 1.0).sqrt());
+    }
+    Some(1.0 / (2.0 * std::f64::consts::PI * r * fc))
+}

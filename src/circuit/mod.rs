@@ -1,0 +1,35 @@
+//! Circuits: one file per circuit, each implementing the equations (`Circuit`), the drawing
+//! (`Drawing`) and optionally a hand-tuned search plan (`SearchPlan`); the registry maps a kind
+//! to its circuit. The analysis, the search and the reports are generic over these traits; see
+//! DEVELOPERS.md, "Adding a circuit".
+//!
+//! This file only declares, re-exports and registers: the files below depend on each other in
+//! one direction (types → plan → common → plans → circuits), never on this one.
+
+pub mod common;
+pub mod inverting;
+pub mod layout;
+pub mod non_inverting;
+pub mod plan;
+pub(crate) mod plans;
+pub mod traits;
+pub mod types;
+
+pub use plan::*;
+pub use traits::{Circuit, Drawing, SearchPlan};
+pub use types::*;
+
+use crate::vocab::StageKind;
+
+/// The circuit of a kind: the registry (one line per circuit).
+pub fn circuit_for(kind: StageKind) -> &'static dyn Circuit {
+    match kind {
+        StageKind::Inverting => &inverting::Inverting,
+        StageKind::NonInverting => &non_inverting::NonInverting,
+    }
+}
+
+/// Index of a slot by name.
+pub fn slot_index(stage: &dyn Circuit, name: &str) -> Option<usize> {
+    stage.slots().iter().position(|s| s.name == name)
+}

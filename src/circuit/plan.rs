@@ -1,0 +1,219 @@
+//! The vocabulary of search plans: groups of coupled slots, how a slot is walked (`WalkPlan`
+//! and its bound rule), the log-linear model for the MILP engine, and helpers to build bounds
+//! with one minimum per term.
+
+use super::common;
+use crate::build::SlotValue;
+use crate::spec::Spec;
+
+/// A search group: slots whose choice is coupled and decided together.
+pub type Group = &'static [usize];
+
+/// Which figure of a candidate a walk orders by: its nominal value, or the low end of its
+/// tolerance (what a "large enough" requirement needs at worst case).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Coord {
+    Value,
+    Low,
+}
+
+impl Coord {
+    /// The coordinate that `common::end(spec, _, false)` reads: the low end at worst case,
+    /// the nominal value in nominal mode.
+    pub fn low_end(spec: &Spec) -> Coord {
+        if spec.worst_case() {
+            Coord::Low
+        } else {
+            Coord::Value
+        }
+    }
+
+    pub fn of(self, v: &SlotValue) -> f64 {
+        match self {
+            Coord::Value => v.value,
+            Coord::Low => v.min,
+        }
+    }
+}
+
+/// A lower bound of a group's share for one slot's candidate: `bound(v, up)` for a candidate
+/// whose coordinate is `v`, met walking up (`true`, v ≥ target) or down from the target.
+pub type BoundFn<'s> = Box<dyn Fn(f64, bool) -> Option<f64> + 's>;
+
+/// How the search walks one slot's candidates: outward from `target` in both directions, in
+/// order of slot points plus `bound`, lazily (the search never sorts a slot's candidates per
+/// node).
+///
+/// The contract, which `tests/exact.rs` holds the stages to:
+/// - `bound(v, up)` never exceeds the group's share (`group_partial`, plus for the first slot
+///   of a pair the best the second slot can still do) for any candidate at `v` on that side
+///   and any tolerance (so it may only read `v`);
+/// - it is nondecreasing as `v` moves away from `target` in the walk's direction;
+/// - `None` means this value and every value farther out on that side fail a requirement.
+///
+/// [`unimodal_sum`] turns a sum of terms each with one minimum into such a bound.
+pub struct WalkPlan<'s> {
+    pub coord: Coord,
+    pub target: f64,
+    pub bound: BoundFn<'s>,
+    /// Every candidate whose coordinate is outside `[window.0, window.1]` fails a requirement
+    /// (whichever side of the target it is on), so the search can drop it without asking
+    /// `bound`; `ANY` when the plan knows no such interval.
+    pub window: (f64, f64),
+}
+
+/// The window of a plan that knows none (see [`WalkPlan::window`]).
+pub const ANY: (f64, f64) = (f64::NEG_INFINITY, f64::INFINITY);
+
+impl WalkPlan<'static> {
+    /// No preference: every candidate, cheapest first (a walk up from the bottom).
+    pub fn free() -> WalkPlan<'static> {
+        WalkPlan {
+            window: ANY,
+            coord: Coord::Value,
+            target: 0.0,
+            bound: Box::new(|_, _| Some(0.0)),
+        }
+    }
+
+    /// Every candidate whose coordinate is at least `min` (less fails), cheapest first. `min`
+    /// is taken `SLACK` lower so that rounding never drops a part the exact check accepts.
+    pub fn at_least(coord: Coord, min: f64) -> WalkPlan<'static> {
+        let target = if min.is_nan() {
+            0.0
+        } else {
+            min * (1.0 - common::SLACK)
+        };
+        WalkPlan {
+            window: ANY,
+            coord,
+            target,
+            bound: Box::new(move |v, up| (up && v >= target).then_some(0.0)),
+        }
+    }
+
+    /// Every candidate whose coordinate is at most `max`, walked down from there.
+    pub fn at_most(coord: Coord, max: f64) -> WalkPlan<'static> {
+        let target = max * (1.0 + common::SLACK);
+        WalkPlan {
+            window: ANY,
+            coord,
+            target,
+            bound: Box::new(move |v, up| (!up || v <= target).then_some(0.0)),
+        }
+    }
+}
+
+/// A number per candidate, summed over some slots: Σᵢ fᵢ(part in slot sᵢ). The MILP engine
+/// turns it into Σ_c x[s][c]·f(c) over its choice variables.
+pub type SlotFn<'s> = Box<dyn Fn(&SlotValue) -> f64 + 's>;
+
+/// A sum over slots of a number per candidate (see [`SlotFn`]).
+#[derive(Default)]
+pub struct SlotSum<'s> {
+    pub terms: Vec<(usize, SlotFn<'s>)>,
+}
+
+impl<'s> SlotSum<'s> {
+    /// Add f(part in `slot`).
+    pub fn with(mut self, slot: usize, f: impl Fn(&SlotValue) -> f64 + 's) -> Self {
+        self.terms.push((slot, Box::new(f)));
+        self
+    }
+
+    /// The sum for a build's parts by slot.
+    pub fn eval(&self, parts: &[SlotValue]) -> f64 {
+        self.terms.iter().map(|(s, f)| f(&parts[*s])).sum()
+    }
+}
+
+/// A requirement as a linear row: `sum ≥ limit` (`at_least`) or `sum ≤ limit`.
+pub struct LogRow<'s> {
+    /// What it stands for, for messages and tests.
+    pub name: &'static str,
+    pub sum: SlotSum<'s>,
+    pub at_least: bool,
+    pub limit: f64,
+}
+
+/// An objective term `above·max(sum − target, 0) + below·max(target − sum, 0)` (points).
+pub struct AbsTerm<'s> {
+    pub name: &'static str,
+    pub sum: SlotSum<'s>,
+    pub target: f64,
+    pub above: f64,
+    pub below: f64,
+}
+
+impl AbsTerm<'_> {
+    pub fn eval(&self, parts: &[SlotValue]) -> f64 {
+        let d = self.sum.eval(parts) - self.target;
+        if d >= 0.0 {
+            self.above * d
+        } else {
+            -self.below * d
+        }
+    }
+}
+
+/// What of a stage is linear in the logarithms of its values (see `Stage::log_model`).
+#[derive(Default)]
+pub struct LogModel<'s> {
+    pub rows: Vec<LogRow<'s>>,
+    pub terms: Vec<AbsTerm<'s>>,
+    /// Further objective points, linear over the candidates.
+    pub points: SlotSum<'s>,
+}
+
+/// The objective term for a relative error |q/q_t − 1| (times `scale`, in points per unit)
+/// written on ln q: above the target e^u − 1 ≥ u (tangent at 0 of a convex function), below
+/// it 1 − e^(−|u|) ≥ κ·|u| for |u| ≤ U with κ = (1 − e^(−U))/U (a chord of a concave
+/// function); `u_max` is U, the most ln q can fall short of ln q_t in a build that passes.
+pub fn relative_error_term<'s>(
+    name: &'static str,
+    ln_q: SlotSum<'s>,
+    q_target: f64,
+    scale: f64,
+    u_max: f64,
+) -> AbsTerm<'s> {
+    let kappa = if u_max > 1e-12 {
+        (1.0 - (-u_max).exp()) / u_max
+    } else {
+        1.0
+    };
+    AbsTerm {
+        name,
+        sum: ln_q,
+        target: q_target.ln(),
+        above: scale * (1.0 - 1e-9),
+        below: scale * kappa * (1.0 - 1e-9),
+    }
+}
+
+/// A term of a walk bound: a function with a single minimum at `mode` (nonincreasing below
+/// it, nondecreasing above). `mode` may be ±∞ for a monotone term.
+pub struct Term<'a> {
+    pub mode: f64,
+    pub f: &'a dyn Fn(f64) -> f64,
+}
+
+/// A lower bound of Σ fᵢ(v) that is nondecreasing along a walk: going up, each term is read
+/// at max(v, modeᵢ), going down at min(v, modeᵢ). Each read is the least the term can still
+/// take at `v` or farther out, so the sum never exceeds the true one and only grows as the
+/// walk moves on, whatever the target.
+pub fn unimodal_sum(terms: &[Term], v: f64, up: bool) -> f64 {
+    terms
+        .iter()
+        .map(|t| {
+            let at = if up { v.max(t.mode) } else { v.min(t.mode) };
+            (t.f)(at)
+        })
+        .sum()
+}
+
+/// The least of a·|x − x₁| + b·|x − x₂| over x is min(a, b)·|x₁ − x₂| (a piecewise-linear
+/// function takes its minimum at a breakpoint): the bound of two V-shaped costs pulling one
+/// value towards two places.
+pub fn two_v_floor(a: f64, x1: f64, b: f64, x2: f64) -> f64 {
+    a.min(b) * (x1 - x2).abs()
+}

@@ -1,0 +1,115 @@
+//! The traits a circuit implements, one per concern: its equations (`Circuit`: what the
+//! analysis, the yield, the noise figures and the netlist need), its drawing (`Drawing`: the
+//! netlist wiring and the schematic), and an optional hand-tuned search plan (`SearchPlan`).
+//! Without a plan of its own a circuit is searched by the generic plan (`search::generic`),
+//! which needs only the equations.
+
+use super::layout;
+use super::plan::{Group, LogModel, WalkPlan};
+use super::types::{
+    CapBias, DcErrors, DcPoint, Network, NoiseCircuit, OpAmp, SlotDef, SpiceElement,
+};
+use crate::build::SlotValue;
+use crate::spec::Spec;
+use crate::vocab::StageKind;
+use num_complex::Complex64;
+
+/// The equations of a circuit. Every method takes the slot values in the circuit's slot
+/// order (SI base units); nothing here knows about stock, search or reports.
+pub trait Circuit: Send + Sync {
+    fn kind(&self) -> StageKind;
+    fn slots(&self) -> &'static [SlotDef];
+    /// One line describing the circuit, for reports.
+    fn topology(&self) -> &'static str;
+
+    /// Mid-band gain from source EMF to load with an ideal op-amp (capacitors shorted), V/V.
+    fn mid_gain(&self, spec: &Spec, v: &[f64]) -> f64;
+    /// Noise gain 1/β at mid-band, which sets the bandwidth with a finite GBW.
+    fn noise_gain(&self, spec: &Spec, v: &[f64]) -> f64;
+    /// Resistance the source sees at mid-band.
+    fn input_resistance(&self, spec: &Spec, v: &[f64]) -> f64;
+    /// Transfer function from source EMF to the load at frequency `f`.
+    fn response(&self, spec: &Spec, v: &[f64], opamp: &OpAmp, f: f64) -> Complex64;
+    /// The coupling networks, in the order reports list them.
+    fn networks(&self, spec: &Spec, v: &[f64]) -> Vec<Network>;
+    /// DC point with the given op-amp errors (capacitors open, no leakage).
+    fn dc(&self, spec: &Spec, v: &[f64], e: &DcErrors) -> DcPoint;
+    /// Nominal output DC error bound, V (see `common::offset_error`): what the `offset` goal counts.
+    fn offset_error(&self, spec: &Spec, v: &[f64]) -> f64;
+    /// DC across each capacitor at a DC point.
+    fn cap_bias(&self, spec: &Spec, v: &[f64], dc: &DcPoint) -> Vec<CapBias>;
+    /// Power in each resistor slot at a DC point carrying a sine of `out_peak` at the output.
+    fn resistor_power(
+        &self,
+        spec: &Spec,
+        v: &[f64],
+        dc: &DcPoint,
+        out_peak: f64,
+    ) -> Vec<(usize, f64)>;
+    /// The textbook values before any rounding to stock, where the stage can say.
+    fn ideal(&self, spec: &Spec) -> Vec<Option<f64>>;
+
+    /// The impedances around the op-amp at `f` and where each resistor's noise sits, for the
+    /// noise analysis (`analysis::noise`; its module docs give the transfer of each place).
+    fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> NoiseCircuit;
+
+    /// How the circuit is drawn: netlist wiring and schematic.
+    fn drawing(&self) -> &dyn Drawing;
+
+    /// The circuit's own, faster search plan, if it has one; `None` leaves it to the generic
+    /// plan, which is exact too.
+    fn plan(&self) -> Option<&dyn SearchPlan> {
+        None
+    }
+}
+
+/// How a circuit is drawn: between which netlist nodes each slot sits and where its symbol
+/// goes on the schematic.
+pub trait Drawing: Send + Sync {
+    /// sits, every slot once, in slot order. The source, supply, op-amp (its pins are
+    /// `PlusInput`, `MinusInput`, `AmpOut`) and load are the same for every stage and are
+    /// added by the writer; the stage only wires its slots, so its netlist cannot drift from
+    /// its equations without the ngspice test (tests/ngspice.rs) noticing.
+    fn spice_elements(&self) -> &'static [SpiceElement];
+
+    /// The schematic (`report::schematic` draws it): where each slot's symbol goes and how the
+    /// wires run. A test there checks that its connections are exactly `spice_elements`.
+    fn schematic_layout(&self) -> &'static layout::Layout;
+}
+
+/// A hand-tuned search plan: how the search decomposes a circuit into groups of coupled slots,
+/// each group's exact share of the circuit's objective terms, how each slot is walked, and the
+/// log-linear model for the MILP engine. DEVELOPERS.md, "Adding a circuit", states the rules a
+/// plan keeps; `tests/walk_plans.rs` and `tests/exact.rs` hold every plan to them.
+pub trait SearchPlan: Send + Sync {
+    /// Search plan: groups of coupled slots, decided in this order (one or two slots each;
+    /// in a pair the first slot is walked first). Every slot is in exactly one group. The
+    /// order may depend on the spec (a group whose share needs another group's parts comes
+    /// after it).
+    fn groups(&self, spec: &Spec) -> &'static [Group];
+    /// Group `g`'s share of the objective's stage terms once it and every earlier group are
+    /// assigned, `None` when a requirement is surely broken. Must never reject a build the
+    /// exact analysis accepts (a relaxation), and the shares of all groups must add up to the
+    /// objective's stage terms (gain and offset points). `parts` may also hold later slots
+    /// that are locked; a group's share must not depend on them.
+    fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<SlotValue>]) -> Option<f64>;
+    /// How the search should walk the `k`-th slot of group `g`, given the parts assigned so
+    /// far (earlier groups, earlier slots of this group, and locked slots): around which
+    /// value, and a lower bound of the group's share for a candidate (see [`WalkPlan`]).
+    fn walk<'s>(
+        &self,
+        spec: &'s Spec,
+        g: usize,
+        k: usize,
+        parts: &[Option<SlotValue>],
+    ) -> WalkPlan<'s>;
+
+    /// The stage's requirements and objective as far as they are linear in the logarithms
+    /// of the slot values, for the MILP engine (`search::milp`): rows that every build the
+    /// exact analysis accepts satisfies, and objective terms whose sum never exceeds the
+    /// stage terms (gain and offset points) of such a build. The default says nothing, which
+    /// is valid and only makes the MILP engine judge more builds.
+    fn log_model<'s>(&self, _spec: &'s Spec) -> LogModel<'s> {
+        LogModel::default()
+    }
+}
