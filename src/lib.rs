@@ -8,6 +8,8 @@ pub mod analysis;
 pub mod build;
 pub mod circuit;
 pub mod error;
+pub mod interval;
+pub mod objective;
 pub mod report;
 pub mod search;
 pub mod series;

@@ -9,7 +9,7 @@
 
 use crate::series::Series;
 use crate::value::{self, Unit};
-use crate::vocab::{Combine, StageKind};
+use crate::vocab::{Combine, Goal, StageKind};
 use std::fmt;
 use toml::Value;
 
@@ -61,36 +61,28 @@ pub struct Amplifier {
     pub noise_current: Option<f64>,
 }
 
-/// Weights of the ranking terms (points). See README "Goals".
+/// Weights of the ranking terms (points), one per [`Goal`]. See README "Goals".
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Goals {
-    /// Points per 1 % of nominal gain error.
-    pub gain_error: f64,
-    /// Points per 100 mV of nominal output DC error (bias point off its target, plus bias
-    /// current times the resistance mismatch between the inputs).
-    pub offset: f64,
-    /// Points per piece.
-    pub part_count: f64,
-    /// Points per distinct line (or value) to stock.
-    pub bom_lines: f64,
-    /// Points per decade of capacitance, summed over capacitors (log10 of C in pF).
-    pub capacitance: f64,
-    /// Points per unit of currency, where costs are known.
-    pub cost: f64,
+    weights: [f64; Goal::ALL.len()],
+}
+
+impl Goals {
+    /// The weight of a goal.
+    pub fn weight(&self, goal: Goal) -> f64 {
+        self.weights[goal.index()]
+    }
+
+    /// Set the weight of a goal.
+    pub fn set(&mut self, goal: Goal, weight: f64) {
+        self.weights[goal.index()] = weight;
+    }
 }
 
 impl Default for Goals {
     fn default() -> Goals {
-        // Calibrated so that, with 1 % parts (a ±2 % gain spread), a nominal error well inside
-        // the spread does not buy an extra piece or line: 0.1 % of gain error costs as much as
-        // one more piece (common practice: nobody solders a trim pair to win 0.05 %).
         Goals {
-            gain_error: 1.0,
-            offset: 0.5,
-            part_count: 0.1,
-            bom_lines: 0.1,
-            capacitance: 0.1,
-            cost: 1.0,
+            weights: Goal::ALL.map(Goal::default_weight),
         }
     }
 }
@@ -257,14 +249,15 @@ const STOCK_KEYS: &[&str] = &[
     "combine",
     "distribution",
 ];
-const GOAL_KEYS: &[&str] = &[
-    "gain_error",
-    "offset",
-    "part_count",
-    "bom_lines",
-    "capacitance",
-    "cost",
-];
+const GOAL_KEYS: [&str; Goal::ALL.len()] = {
+    let mut keys = [""; Goal::ALL.len()];
+    let mut i = 0;
+    while i < keys.len() {
+        keys[i] = Goal::ALL[i].key();
+        i += 1;
+    }
+    keys
+};
 const SECTIONS: &[&str] = &["stage", "amplifier", "stock", "goals", "lock"];
 
 /// Reads TOML fields, collecting errors with their lines.
@@ -828,7 +821,7 @@ impl Spec {
         let stock_t = section(&root, "stock", &mut r).unwrap_or(&empty);
         r.check_keys("stock", stock_t, STOCK_KEYS);
         let goals_t = section(&root, "goals", &mut r).unwrap_or(&empty);
-        r.check_keys("goals", goals_t, GOAL_KEYS);
+        r.check_keys("goals", goals_t, &GOAL_KEYS);
         let lock_t = section(&root, "lock", &mut r).unwrap_or(&empty);
 
         let s = "stage";
@@ -1042,15 +1035,12 @@ impl Spec {
         };
 
         let g = "goals";
-        let d = Goals::default();
-        let goals = Goals {
-            gain_error: r.number(g, goals_t, "gain_error").unwrap_or(d.gain_error),
-            offset: r.number(g, goals_t, "offset").unwrap_or(d.offset),
-            part_count: r.number(g, goals_t, "part_count").unwrap_or(d.part_count),
-            bom_lines: r.number(g, goals_t, "bom_lines").unwrap_or(d.bom_lines),
-            capacitance: r.number(g, goals_t, "capacitance").unwrap_or(d.capacitance),
-            cost: r.number(g, goals_t, "cost").unwrap_or(d.cost),
-        };
+        let mut goals = Goals::default();
+        for goal in Goal::ALL {
+            if let Some(w) = r.number(g, goals_t, goal.key()) {
+                goals.set(goal, w);
+            }
+        }
 
         let mut locks = Vec::new();
         let stage_def = kind.map(crate::circuit::circuit_for);

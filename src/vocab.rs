@@ -150,3 +150,64 @@ pub enum Distribution {
     /// Gaussian with σ = tolerance / 3, truncated at ±tolerance.
     Normal,
 }
+
+/// A goal of the ranking: each is one term of the objective (`objective/`, one file each), a
+/// key of the spec's `[goals]` table and a default weight.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Goal {
+    /// Points per 1 % of nominal gain error.
+    GainError,
+    /// Points per 100 mV of nominal output DC error.
+    Offset,
+    /// Points per piece.
+    PartCount,
+    /// Points per distinct stock line (or value).
+    BomLines,
+    /// Points per decade of capacitance (log10 of C in pF), summed over capacitors.
+    Capacitance,
+    /// Points per unit of currency, where costs are known.
+    Cost,
+}
+
+impl Goal {
+    /// Every goal, in the order of the spec reference (and of `Goals`' weights).
+    pub const ALL: [Goal; 6] = [
+        Goal::GainError,
+        Goal::Offset,
+        Goal::PartCount,
+        Goal::BomLines,
+        Goal::Capacitance,
+        Goal::Cost,
+    ];
+
+    /// The key in `[goals]`.
+    pub const fn key(self) -> &'static str {
+        match self {
+            Goal::GainError => "gain_error",
+            Goal::Offset => "offset",
+            Goal::PartCount => "part_count",
+            Goal::BomLines => "bom_lines",
+            Goal::Capacitance => "capacitance",
+            Goal::Cost => "cost",
+        }
+    }
+
+    /// The weight without a `[goals]` entry. Calibrated so that, with 1 % parts (a ±2 % gain
+    /// spread), a nominal error well inside the spread does not buy an extra piece or line:
+    /// 0.1 % of gain error costs as much as one more piece (common practice: nobody solders a
+    /// trim pair to win 0.05 %).
+    pub fn default_weight(self) -> f64 {
+        match self {
+            Goal::GainError => 1.0,
+            Goal::Offset => 0.5,
+            Goal::PartCount | Goal::BomLines | Goal::Capacitance => 0.1,
+            Goal::Cost => 1.0,
+        }
+    }
+
+    /// Index into per-goal arrays.
+    pub fn index(self) -> usize {
+        self as usize
+    }
+}

@@ -517,14 +517,11 @@ fn render(d: &Draw) -> (String, Spec, Vec<(usize, String)>) {
                     text: format!("{v:?}"),
                 });
             }
-            Goals {
-                gain_error: w[0],
-                offset: w[1],
-                part_count: w[2],
-                bom_lines: w[3],
-                capacitance: w[4],
-                cost: w[5],
+            let mut goals = Goals::default();
+            for (goal, v) in stockfit::vocab::Goal::ALL.into_iter().zip(w) {
+                goals.set(goal, v);
             }
+            goals
         }
     };
 

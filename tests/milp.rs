@@ -17,7 +17,6 @@ use common::{
 use proptest::prelude::*;
 use stockfit::analysis;
 use stockfit::build::SlotValue;
-use stockfit::circuit::common as eq;
 use stockfit::search::{brute::each_build, milp, search, slot_candidates};
 
 fn agree(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCaseError> {
@@ -72,8 +71,8 @@ fn model_holds(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCase
             );
         }
         let v = build.values();
-        let stage_points = eq::gain_points(&p.spec, p.stage.mid_gain(&p.spec, &v))
-            + eq::offset_points(&p.spec, p.stage.offset_error(&p.spec, &v));
+        let stage_points =
+            stockfit::objective::circuit_points(&p.spec, &p.stage.figures(&p.spec, &v));
         let model_points: f64 =
             model.terms.iter().map(|t| t.eval(&values)).sum::<f64>() + model.points.eval(&values);
         prop_assert!(

@@ -202,8 +202,8 @@ pub fn slot_points(spec: &Spec, part: &Part) -> f64 {
 }
 
 /// [`slot_points`] of a realisation given by its pieces (one, or two), so that the search can
-/// score a realisation without building its [`Part`]; both use this one function, so the
-/// figures agree to the last bit.
+/// score a realisation without building its [`Part`]: the objective's part terms
+/// (`objective::part_points`), one function for both, so the figures agree to the last bit.
 pub fn pieces_points(
     spec: &Spec,
     kind: PartKind,
@@ -211,39 +211,19 @@ pub fn pieces_points(
     b: Option<&crate::build::Piece>,
     locked: bool,
 ) -> f64 {
-    let g = &spec.goals;
-    let n = 1 + usize::from(b.is_some());
-    let mut points = g.part_count * n as f64;
-    // log10 of C in pF, per piece: one decade smaller is one unit cheaper and smaller.
-    let decades = |p: &crate::build::Piece| (p.value / 1e-12).log10().max(0.0);
-    if kind == PartKind::Capacitor {
-        points += g.capacitance * (decades(a) + b.map_or(0.0, decades));
-    }
-    // Locked parts are on the board already and cost nothing; a realisation with a piece of
-    // unknown cost counts no cost at all (as `Part::cost`).
-    let cost = if locked {
-        0.0
-    } else {
-        match (a.unit_cost, b.map(|b| b.unit_cost)) {
-            (Some(x), None) => x,
-            (Some(x), Some(Some(y))) => x + y,
-            _ => 0.0,
-        }
-    };
-    points + g.cost * cost
+    crate::objective::part_points(spec, kind, a, b, locked)
 }
 
-/// The ranking objective of a build (README, "Goals").
+/// The ranking objective of a build (README, "Goals"): every term of `objective::TERMS`.
 pub fn score(spec: &Spec, stage: &dyn Circuit, build: &Build) -> f64 {
     let v = build.values();
-    common::gain_points(spec, stage.mid_gain(spec, &v))
-        + common::offset_points(spec, stage.offset_error(spec, &v))
+    crate::objective::circuit_points(spec, &stage.figures(spec, &v))
         + build
             .parts
             .iter()
             .map(|p| slot_points(spec, p))
             .sum::<f64>()
-        + spec.goals.bom_lines * build.bom_lines() as f64
+        + crate::objective::line_points(spec, build.bom_lines())
 }
 
 fn fold_range(it: impl Iterator<Item = f64>) -> (f64, f64) {
@@ -374,7 +354,7 @@ pub fn evaluate(
 
     let metrics = Metrics {
         gain,
-        gain_error: common::gain_error(spec, gain),
+        gain_error: crate::objective::gain::error(spec, gain),
         gain_min,
         gain_max,
         input_resistance: rin,

@@ -4,12 +4,39 @@
 
 use super::types::{DcErrors, DcPoint};
 use crate::build::{Part, SlotValue};
+use crate::interval::Num;
 use crate::spec::Spec;
 use num_complex::Complex64;
 use std::f64::consts::PI;
 
-pub fn parallel(a: f64, b: f64) -> f64 {
-    a * b / (a + b)
+/// Two resistances in parallel, a·b/(a + b) (circuit theory); rising in both, so over
+/// intervals it is exact at the corners.
+pub fn parallel<T: Num>(a: T, b: T) -> T {
+    T::monotone(|[a, b]| a * b / (a + b), [a, b], [true, true])
+}
+
+/// The divider's output V_s·R_lo/(R_hi + R_lo): falling in R_hi, rising in R_lo.
+pub fn divider_out<T: Num>(supply: f64, r_hi: T, r_lo: T) -> T {
+    T::monotone(
+        |[hi, lo]| supply * lo / (hi + lo),
+        [r_hi, r_lo],
+        [false, true],
+    )
+}
+
+/// The current the divider draws, V_s/(R_hi + R_lo): falling in both.
+pub fn divider_current<T: Num>(supply: f64, r_hi: T, r_lo: T) -> T {
+    T::monotone(|[hi, lo]| supply / (hi + lo), [r_hi, r_lo], [false, false])
+}
+
+/// The output DC of [`dc_point`] alone, over any number type (the generic plan's swing
+/// bound): V_div − I_b+·R_p + V_os + I_b−·R_fb.
+pub fn dc_out<T: Num>(spec: &Spec, r_hi: T, r_lo: T, r_fb: T, e: &DcErrors) -> T {
+    let v_div = divider_out(spec.supply, r_hi, r_lo);
+    let rp = parallel(r_hi, r_lo);
+    let v_plus = v_div - T::c(e.ib_plus) * rp;
+    let v_minus = v_plus + T::c(e.vos);
+    v_minus + T::c(e.ib_minus) * r_fb
 }
 
 /// First-order high-pass R/(R + 1/(jωC)) (circuit theory).
@@ -45,32 +72,18 @@ pub fn dc_point(spec: &Spec, r_hi: f64, r_lo: f64, r_fb: f64, e: &DcErrors) -> D
 /// I_b·(R_fb − R_p) − (I_os/2)·(R_fb + R_p); compensation (R_p = R_fb) removes the first
 /// term only, so large resistances still cost through the second (any op-amp text, "bias
 /// current compensation").
-pub fn offset_error(spec: &Spec, r_hi: f64, r_lo: f64, r_fb: f64) -> f64 {
+pub fn offset_error<T: Num>(spec: &Spec, r_hi: T, r_lo: T, r_fb: T) -> T {
     let rp = parallel(r_hi, r_lo);
     divider_error(spec, r_hi, r_lo)
-        + spec.amplifier.input_bias_current * (r_fb - rp).abs()
-        + spec.amplifier.input_offset_current / 2.0 * r_fb
+        + T::c(spec.amplifier.input_bias_current) * (r_fb - rp).abs()
+        + T::c(spec.amplifier.input_offset_current / 2.0) * r_fb
 }
 
 /// The part of `offset_error` the divider alone decides (a lower bound of it).
-pub fn divider_error(spec: &Spec, r_hi: f64, r_lo: f64) -> f64 {
-    let v_div = spec.supply * r_lo / (r_hi + r_lo);
-    (v_div - spec.bias_target()).abs()
-        + spec.amplifier.input_offset_current / 2.0 * parallel(r_hi, r_lo)
-}
-
-/// Weighted points of the offset term: `offset` points per 100 mV.
-pub fn offset_points(spec: &Spec, error_v: f64) -> f64 {
-    spec.goals.offset * error_v / 0.1
-}
-
-/// Weighted points of the gain term: `gain_error` points per 1 %.
-pub fn gain_points(spec: &Spec, gain: f64) -> f64 {
-    spec.goals.gain_error * gain_error(spec, gain) / 0.01
-}
-
-pub fn gain_error(spec: &Spec, gain: f64) -> f64 {
-    (gain - spec.gain).abs() / spec.gain.abs()
+pub fn divider_error<T: Num>(spec: &Spec, r_hi: T, r_lo: T) -> T {
+    let v_div = divider_out(spec.supply, r_hi, r_lo);
+    (v_div - T::c(spec.bias_target())).abs()
+        + T::c(spec.amplifier.input_offset_current / 2.0) * parallel(r_hi, r_lo)
 }
 
 /// Slack for the search's relaxations, so rounding never rejects what the exact analysis

@@ -18,6 +18,9 @@ use super::plans::{self, DividerContext, GainForm};
 use super::traits::{Circuit, Drawing, SearchPlan};
 use super::types::{CapBias, DcErrors, DcPoint, Network, OpAmp, SlotDef};
 use crate::build::SlotValue;
+use crate::interval::{Iv, Num};
+use crate::objective::Figures;
+use crate::objective::NetworkFigure;
 use crate::spec::Spec;
 use crate::vocab::PartKind;
 use crate::vocab::StageKind;
@@ -71,6 +74,32 @@ fn get(parts: &[Option<SlotValue>], i: usize) -> Option<&SlotValue> {
     parts.get(i).and_then(Option::as_ref)
 }
 
+/// Mid-band gain −R_fb/(R_s + R_in) (inverting amplifier, any op-amp text).
+fn gain<T: Num>(spec: &Spec, v: &[T]) -> T {
+    -v[R_FB] / (T::c(spec.source_resistance) + v[R_IN])
+}
+
+/// The figures of [`Circuit::figures`], over plain values or intervals.
+fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
+    let (hi, lo, fb) = (v[R_BIAS_HI], v[R_BIAS_LO], v[R_FB]);
+    let plain = |resistance, capacitance| NetworkFigure {
+        resistance,
+        capacitance,
+        plain: true,
+    };
+    Figures {
+        gain: gain(spec, v),
+        input_resistance: v[R_IN],
+        offset: common::offset_error(spec, hi, lo, fb),
+        dc_out: common::dc_out(spec, hi, lo, fb, &DcErrors::centre(spec)),
+        bias_current: Some(common::divider_current(spec.supply, hi, lo)),
+        networks: vec![
+            plain(T::c(spec.source_resistance) + v[R_IN], v[C_IN]),
+            plain(T::c(spec.load), v[C_OUT]),
+        ],
+    }
+}
+
 impl Inverting {
     /// Worst-case gain magnitude range of the gain pair: |G| = R_fb / (R_s + R_in).
     fn gain_range(spec: &Spec, r_in: &SlotValue, r_fb: &SlotValue) -> (f64, f64) {
@@ -111,7 +140,7 @@ impl Circuit for Inverting {
     }
 
     fn mid_gain(&self, spec: &Spec, v: &[f64]) -> f64 {
-        -v[R_FB] / (spec.source_resistance + v[R_IN])
+        gain(spec, v)
     }
 
     fn noise_gain(&self, spec: &Spec, v: &[f64]) -> f64 {
@@ -236,6 +265,14 @@ impl Circuit for Inverting {
             h_out: common::high_pass(spec.load, v[C_OUT], f),
             resistors,
         }
+    }
+
+    fn figures(&self, spec: &Spec, v: &[f64]) -> Figures<f64> {
+        figures(spec, v)
+    }
+
+    fn figure_bounds(&self, spec: &Spec, v: &[Iv]) -> Figures<Iv> {
+        figures(spec, v)
     }
 
     fn drawing(&self) -> &dyn Drawing {
@@ -458,7 +495,7 @@ impl SearchPlan for Inverting {
             "gain",
             nominal,
             g,
-            spec.goals.gain_error / 0.01,
+            spec.goals.weight(crate::vocab::Goal::GainError) / 0.01,
             u_max,
         ));
         if let Some(min) = spec.input_resistance_min {
@@ -491,7 +528,7 @@ impl SearchPlan for Inverting {
                 if !common::gain_window_ok(spec, lo, hi) {
                     return None;
                 }
-                Some(common::gain_points(
+                Some(crate::objective::gain::points(
                     spec,
                     -r_fb.value / (spec.source_resistance + r_in.value),
                 ))
@@ -508,7 +545,7 @@ impl SearchPlan for Inverting {
                     return None;
                 }
                 let err = common::offset_error(spec, hi.value, lo.value, r_fb.value);
-                Some(common::offset_points(spec, err))
+                Some(crate::objective::offset::points(spec, err))
             }
             2 => {
                 let (r_in, c_in) = (get(parts, R_IN)?, get(parts, C_IN)?);

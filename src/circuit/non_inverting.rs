@@ -18,6 +18,9 @@ use super::plans::{self, Compensation, DividerContext, GainForm};
 use super::traits::{Circuit, Drawing, SearchPlan};
 use super::types::{CapBias, DcErrors, DcPoint, Network, OpAmp, SlotDef};
 use crate::build::SlotValue;
+use crate::interval::{Iv, Num};
+use crate::objective::Figures;
+use crate::objective::NetworkFigure;
 use crate::spec::Spec;
 use crate::vocab::PartKind;
 use crate::vocab::StageKind;
@@ -111,6 +114,39 @@ fn gain_leg_loss_db(r_fb: f64, r_g: f64, c_g: f64, f: f64) -> f64 {
     let zg = Complex64::new(r_g, -1.0 / (2.0 * PI * f * c_g));
     let g = Complex64::new(1.0, 0.0) + Complex64::new(r_fb, 0.0) / zg;
     20.0 * ((1.0 + r_fb / r_g) / g.norm()).log10()
+}
+
+/// Mid-band gain (1 + R_fb/R_g)·R_p/(R_s + R_p) (non-inverting amplifier behind the divider's
+/// attenuation of the source resistance): rising in the amplifier gain and in R_p.
+fn gain<T: Num>(spec: &Spec, v: &[T]) -> T {
+    let rp = common::parallel(v[R_BIAS_HI], v[R_BIAS_LO]);
+    let amp = T::c(1.0) + v[R_FB] / v[R_G];
+    let rs = spec.source_resistance;
+    T::monotone(|[a, rp]| a * rp / (rs + rp), [amp, rp], [true, true])
+}
+
+/// The figures of [`Circuit::figures`], over plain values or intervals. The gain leg is not a
+/// plain high-pass (its zero eases the loss), so only its corner counts for the generic plan.
+fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
+    let (hi, lo, fb) = (v[R_BIAS_HI], v[R_BIAS_LO], v[R_FB]);
+    let rp = common::parallel(hi, lo);
+    let network = |resistance, capacitance, plain| NetworkFigure {
+        resistance,
+        capacitance,
+        plain,
+    };
+    Figures {
+        gain: gain(spec, v),
+        input_resistance: rp,
+        offset: common::offset_error(spec, hi, lo, fb),
+        dc_out: common::dc_out(spec, hi, lo, fb, &DcErrors::centre(spec)),
+        bias_current: Some(common::divider_current(spec.supply, hi, lo)),
+        networks: vec![
+            network(T::c(spec.source_resistance) + rp, v[C_IN], true),
+            network(v[R_G], v[C_G], false),
+            network(T::c(spec.load), v[C_OUT], true),
+        ],
+    }
 }
 
 impl NonInverting {
@@ -254,8 +290,7 @@ impl Circuit for NonInverting {
     }
 
     fn mid_gain(&self, spec: &Spec, v: &[f64]) -> f64 {
-        let rp = Self::rp(v[R_BIAS_HI], v[R_BIAS_LO]);
-        (1.0 + v[R_FB] / v[R_G]) * rp / (spec.source_resistance + rp)
+        gain(spec, v)
     }
 
     fn noise_gain(&self, _spec: &Spec, v: &[f64]) -> f64 {
@@ -403,6 +438,14 @@ impl Circuit for NonInverting {
             h_out: common::high_pass(spec.load, v[C_OUT], f),
             resistors,
         }
+    }
+
+    fn figures(&self, spec: &Spec, v: &[f64]) -> Figures<f64> {
+        figures(spec, v)
+    }
+
+    fn figure_bounds(&self, spec: &Spec, v: &[Iv]) -> Figures<Iv> {
+        figures(spec, v)
     }
 
     fn drawing(&self) -> &dyn Drawing {
@@ -675,7 +718,7 @@ impl SearchPlan for NonInverting {
             // overshoots by at least (1 + ρ)·att_min − G_t. Each is a one-sided relative
             // error term on ln ρ (`relative_error_term`).
             let (r_lo, r_hi) = spec.stock.resistor_range;
-            let w = spec.goals.gain_error / 0.01;
+            let w = spec.goals.weight(crate::vocab::Goal::GainError) / 0.01;
             let rho = g - 1.0;
             let u_max = (rho * r_hi / r_lo).ln().max(0.0);
             let mut below =
@@ -713,7 +756,7 @@ impl SearchPlan for NonInverting {
                 "gain",
                 ln_rho(),
                 rho,
-                spec.goals.gain_error / 0.01 * rho / g,
+                spec.goals.weight(crate::vocab::Goal::GainError) / 0.01 * rho / g,
                 u_max,
             ));
         }
@@ -774,7 +817,10 @@ impl SearchPlan for NonInverting {
                     if !common::gain_window_ok(spec, lo, hi) {
                         return None;
                     }
-                    return Some(common::gain_points(spec, 1.0 + r_fb.value / r_g.value));
+                    return Some(crate::objective::gain::points(
+                        spec,
+                        1.0 + r_fb.value / r_g.value,
+                    ));
                 }
                 // Decided after the divider: the whole gain, the swing at the highest gain,
                 // and the offset terms that need R_fb.
@@ -791,7 +837,10 @@ impl SearchPlan for NonInverting {
                 let gain = (1.0 + r_fb.value / r_g.value) * rp / (rs + rp);
                 let comp = spec.amplifier.input_bias_current * (r_fb.value - rp).abs()
                     + spec.amplifier.input_offset_current / 2.0 * r_fb.value;
-                Some(common::gain_points(spec, gain) + common::offset_points(spec, comp))
+                Some(
+                    crate::objective::gain::points(spec, gain)
+                        + crate::objective::offset::points(spec, comp),
+                )
             }
             Which::Divider => {
                 let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
@@ -812,7 +861,7 @@ impl SearchPlan for NonInverting {
                         return None;
                     }
                     let err = common::divider_error(spec, hi.value, lo.value);
-                    return Some(common::offset_points(spec, err));
+                    return Some(crate::objective::offset::points(spec, err));
                 }
                 let (r_fb, r_g) = (get(parts, R_FB)?, get(parts, R_G)?);
                 let (_, g_hi) = Self::gain_range(spec, r_fb, r_g, Some((hi, lo)));
@@ -820,7 +869,7 @@ impl SearchPlan for NonInverting {
                     return None;
                 }
                 let err = common::offset_error(spec, hi.value, lo.value, r_fb.value);
-                Some(common::offset_points(spec, err))
+                Some(crate::objective::offset::points(spec, err))
             }
             Which::CapIn => {
                 let c_in = get(parts, C_IN)?;

@@ -48,7 +48,7 @@ pub struct DividerContext {
 /// and growing on both sides of it; c·R_p ≥ 0 is left out.
 pub fn divider_first<'s>(spec: &'s Spec, ctx: DividerContext) -> WalkPlan<'s> {
     let k = spec.bias_target() / spec.supply;
-    let w = spec.goals.offset / 0.1;
+    let w = spec.goals.weight(crate::vocab::Goal::Offset) / 0.1;
     let a = spec.supply;
     let b = spec.amplifier.input_bias_current;
     let c = spec.amplifier.input_offset_current / 2.0;
@@ -105,7 +105,7 @@ pub fn divider_member<'s>(
     ctx: DividerContext,
 ) -> WalkPlan<'s> {
     let k = spec.bias_target() / spec.supply;
-    let w = spec.goals.offset / 0.1;
+    let w = spec.goals.weight(crate::vocab::Goal::Offset) / 0.1;
     let vs = spec.supply;
     let vt = spec.bias_target();
     let b = spec.amplifier.input_bias_current;
@@ -271,7 +271,7 @@ pub fn gain_fb<'s>(
         form.r_fb_for(g_lo, r_other) * (1.0 - 1e-9),
         form.r_fb_for(g_hi, r_other) * (1.0 + 1e-9),
     );
-    let w_off = spec.goals.offset / 0.1;
+    let w_off = spec.goals.weight(crate::vocab::Goal::Offset) / 0.1;
     let b = spec.amplifier.input_bias_current;
     let c = spec.amplifier.input_offset_current / 2.0;
     // The gain rises with r_fb: past the window on the walk's side, every farther value
@@ -280,7 +280,9 @@ pub fn gain_fb<'s>(
         let gain = form.gain(v, r_other);
         (up && gain > g_hi) || (!up && gain < g_lo)
     };
-    let f_gain = move |v: f64| common::gain_points(spec, form.gain(v, r_other).copysign(spec.gain));
+    let f_gain = move |v: f64| {
+        crate::objective::gain::points(spec, form.gain(v, r_other).copysign(spec.gain))
+    };
     if comp.is_none() {
         // The gain points alone: V-shaped about `mode`, so the clamped read is the gain
         // at max(v, mode) going up, min(v, mode) going down.
@@ -336,7 +338,7 @@ pub fn gain_other_given_fb<'s>(
     let (g_lo, g_hi) = gain_window(spec);
     let mode = form.r_other_for(spec.gain.abs(), r_fb);
     let constant = comp.map_or(0.0, |p| {
-        spec.goals.offset / 0.1
+        spec.goals.weight(crate::vocab::Goal::Offset) / 0.1
             * (spec.amplifier.input_bias_current * (r_fb - p.rp).abs()
                 + spec.amplifier.input_offset_current / 2.0 * r_fb)
     });
@@ -350,7 +352,9 @@ pub fn gain_other_given_fb<'s>(
             if (up && gain < g_lo) || (!up && (gain > g_hi || v < floor)) {
                 return None;
             }
-            let f_gain = |v: f64| common::gain_points(spec, form.gain(r_fb, v).copysign(spec.gain));
+            let f_gain = |v: f64| {
+                crate::objective::gain::points(spec, form.gain(r_fb, v).copysign(spec.gain))
+            };
             let terms = [Term { mode, f: &f_gain }];
             Some(safe(unimodal_sum(&terms, v, up) + constant))
         }),
@@ -392,8 +396,9 @@ pub fn gain_other_first<'s>(
         },
         Some(p) => {
             let d = g / form.att - form.plus;
-            let w_gain = spec.goals.gain_error / 0.01;
-            let s_off = spec.goals.offset / 0.1 * spec.amplifier.input_bias_current;
+            let w_gain = spec.goals.weight(crate::vocab::Goal::GainError) / 0.01;
+            let s_off = spec.goals.weight(crate::vocab::Goal::Offset) / 0.1
+                * spec.amplifier.input_bias_current;
             let mode = if d > 0.0 {
                 p.rp / d - form.offset
             } else {
@@ -456,7 +461,7 @@ pub fn divider_log<'s>(
         });
     }
     let k = spec.bias_target() / spec.supply;
-    let w = spec.goals.offset / 0.1;
+    let w = spec.goals.weight(crate::vocab::Goal::Offset) / 0.1;
     if x_lo > 0.0 && x_hi < 1.0 && x_lo <= k && k <= x_hi {
         let slope = (x_lo * (1.0 - x_lo)).min(x_hi * (1.0 - x_hi));
         let weight = w * spec.supply * slope * (1.0 - 1e-9);

@@ -10,6 +10,8 @@ use super::types::{
     CapBias, DcErrors, DcPoint, Network, NoiseCircuit, OpAmp, SlotDef, SpiceElement,
 };
 use crate::build::SlotValue;
+use crate::interval::Iv;
+use crate::objective::Figures;
 use crate::spec::Spec;
 use crate::vocab::StageKind;
 use num_complex::Complex64;
@@ -52,6 +54,15 @@ pub trait Circuit: Send + Sync {
     /// The impedances around the op-amp at `f` and where each resistor's noise sits, for the
     /// noise analysis (`analysis::noise`; its module docs give the transfer of each place).
     fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> NoiseCircuit;
+
+    /// The scalar figures the objective's circuit terms and the generic plan read, at plain
+    /// values: the same numbers as `mid_gain`, `input_resistance`, `offset_error` and
+    /// `networks` give.
+    fn figures(&self, spec: &Spec, v: &[f64]) -> Figures<f64>;
+
+    /// The same figures over intervals of slot values: each interval holds the figure of
+    /// every build whose values lie in the intervals (the generic plan's bounds).
+    fn figure_bounds(&self, spec: &Spec, v: &[Iv]) -> Figures<Iv>;
 
     /// How the circuit is drawn: netlist wiring and schematic.
     fn drawing(&self) -> &dyn Drawing;

@@ -198,3 +198,16 @@ pub struct NoiseCircuit {
 pub(crate) fn cap_z(c: f64, f: f64) -> Complex64 {
     Complex64::new(0.0, -1.0 / (2.0 * std::f64::consts::PI * f * c))
 }
+
+impl DcErrors {
+    /// The op-amp errors at the centre of those the analysis judges: none at worst case (the
+    /// mean of the eight sign corners, and the DC point is linear in the errors), the nominal
+    /// bias current in nominal mode (the only corner judged then).
+    pub fn centre(spec: &Spec) -> DcErrors {
+        if spec.worst_case() {
+            DcErrors::NONE
+        } else {
+            DcErrors::nominal(spec)
+        }
+    }
+}

@@ -54,7 +54,7 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
     let n = stage.slots().len();
     let cands = slot_candidates(req)?;
     let model = req.plan().log_model(spec);
-    let lambda = spec.goals.bom_lines;
+    let lambda = crate::objective::line_weight(spec);
 
     // Candidates: every realisation the rows on its slot alone allow.
     let mut choices: Vec<Choice> = Vec::new();
@@ -198,7 +198,7 @@ fn solve(
     line_qty: &[Option<u32>],
     excluded: &[Vec<usize>],
 ) -> Result<Option<Vec<usize>>, SearchError> {
-    let lambda = req.spec.goals.bom_lines;
+    let lambda = crate::objective::line_weight(req.spec);
     let mut vars = ProblemVariables::new();
     let x: Vec<Variable> = choices
         .iter()

@@ -517,7 +517,7 @@ fn explore<'a>(
         acc += analysis::slot_points(spec, part);
         for piece in &part.pieces {
             if dfs.add_piece(part.kind, LineKey::of(part.kind, piece), false, None) {
-                acc += spec.goals.bom_lines;
+                acc += crate::objective::line_weight(spec);
             }
         }
     }
@@ -578,7 +578,7 @@ impl<'a> Dfs<'a> {
         let plan = plan.unwrap_or_else(|| self.plan.walk(spec, lv.group, lv.k, &self.vals));
         let mut walk = Walk::new(spec, table, plan, &self.used[ki], self.bound() - acc - rest);
         let mut tight = false;
-        let lambda = spec.goals.bom_lines;
+        let lambda = crate::objective::line_weight(spec);
         let first = self.whole
             && self.levels[..level]
                 .iter()
@@ -712,7 +712,7 @@ impl<'a> Dfs<'a> {
                 n += 1;
             }
         }
-        self.req.spec.goals.bom_lines * n as f64
+        crate::objective::line_points(self.req.spec, n)
     }
 
     /// Lower bound of what the levels from `level` on add: each open slot's least points, a

@@ -449,7 +449,7 @@ pub struct Table {
     range: (f64, f64),
     /// Least slot points of any realisation.
     pub min_pts: f64,
-    /// Line cost per line (`goals.bom_lines`).
+    /// Line cost per line (`objective::line_weight`).
     lambda: f64,
     /// Fresh runs: realisations bucketed by slot points plus their own lines, per coordinate.
     fresh: [OnceCell<Vec<Sorted>>; 2],
@@ -502,7 +502,7 @@ impl Table {
             arrangements,
             range: stock.range(kind),
             min_pts: f64::INFINITY,
-            lambda: spec.goals.bom_lines,
+            lambda: crate::objective::line_weight(spec),
             fresh: Default::default(),
             partners: Default::default(),
             merged: Default::default(),
@@ -881,7 +881,7 @@ mod tests {
                 assert!(s.coord.windows(2).all(|w| w[0] <= w[1]));
                 for i in 0..s.len() {
                     let r = &table.reals[s.ids[i] as usize];
-                    let key = r.pts + spec.goals.bom_lines * r.own_lines() as f64;
+                    let key = r.pts + crate::objective::line_weight(&spec) * r.own_lines() as f64;
                     assert!(s.up[i] <= key && s.down[i] <= key);
                     assert!(i == 0 || s.down[i] <= s.down[i - 1]);
                     assert!(i == 0 || s.up[i] >= s.up[i - 1]);
