@@ -173,6 +173,7 @@ impl Prepared {
             top: TOP,
             // No node cap: the benches time the proven search.
             max_nodes: None,
+            plan: stockfit::search::PlanChoice::Best,
         }
     }
 

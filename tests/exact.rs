@@ -11,7 +11,7 @@ use common::{
     both_or_same_error, builds_are_sound, case_strategy, prepare, run_property, same_scores, Case,
 };
 use proptest::prelude::*;
-use stockfit::search::{brute::brute_force, search};
+use stockfit::search::{brute::brute_force, search, PlanChoice};
 
 fn run_case(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCaseError> {
     let p = prepare(case)?;
@@ -30,6 +30,35 @@ fn run_case(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCaseErr
 
 fn check(strategy: impl Strategy<Value = Case>, n: u32, min_feasible: u32) {
     run_property(strategy, n, min_feasible, run_case);
+}
+
+/// The generic plan (`search::generic`, the circuit's equations alone) against brute force,
+/// and against the circuit's own hand-tuned plan: the same top scores.
+fn generic_case(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCaseError> {
+    let p = prepare(case)?;
+    let generic = search(&p.request_with(case.top, PlanChoice::Generic), &mut |_| {});
+    let slow = brute_force(&p.request(case.top));
+    let Some((generic, slow)) = both_or_same_error(case, generic, slow)? else {
+        return Ok(());
+    };
+    if !slow.builds.is_empty() {
+        found.set(found.get() + 1);
+    }
+    same_scores(case, ("generic", "brute"), &generic, &slow)?;
+    builds_are_sound(&p, &generic)?;
+    let own = search(&p.request(case.top), &mut |_| {})
+        .map_err(|e| TestCaseError::fail(e.to_string()))?;
+    same_scores(case, ("generic", "hand-tuned"), &generic, &own)
+}
+
+#[test]
+fn generic_plan_matches_brute_force_and_the_hand_tuned_plans() {
+    run_property(case_strategy("single", 3, 2), 40, 3, generic_case);
+}
+
+#[test]
+fn generic_plan_matches_on_two_piece_stocks() {
+    run_property(case_strategy("both", 2, 1), 10, 1, generic_case);
 }
 
 #[test]

@@ -399,12 +399,12 @@ impl Drawing for Inverting {
 }
 
 impl SearchPlan for Inverting {
-    fn groups(&self, _spec: &Spec) -> &'static [Group] {
-        GROUPS
+    fn groups(&self, _spec: &Spec) -> Vec<Vec<usize>> {
+        GROUPS.iter().map(|g| g.to_vec()).collect()
     }
 
     fn walk<'s>(
-        &self,
+        &'s self,
         spec: &'s Spec,
         g: usize,
         k: usize,
@@ -464,7 +464,7 @@ impl SearchPlan for Inverting {
     /// ln|G| = ln R_fb − ln(R_s + R_in): the gain window (worst-case ends, as `group_partial`
     /// reads them) and the gain error; r_in's floor; each coupling network's corner; the
     /// divider's ratio window and offset (`plans::divider_log`).
-    fn log_model<'s>(&self, spec: &'s Spec) -> LogModel<'s> {
+    fn log_model<'s>(&'s self, spec: &'s Spec) -> LogModel<'s> {
         let rs = spec.source_resistance;
         let g = spec.gain.abs();
         let mut m = LogModel::default();

@@ -150,6 +150,15 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
 }
 
 impl NonInverting {
+    /// The groups in the order the spec asks (see [`GROUPS_DIVIDER_FIRST`]).
+    fn static_groups(spec: &Spec) -> &'static [Group] {
+        if spec.source_resistance > 0.0 {
+            GROUPS_DIVIDER_FIRST
+        } else {
+            GROUPS
+        }
+    }
+
     fn rp(hi: f64, lo: f64) -> f64 {
         common::parallel(hi, lo)
     }
@@ -219,7 +228,7 @@ impl NonInverting {
     }
 
     fn which(spec: &Spec, g: usize) -> Which {
-        match NonInverting.groups(spec)[g][0] {
+        match Self::static_groups(spec)[g][0] {
             R_G | R_FB => Which::Gain,
             R_BIAS_HI | R_BIAS_LO => Which::Divider,
             C_IN => Which::CapIn,
@@ -582,16 +591,15 @@ impl Drawing for NonInverting {
 }
 
 impl SearchPlan for NonInverting {
-    fn groups(&self, spec: &Spec) -> &'static [Group] {
-        if spec.source_resistance > 0.0 {
-            GROUPS_DIVIDER_FIRST
-        } else {
-            GROUPS
-        }
+    fn groups(&self, spec: &Spec) -> Vec<Vec<usize>> {
+        Self::static_groups(spec)
+            .iter()
+            .map(|g| g.to_vec())
+            .collect()
     }
 
     fn walk<'s>(
-        &self,
+        &'s self,
         spec: &'s Spec,
         g: usize,
         k: usize,
@@ -686,7 +694,7 @@ impl SearchPlan for NonInverting {
     /// amplifier's own gain is at least the stage's). The input resistance R_p = R_hi ∥ R_lo
     /// is below each divider resistor; the gain leg's corner and the output network's;
     /// the divider's ratio window and offset (`plans::divider_log`).
-    fn log_model<'s>(&self, spec: &'s Spec) -> LogModel<'s> {
+    fn log_model<'s>(&'s self, spec: &'s Spec) -> LogModel<'s> {
         let rs = spec.source_resistance;
         let g = spec.gain.abs();
         let mut m = LogModel::default();

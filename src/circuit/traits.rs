@@ -5,7 +5,7 @@
 //! which needs only the equations.
 
 use super::layout;
-use super::plan::{Group, LogModel, WalkPlan};
+use super::plan::{LogModel, WalkPlan};
 use super::types::{
     CapBias, DcErrors, DcPoint, Network, NoiseCircuit, OpAmp, SlotDef, SpiceElement,
 };
@@ -93,11 +93,11 @@ pub trait Drawing: Send + Sync {
 /// log-linear model for the MILP engine. DEVELOPERS.md, "Adding a circuit", states the rules a
 /// plan keeps; `tests/walk_plans.rs` and `tests/exact.rs` hold every plan to them.
 pub trait SearchPlan: Send + Sync {
-    /// Search plan: groups of coupled slots, decided in this order (one or two slots each;
-    /// in a pair the first slot is walked first). Every slot is in exactly one group. The
+    /// Search plan: groups of coupled slots, decided in this order (any number of slots each,
+    /// walked in the order given). Every slot is in exactly one group. The
     /// order may depend on the spec (a group whose share needs another group's parts comes
     /// after it).
-    fn groups(&self, spec: &Spec) -> &'static [Group];
+    fn groups(&self, spec: &Spec) -> Vec<Vec<usize>>;
     /// Group `g`'s share of the objective's stage terms once it and every earlier group are
     /// assigned, `None` when a requirement is surely broken. Must never reject a build the
     /// exact analysis accepts (a relaxation), and the shares of all groups must add up to the
@@ -108,7 +108,7 @@ pub trait SearchPlan: Send + Sync {
     /// far (earlier groups, earlier slots of this group, and locked slots): around which
     /// value, and a lower bound of the group's share for a candidate (see [`WalkPlan`]).
     fn walk<'s>(
-        &self,
+        &'s self,
         spec: &'s Spec,
         g: usize,
         k: usize,
@@ -120,7 +120,7 @@ pub trait SearchPlan: Send + Sync {
     /// exact analysis accepts satisfies, and objective terms whose sum never exceeds the
     /// stage terms (gain and offset points) of such a build. The default says nothing, which
     /// is valid and only makes the MILP engine judge more builds.
-    fn log_model<'s>(&self, _spec: &'s Spec) -> LogModel<'s> {
+    fn log_model<'s>(&'s self, _spec: &'s Spec) -> LogModel<'s> {
         LogModel::default()
     }
 }

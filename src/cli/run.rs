@@ -317,6 +317,7 @@ fn pick(
         locks: &locked,
         top,
         max_nodes: None,
+        plan: stockfit::search::PlanChoice::Best,
     };
     let quiet_stdout = output.json.as_deref() == Some("-");
     let started = Instant::now();

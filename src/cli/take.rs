@@ -152,6 +152,7 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
         locks: &locked,
         top: args.top,
         max_nodes: None,
+        plan: stockfit::search::PlanChoice::Best,
     };
     let outcome = match search::run(&req, engine, &mut |_| {}) {
         Ok(o) => o,

@@ -621,6 +621,7 @@ mod tests {
             locks: &[],
             top: 1,
             max_nodes: None,
+            plan: crate::search::PlanChoice::Best,
         };
         assert!(
             search(&req, &mut |_| {}).unwrap().builds.is_empty(),

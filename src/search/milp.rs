@@ -53,7 +53,10 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
     let stage = req.stage;
     let n = stage.slots().len();
     let cands = slot_candidates(req)?;
-    let model = req.plan().log_model(spec);
+    let model = req
+        .own_plan()
+        .map(|p| p.log_model(spec))
+        .unwrap_or_default();
     let lambda = crate::objective::line_weight(spec);
 
     // Candidates: every realisation the rows on its slot alone allow.

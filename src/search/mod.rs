@@ -13,6 +13,7 @@
 
 pub mod brute;
 pub mod diagnose;
+pub mod generic;
 pub mod milp;
 pub mod table;
 pub mod walk;
@@ -143,14 +144,27 @@ pub struct Request<'a> {
     pub top: usize,
     /// Stop after this many search nodes (the result is then not proven); `None`: no limit.
     pub max_nodes: Option<u64>,
+    /// Which search plan the walk engine follows.
+    pub plan: PlanChoice,
+}
+
+/// Which search plan the walk engine follows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum PlanChoice {
+    /// The circuit's own hand-tuned plan where it has one, else the generic plan.
+    #[default]
+    Best,
+    /// The generic plan (`generic.rs`), which needs only the circuit's equations.
+    Generic,
 }
 
 impl Request<'_> {
-    /// The search plan the walk engine follows: the circuit's own.
-    pub fn plan(&self) -> &dyn SearchPlan {
-        self.stage
-            .plan()
-            .expect("every circuit has a search plan of its own for now")
+    /// The circuit's own plan when this request may use it.
+    pub fn own_plan(&self) -> Option<&dyn SearchPlan> {
+        match self.plan {
+            PlanChoice::Best => self.stage.plan(),
+            PlanChoice::Generic => None,
+        }
     }
 }
 
@@ -361,7 +375,6 @@ struct Dfs<'a> {
 pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
     let spec = req.spec;
     let stage = req.stage;
-    let plan = req.plan();
     let slots = stage.slots();
     let n = slots.len();
     let mut locked: Vec<Option<&Part>> = vec![None; n];
@@ -386,6 +399,24 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
             return Err(no_candidates(req, i));
         }
     }
+    // The circuit's own plan, or the generic one over the candidates' ranges.
+    let generic;
+    let plan: &dyn SearchPlan = match req.own_plan() {
+        Some(p) => p,
+        None => {
+            let ranges = (0..n)
+                .map(|i| match locked[i] {
+                    Some(p) => generic::SlotRange::of([p.slot_value()]),
+                    None => owned[kind_index(slots[i].kind)].as_ref().and_then(|t| {
+                        generic::SlotRange::of(t.reals.iter().map(|r| t.slot_value(r)))
+                    }),
+                })
+                .collect::<Option<Vec<_>>>()
+                .ok_or_else(|| no_candidates(req, 0))?;
+            generic = generic::GenericPlan::new(stage, ranges);
+            &generic
+        }
+    };
     let mut stats = Stats {
         candidates: (0..n)
             .map(|i| match locked[i] {

@@ -159,6 +159,11 @@ pub fn prepare(case: &Case) -> Result<Prepared, TestCaseError> {
 impl Prepared {
     /// The search request of this case, keeping `top` builds, with no node limit.
     pub fn request(&self, top: usize) -> Request<'_> {
+        self.request_with(top, stockfit::search::PlanChoice::Best)
+    }
+
+    /// The same request with the given search plan.
+    pub fn request_with(&self, top: usize, plan: stockfit::search::PlanChoice) -> Request<'_> {
         Request {
             spec: &self.spec,
             stage: self.stage,
@@ -166,6 +171,7 @@ impl Prepared {
             locks: &self.locks,
             top,
             max_nodes: None,
+            plan,
         }
     }
 }
