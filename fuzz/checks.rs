@@ -87,8 +87,15 @@ pub fn spec(data: &[u8]) {
             assert!(s.load > 0.0, "{s:?}");
             assert!(s.band.0 > 0.0 && s.band.1 > s.band.0, "{s:?}");
             assert!(s.headroom.0 + s.headroom.1 < s.supply, "{s:?}");
+            // A lock's value is judged once its slot's kind is known; either kind's parse
+            // may fail, but one that succeeds gives a positive finite value.
             for l in &s.locks {
-                assert!(l.value > 0.0 && l.value.is_finite(), "{l:?}");
+                for kind in stockfit::vocab::PartKind::ALL {
+                    if let Ok((v, t)) = l.parse(kind) {
+                        assert!(v > 0.0 && v.is_finite(), "{l:?}");
+                        assert!(t.is_none_or(|t| (0.0..1.0).contains(&t)), "{l:?}");
+                    }
+                }
             }
         }
         Err(errors) => {

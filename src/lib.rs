@@ -10,6 +10,7 @@ pub mod circuit;
 pub mod error;
 pub mod interval;
 pub mod objective;
+pub mod pick;
 pub mod report;
 pub mod search;
 pub mod series;

@@ -9,7 +9,7 @@
 
 use crate::series::Series;
 use crate::value::{self, Unit};
-use crate::vocab::{Combine, Goal, StageKind};
+use crate::vocab::{Combine, Goal, PartKind, StageKind};
 use std::fmt;
 use toml::Value;
 
@@ -114,16 +114,44 @@ impl StockSpec {
     }
 }
 
-/// A slot fixed to a value (already on the board).
+/// A slot fixed to a value (already on the board), as the `[lock]` table writes it. The value
+/// is parsed once its slot's kind is known (`pick::resolve_locks`, with the circuit): the
+/// spec does not know the circuits' slots, and a unit cannot be guessed from a name.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Lock {
+    /// The slot's name as written.
     pub slot: String,
-    pub value: f64,
-    /// `None`: the stock's tolerance for that kind.
-    pub tolerance: Option<f64>,
+    /// The value as written.
+    pub value: LockValue,
     /// 1-based line of the entry in the spec text, for messages about it later.
     #[serde(skip)]
     pub line: Option<usize>,
+}
+
+/// A `[lock]` value: text such as `"47k"` or `"47k/5%"`, or a bare number in base units.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub enum LockValue {
+    /// Text, with an optional `/TOL`.
+    Text(String),
+    /// A bare number (Ω or F).
+    Number(f64),
+}
+
+impl Lock {
+    /// The value and tolerance for a slot of `kind` (`None`: the stock's tolerance for it), or
+    /// what is wrong with the value as a part of that kind.
+    pub fn parse(&self, kind: PartKind) -> Result<(f64, Option<f64>), String> {
+        let unit = kind.unit();
+        let parsed = match &self.value {
+            LockValue::Text(t) => parse_lock_value(t, unit),
+            LockValue::Number(x) => plausible(*x, unit).map(|x| (x, None)),
+        };
+        match parsed {
+            Ok((value, tolerance)) if value > 0.0 && value.is_finite() => Ok((value, tolerance)),
+            Ok((value, _)) => Err(format!("found {value}, expected a value greater than zero")),
+            Err(m) => Err(m),
+        }
+    }
 }
 
 /// A validated requirement.
@@ -531,7 +559,7 @@ fn found(v: &Value) -> String {
 /// capacitance 4.7 kF. The bounds are [`crate::vocab::PLAUSIBLE_OHMS`] and
 /// [`crate::vocab::PLAUSIBLE_FARADS`], shared with the inventory loader.
 fn plausible(x: f64, unit: Unit) -> Result<f64, String> {
-    use crate::vocab::{implausible, PartKind};
+    use crate::vocab::implausible;
     let kind = match unit {
         Unit::Ohm => PartKind::Resistor,
         Unit::Farad => PartKind::Capacitor,
@@ -552,7 +580,7 @@ fn plain(x: f64, unit: Unit) -> Result<f64, String> {
 }
 
 /// Nearest known key by edit distance, when it is close enough to be a typo.
-pub(crate) fn nearest<'k>(key: &str, known: &[&'k str]) -> Option<&'k str> {
+pub fn nearest<'k>(key: &str, known: &[&'k str]) -> Option<&'k str> {
     known
         .iter()
         .map(|k| (levenshtein(key, k), *k))
@@ -1043,63 +1071,29 @@ impl Spec {
         }
 
         let mut locks = Vec::new();
-        let stage_def = kind.map(crate::circuit::circuit_for);
         for (slot, v) in lock_t {
-            // The stage knows its slots; without a valid kind, judge by the name's prefix.
-            let slot_kind = match stage_def {
-                Some(st) => match st.slots().iter().find(|d| d.name == slot.as_str()) {
-                    Some(def) => Some(def.kind),
-                    None => {
-                        let names: Vec<&str> = st.slots().iter().map(|d| d.name).collect();
-                        let hint = nearest(slot, &names)
-                            .map(|n| format!("did you mean `{n}`? "))
-                            .unwrap_or_default();
-                        r.error(
-                            "lock",
-                            Some(slot),
-                            format!(
-                                "the {} stage has no slot `{slot}`; {hint}its slots are {}",
-                                st.kind().name(),
-                                names.join(", ")
-                            ),
-                        );
-                        continue;
-                    }
-                },
-                None => None,
-            };
-            let unit = match slot_kind {
-                Some(crate::vocab::PartKind::Capacitor) => Unit::Farad,
-                Some(crate::vocab::PartKind::Resistor) => Unit::Ohm,
-                None if slot.starts_with("c_") => Unit::Farad,
-                None => Unit::Ohm,
-            };
-            let parsed = match v {
-                Value::String(t) => parse_lock_value(t, unit),
-                Value::Integer(i) => plausible(*i as f64, unit).map(|x| (x, None)),
-                Value::Float(f) => plausible(*f, unit).map(|x| (x, None)),
-                other => Err(format!(
-                    "found {}, expected a value such as \"47k\" or \"47k/5%\"",
-                    found(other)
-                )),
-            };
-            match parsed {
-                Ok((value, tolerance)) if value > 0.0 && value.is_finite() => {
-                    let line = r.line_of("lock", Some(slot));
-                    locks.push(Lock {
-                        slot: slot.clone(),
-                        value,
-                        tolerance,
-                        line,
-                    })
+            let value = match v {
+                Value::String(t) => LockValue::Text(t.clone()),
+                Value::Integer(i) => LockValue::Number(*i as f64),
+                Value::Float(f) => LockValue::Number(*f),
+                other => {
+                    r.error(
+                        "lock",
+                        Some(slot),
+                        format!(
+                            "found {}, expected a value such as \"47k\" or \"47k/5%\"",
+                            found(other)
+                        ),
+                    );
+                    continue;
                 }
-                Ok((value, _)) => r.error(
-                    "lock",
-                    Some(slot),
-                    format!("found {value}, expected a value greater than zero"),
-                ),
-                Err(m) => r.error("lock", Some(slot), m),
-            }
+            };
+            let line = r.line_of("lock", Some(slot));
+            locks.push(Lock {
+                slot: slot.clone(),
+                value,
+                line,
+            });
         }
 
         // Cross-field rules, once every field is read.
@@ -1333,8 +1327,9 @@ band = ["20 Hz", "20 kHz"]
         let spec = Spec::from_toml(&text).unwrap();
         assert_eq!(spec.locks.len(), 2);
         let r_in = spec.locks.iter().find(|l| l.slot == "r_in").unwrap();
-        assert_eq!(r_in.value, 4700.0);
-        assert_eq!(r_in.tolerance, Some(0.05));
+        assert_eq!(r_in.parse(PartKind::Resistor), Ok((4700.0, Some(0.05))));
+        let c_out = spec.locks.iter().find(|l| l.slot == "c_out").unwrap();
+        assert_eq!(c_out.parse(PartKind::Capacitor), Ok((10e-6, None)));
     }
 
     #[test]
@@ -1448,32 +1443,41 @@ band = ["20 Hz", "20 kHz"]
             m.contains("line 6, `stage.load`") && m.contains("capacitance"),
             "{m}"
         );
-        let m = message(&format!("{MINIMAL}[lock]\nc_in = \"4k7\"\n"));
-        assert!(m.contains("`lock.c_in`") && m.contains("resistance"), "{m}");
-        let m = message(&format!("{MINIMAL}[lock]\nr_in = \"10 uF\"\n"));
-        assert!(
-            m.contains("line 9, `lock.r_in`") && m.contains("is a capacitance"),
-            "{m}"
-        );
         let m = message(&MINIMAL.replace("\"9 V\"", "\"9 Hz\""));
         assert!(m.contains("is a frequency, expected a voltage"), "{m}");
         let m = message(&MINIMAL.replace("\"10k\"", "\"4,7k\""));
         assert!(m.contains("decimal comma") && m.contains("4k7"), "{m}");
         let m = message(&MINIMAL.replace("\"10k\"", "\"-10k\""));
         assert!(m.contains("negative"), "{m}");
-        let m = message(&format!("{MINIMAL}[lock]\nr_in = \"4k7/200%\"\n"));
-        assert!(m.contains("below 100 %"), "{m}");
     }
 
     #[test]
-    fn lock_slots_are_checked_against_the_stage_with_their_line() {
-        let text = format!("{MINIMAL}\n[lock]\nr_fb = \"100k\"\nr_inn = \"10k\"\n");
-        assert_eq!(places(&text), [(Some(11), "lock.r_inn".to_string())]);
-        let m = message(&text);
-        assert!(m.contains("no slot `r_inn`; did you mean `r_in`?"), "{m}");
-        assert!(m.contains("r_in, r_fb"), "{m}");
+    fn lock_values_keep_their_line_and_parse_with_their_kind() {
+        // The slot names and units are the circuit's (pick::resolve_locks checks them).
         let ok = Spec::from_toml(&format!("{MINIMAL}\n[lock]\nr_fb = \"100k\"\n")).unwrap();
         assert_eq!(ok.locks[0].line, Some(10));
+        let lock = |t: &str| Lock {
+            slot: "x".into(),
+            value: LockValue::Text(t.into()),
+            line: None,
+        };
+        assert!(lock("4k7")
+            .parse(PartKind::Capacitor)
+            .unwrap_err()
+            .contains("resistance"));
+        assert!(lock("10 uF")
+            .parse(PartKind::Resistor)
+            .unwrap_err()
+            .contains("is a capacitance"));
+        assert!(lock("4k7/200%")
+            .parse(PartKind::Resistor)
+            .unwrap_err()
+            .contains("below 100 %"));
+        let m = message(&format!("{MINIMAL}[lock]\nr_in = true\n"));
+        assert!(
+            m.contains("line 9, `lock.r_in`") && m.contains("true"),
+            "{m}"
+        );
     }
 
     #[test]

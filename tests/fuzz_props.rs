@@ -12,7 +12,7 @@ mod checks;
 use proptest::prelude::*;
 use std::path::Path;
 use stockfit::series::Series;
-use stockfit::spec::{Goals, Lock, SourceSpec, Spec};
+use stockfit::spec::{Goals, Lock, LockValue, SourceSpec, Spec};
 use stockfit::value::{format_sig, Unit};
 use stockfit::vocab::{Combine, StageKind};
 
@@ -528,10 +528,10 @@ fn render(d: &Draw) -> (String, Spec, Vec<(usize, String)>) {
     // Locks on the stage's own slots, at most one per slot (a TOML table has unique keys).
     let slots = stockfit::circuit::circuit_for(kind).slots();
     let mut lock_fields: Vec<Field> = Vec::new();
-    let mut locks: Vec<(String, f64, Option<f64>)> = Vec::new();
+    let mut locks: Vec<(String, f64, Option<f64>, String)> = Vec::new();
     for &(i, t, tolerance) in &d.locks {
         let slot = &slots[i % slots.len()];
-        if locks.iter().any(|(s, _, _)| s == slot.name) {
+        if locks.iter().any(|(s, ..)| s == slot.name) {
             continue;
         }
         let (unit, lo, hi): (Unit, f64, f64) = match slot.kind {
@@ -552,7 +552,7 @@ fn render(d: &Draw) -> (String, Spec, Vec<(usize, String)>) {
             key: slot.name.to_string(),
             text: format!("\"{text}\""),
         });
-        locks.push((slot.name.to_string(), v, tolerance));
+        locks.push((slot.name.to_string(), v, tolerance, text));
     }
 
     // Layout: sections in either order, optional comments and blank lines, CRLF, BOM.
@@ -624,14 +624,17 @@ fn render(d: &Draw) -> (String, Spec, Vec<(usize, String)>) {
     spec.goals = goals;
     spec.locks = locks
         .into_iter()
-        .map(|(slot, value, tolerance)| {
+        .map(|(slot, value, tolerance, text)| {
             let line = lock_lines.iter().find(|(s, _)| *s == slot).map(|(_, l)| *l);
-            Lock {
+            let lock = Lock {
                 slot,
-                value,
-                tolerance,
+                value: LockValue::Text(text),
                 line,
-            }
+            };
+            // The value as written parses back exactly with its slot's kind.
+            let kind = slots.iter().find(|s| s.name == lock.slot).unwrap().kind;
+            assert_eq!(lock.parse(kind), Ok((value, tolerance)), "{lock:?}");
+            lock
         })
         .collect();
     (text, spec, places)

@@ -1,7 +1,73 @@
-//! clap-derive arguments: raw values only; `run` turns them into a validated request.
+//! clap-derive arguments: raw values, each fixed choice a `ValueEnum` and each count checked
+//! against its range as it is parsed; `run` turns them into a validated request.
 
-use clap::{Parser, Subcommand};
+use clap::{Parser, Subcommand, ValueEnum};
 use std::path::PathBuf;
+
+/// The most builds `--top` ranks: every ranked build gets its noise, DC budget and yield
+/// and a row in each report, so more is a slow run and an unreadable table, not a better pick.
+pub const MAX_TOP: usize = 1000;
+/// The most Monte Carlo samples `--yield` draws per build: 10⁶ give a standard error below
+/// 0.05 % (σ ≤ 0.5/√n), far inside any tolerance the checks can resolve, in about a second
+/// per build; more only costs time.
+pub const MAX_YIELD: usize = 1_000_000;
+
+/// `--engine`: which exact search runs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum EngineArg {
+    /// The walk search (the default, fast at any stock size).
+    Walk,
+    /// A mixed-integer linear program (the same builds, usually slower).
+    Milp,
+}
+
+impl EngineArg {
+    /// The library's engine.
+    pub fn engine(self) -> stockfit::search::Engine {
+        match self {
+            EngineArg::Walk => stockfit::search::Engine::Walk,
+            EngineArg::Milp => stockfit::search::Engine::Milp,
+        }
+    }
+}
+
+/// `--top`: 1 to [`MAX_TOP`].
+fn parse_top(text: &str) -> Result<usize, String> {
+    let n: usize = text
+        .trim()
+        .parse()
+        .map_err(|_| format!("expected a whole number of builds, found {text:?}"))?;
+    match n {
+        0 => Err("ask for at least one build".into()),
+        n if n > MAX_TOP => Err(format!(
+            "at most {MAX_TOP} builds are ranked (each is analysed in full and reported)"
+        )),
+        n => Ok(n),
+    }
+}
+
+/// `--build`: which ranked build, from 1.
+fn parse_build(text: &str) -> Result<usize, String> {
+    match text.trim().parse::<usize>() {
+        Ok(0) => Err("builds are numbered from 1".into()),
+        Ok(n) => Ok(n),
+        Err(_) => Err(format!("expected a build number from 1, found {text:?}")),
+    }
+}
+
+/// `--yield`: 0 (no yield) to [`MAX_YIELD`] samples.
+fn parse_yield(text: &str) -> Result<usize, String> {
+    let n: usize = text
+        .trim()
+        .parse()
+        .map_err(|_| format!("expected a whole number of samples, found {text:?}"))?;
+    if n > MAX_YIELD {
+        return Err(format!(
+            "at most {MAX_YIELD} samples: they give a standard error below 0.05 %, and more only take time"
+        ));
+    }
+    Ok(n)
+}
 
 #[derive(Debug, Parser)]
 #[command(
@@ -43,10 +109,10 @@ pub struct Output {
     pub quiet: bool,
     /// The exact search to run: `walk` (the default) or `milp` (a mixed-integer linear
     /// program; the same builds, usually slower).
-    #[arg(long, value_name = "walk|milp", default_value = "walk")]
-    pub engine: String,
-    /// Monte Carlo samples per reported build (0: no yield).
-    #[arg(long = "yield", value_name = "N", default_value_t = 10_000)]
+    #[arg(long, value_enum, default_value_t = EngineArg::Walk)]
+    pub engine: EngineArg,
+    /// Monte Carlo samples per reported build (0: no yield; at most 1 000 000).
+    #[arg(long = "yield", value_name = "N", default_value_t = 10_000, value_parser = parse_yield)]
     pub yield_samples: usize,
     /// Seed of the Monte Carlo draws (the same seed gives the same yield).
     #[arg(long, default_value_t = 1)]
@@ -62,20 +128,20 @@ pub struct TakeArgs {
     #[arg(long, value_name = "FILE.csv")]
     pub stock: PathBuf,
     /// Which ranked build to take (1 = the best).
-    #[arg(long, default_value_t = 1)]
+    #[arg(long, default_value_t = 1, value_parser = parse_build)]
     pub build: usize,
     /// Fix a slot to a value, e.g. `r_in=47k` (repeatable); a locked slot takes nothing.
     #[arg(long, value_name = "SLOT=VALUE")]
     pub lock: Vec<String>,
     /// How many builds to rank (as `pick`), so that --build can name any of them.
-    #[arg(long, default_value_t = 5)]
+    #[arg(long, default_value_t = 5, value_parser = parse_top)]
     pub top: usize,
     /// Write the new inventory. Without it, only show what would be taken and the file's hash.
     #[arg(long)]
     pub yes: bool,
     /// The exact search to run: `walk` (the default) or `milp`.
-    #[arg(long, value_name = "walk|milp", default_value = "walk")]
-    pub engine: String,
+    #[arg(long, value_enum, default_value_t = EngineArg::Walk)]
+    pub engine: EngineArg,
     /// Take only if the inventory's SHA-256 is still this (as printed by an earlier dry run).
     #[arg(long, value_name = "HEX")]
     pub expect_hash: Option<String>,
@@ -94,8 +160,8 @@ pub enum Command {
         /// Fix a slot to a value, e.g. `r_in=47k` or `r_in=47k/5%` (repeatable).
         #[arg(long, value_name = "SLOT=VALUE")]
         lock: Vec<String>,
-        /// How many builds to rank.
-        #[arg(long, default_value_t = 5)]
+        /// How many builds to rank (1 to 1000).
+        #[arg(long, default_value_t = 5, value_parser = parse_top)]
         top: usize,
         #[command(flatten)]
         output: Output,
@@ -128,7 +194,8 @@ pub enum Command {
     Take(TakeArgs),
     /// Run `pick` on a built-in example (a 9 V hydrophone preamp on E24/E6 stock).
     Demo {
-        #[arg(long, default_value_t = 5)]
+        /// How many builds to rank (1 to 1000).
+        #[arg(long, default_value_t = 5, value_parser = parse_top)]
         top: usize,
         #[command(flatten)]
         output: Output,
@@ -257,12 +324,12 @@ mod tests {
         let a =
             Arguments::try_parse_from(["stockfit", "pick", "x.toml", "--engine", "milp"]).unwrap();
         match a.command {
-            Command::Pick { output, .. } => assert_eq!(output.engine, "milp"),
+            Command::Pick { output, .. } => assert_eq!(output.engine, EngineArg::Milp),
             other => panic!("{other:?}"),
         }
         let a = Arguments::try_parse_from(["stockfit", "pick", "x.toml"]).unwrap();
         match a.command {
-            Command::Pick { output, .. } => assert_eq!(output.engine, "walk"),
+            Command::Pick { output, .. } => assert_eq!(output.engine, EngineArg::Walk),
             other => panic!("{other:?}"),
         }
         let a = Arguments::try_parse_from([
@@ -270,9 +337,36 @@ mod tests {
         ])
         .unwrap();
         match a.command {
-            Command::Take(t) => assert_eq!(t.engine, "milp"),
+            Command::Take(t) => assert_eq!(t.engine, EngineArg::Milp),
             other => panic!("{other:?}"),
         }
+    }
+
+    #[test]
+    fn the_definition_is_consistent() {
+        // clap's own checks of the argument definitions (names, defaults, conflicts).
+        use clap::CommandFactory;
+        Arguments::command().debug_assert();
+    }
+
+    #[test]
+    fn counts_are_checked_against_their_ranges() {
+        let top = |n: &str| Arguments::try_parse_from(["stockfit", "pick", "x.toml", "--top", n]);
+        assert!(top("1").is_ok() && top("1000").is_ok());
+        for bad in ["0", "1001", "-1", "x"] {
+            assert!(top(bad).is_err(), "--top {bad}");
+        }
+        let y = |n: &str| Arguments::try_parse_from(["stockfit", "pick", "x.toml", "--yield", n]);
+        assert!(y("0").is_ok() && y("1000000").is_ok());
+        assert!(y("1000001").is_err() && y("18446744073709551615").is_err());
+        let b = |n: &str| {
+            Arguments::try_parse_from([
+                "stockfit", "take", "x.toml", "--stock", "s.csv", "--build", n,
+            ])
+        };
+        assert!(b("1").is_ok() && b("0").is_err());
+        let e = Arguments::try_parse_from(["stockfit", "pick", "x.toml", "--engine", "simplex"]);
+        assert!(e.is_err());
     }
 
     #[test]

@@ -2,6 +2,9 @@
 //! All file reading, printing, progress bars and exit codes live here.
 
 mod args;
+mod files;
+mod output;
+mod progress;
 mod run;
 mod take;
 

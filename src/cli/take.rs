@@ -1,95 +1,29 @@
 //! `stockfit take`: run the pick, then take the chosen build's pieces off the inventory file —
 //! checked against a content hash, backed up, and replaced atomically so that the file is
 //! always either the old list or the new one, never a partial write.
-//!
-//! Also the bounded file reader the other subcommands use, so that a wrong file (a disk image,
-//! a log) is refused by its size before it is read into memory.
 
 use super::args::TakeArgs;
-use super::run::{load_spec, lock_entries, parse_slot_values};
+use super::files::{load_spec, read_bounded};
+use super::run::{in_spec, split_entries};
 use super::{Failure, EXIT_BAD_INPUT, EXIT_NO_BUILD, EXIT_OK};
 use anyhow::{anyhow, Context};
-use std::collections::BTreeMap;
 use std::fs::{self, File, OpenOptions};
-use std::io::{self, Read, Write};
+use std::io::{self, Write};
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use std::time::{SystemTime, UNIX_EPOCH};
 use stockfit::circuit;
-use stockfit::search::{self, Request};
+use stockfit::pick::{self, Options};
+use stockfit::search::SearchError;
 use stockfit::stock::edit::{self, EditError};
-use stockfit::stock::inventory::{self, Inventory, MAX_INVENTORY_BYTES};
+use stockfit::stock::inventory::{self, MAX_INVENTORY_BYTES};
 use stockfit::stock::sha256::hex_digest;
 use stockfit::stock::{Source, Stock};
 use stockfit::value::{self, Unit};
-use stockfit::vocab::PartKind;
 
 /// Print to stdout; a closed pipe is not worth a panic.
 macro_rules! say {
     ($($t:tt)*) => { let _ = writeln!(std::io::stdout().lock(), $($t)*); };
-}
-
-/// Reads a whole file of at most `limit` bytes. The size is checked with the file's metadata
-/// first, and the read itself stops one byte past the limit (a file may grow, or be a device
-/// without a size), so memory stays bounded whatever the path names.
-pub fn read_bounded(path: &Path, limit: usize, what: &str) -> Result<Vec<u8>, Failure> {
-    let too_big = |size: String| {
-        Failure::input(anyhow!(
-            "the {what} {} is {size}, more than the {} this tool reads; is this the right file?",
-            path.display(),
-            human_bytes(limit as u64)
-        ))
-    };
-    let file =
-        File::open(path).with_context(|| format!("cannot open the {what} {}", path.display()))?;
-    let meta = file
-        .metadata()
-        .with_context(|| format!("cannot read the {what} {}", path.display()))?;
-    if meta.is_dir() {
-        return Err(Failure::input(anyhow!(
-            "the {what} {} is a folder, not a file",
-            path.display()
-        )));
-    }
-    if meta.len() > limit as u64 {
-        return Err(too_big(human_bytes(meta.len())));
-    }
-    let mut bytes = Vec::with_capacity(usize::try_from(meta.len()).unwrap_or(0).min(limit));
-    file.take(limit as u64 + 1)
-        .read_to_end(&mut bytes)
-        .with_context(|| format!("cannot read the {what} {}", path.display()))?;
-    if bytes.len() > limit {
-        return Err(too_big("larger than that".into()));
-    }
-    Ok(bytes)
-}
-
-fn human_bytes(n: u64) -> String {
-    if n >= 1 << 20 {
-        format!("{:.1} MiB", n as f64 / f64::from(1u32 << 20))
-    } else if n >= 1 << 10 {
-        format!("{:.1} KiB", n as f64 / 1024.0)
-    } else {
-        format!("{n} bytes")
-    }
-}
-
-/// Loads an inventory CSV from a path, bounded in size, with the file name in every error.
-pub fn load_inventory(path: &Path) -> Result<Inventory, Failure> {
-    let bytes = read_bounded(path, MAX_INVENTORY_BYTES, "inventory")?;
-    Ok(inventory::parse_bytes(&bytes).with_context(|| format!("in {}", path.display()))?)
-}
-
-/// One inventory row the build takes from.
-struct Taking {
-    row: usize,
-    file_line: usize,
-    kind: PartKind,
-    value: f64,
-    tolerance: f64,
-    on_hand: u32,
-    pieces: u32,
-    slots: Vec<String>,
 }
 
 pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
@@ -125,86 +59,52 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
     );
 
     let stage = circuit::circuit_for(spec.stage);
+    // Both kinds come from the one inventory the pieces are taken off.
     let stock = Stock::new(
         Source::Inventory(inv.clone()),
         Source::Inventory(inv.clone()),
         spec.stock.limits(),
     );
-    let entries = lock_entries(&spec, &args.lock)?;
-    let locked = parse_slot_values(stage, &stock, &entries, "--lock")?;
-    let engine = super::run::parse_engine(&args.engine)?;
-    if args.build == 0 {
-        return Err(Failure::input(anyhow!(
-            "--build 0: builds are numbered from 1"
-        )));
-    }
-    if args.top == 0 || args.build > args.top {
+    let entries = split_entries(&args.lock, "--lock")?;
+    let locked =
+        pick::resolve_locks(&spec, stage, &stock, &entries).map_err(|e| in_spec(&args.spec, e))?;
+    if args.build > args.top {
         return Err(Failure::input(anyhow!(
             "--build {} with --top {}: the build must be one of the ranked ones",
             args.build,
             args.top
         )));
     }
-    let req = Request {
-        spec: &spec,
-        stage,
-        stock: &stock,
-        locks: &locked,
+    let options = Options {
         top: args.top,
-        max_nodes: None,
-        plan: stockfit::search::PlanChoice::Best,
+        engine: args.engine.engine(),
+        ..Options::default()
     };
-    let outcome = match search::run(&req, engine, &mut |_| {}) {
-        Ok(o) => o,
-        Err(e @ search::SearchError::NoCandidates { .. }) => {
+    let picked = match pick::pick(&spec, &stock, &locked, &options, &mut |_| {}) {
+        Ok(p) => p,
+        Err(stockfit::Error::Search(e @ SearchError::NoCandidates { .. })) => {
             eprintln!("error: {e}; nothing taken");
             return Ok(EXIT_NO_BUILD);
         }
         Err(e) => return Err(Failure::input(e)),
     };
-    if outcome.builds.is_empty() {
+    if picked.builds.is_empty() {
         eprintln!(
             "error: no build from {} meets the spec; nothing taken (`stockfit pick` explains why)",
             path.display()
         );
         return Ok(EXIT_NO_BUILD);
     }
-    let Some(chosen) = outcome.builds.get(args.build - 1) else {
+    let Some(chosen) = picked.builds.get(args.build - 1) else {
         return Err(Failure::input(anyhow!(
             "--build {}: only {} build(s) meet the spec",
             args.build,
-            outcome.builds.len()
+            picked.builds.len()
         )));
     };
 
-    // Pieces per inventory row; locked parts are on the board already and take nothing.
-    let mut rows: BTreeMap<usize, Taking> = BTreeMap::new();
-    for (part, slot) in chosen.build.parts.iter().zip(stage.slots()) {
-        if part.locked {
-            continue;
-        }
-        for piece in &part.pieces {
-            let Some(row) = piece.line else { continue };
-            let Some(line) = inv.lines.get(row.wrapping_sub(1)) else {
-                continue;
-            };
-            let t = rows.entry(row).or_insert_with(|| Taking {
-                row,
-                file_line: line.file_line,
-                kind: line.kind,
-                value: line.value,
-                tolerance: line.tolerance,
-                on_hand: line.qty,
-                pieces: 0,
-                slots: Vec::new(),
-            });
-            t.pieces += 1;
-            if !t.slots.iter().any(|s| s == slot.name) {
-                t.slots.push(slot.name.to_string());
-            }
-        }
-    }
-    let deductions: Vec<(usize, u32)> = rows.values().map(|t| (t.row, t.pieces)).collect();
+    let takings = pick::takings(&inv, stage, &chosen.build);
+    let deductions: Vec<(usize, u32)> = takings.iter().map(|t| (t.row, t.pieces)).collect();
     let updated = edit::deduct(&original, &deductions).map_err(|e| match e {
         EditError::TooFew(_) => {
             Failure::input(anyhow!("in {}: {e}; nothing taken", path.display()))
@@ -233,11 +133,8 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
         })
         .collect();
     plan.push(format!("  {}", labels.join(" · ")));
-    for t in rows.values() {
-        let unit = match t.kind {
-            PartKind::Resistor => Unit::Ohm,
-            PartKind::Capacitor => Unit::Farad,
-        };
+    for t in &takings {
+        let unit = t.kind.unit();
         plan.push(format!(
             "  line {:>4} (row {}): {} {} {}: {} on hand → {} (for {})",
             t.file_line,
@@ -250,7 +147,7 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
             t.slots.join(", ")
         ));
     }
-    if rows.is_empty() {
+    if takings.is_empty() {
         plan.push("  nothing to take: every slot is locked".into());
     }
 
@@ -264,7 +161,7 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
         );
         return Ok(EXIT_OK);
     }
-    if rows.is_empty() {
+    if takings.is_empty() {
         for line in &plan {
             say!("{line}");
         }
@@ -292,10 +189,10 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
     for line in &plan {
         say!("{line}");
     }
-    let pieces: u32 = rows.values().map(|t| t.pieces).sum();
+    let pieces: u32 = takings.iter().map(|t| t.pieces).sum();
     say!(
         "Took {pieces} piece(s) from {} line(s); backup of the old list: {}",
-        rows.len(),
+        takings.len(),
         backup.display()
     );
     Ok(EXIT_OK)
@@ -502,23 +399,5 @@ mod tests {
         assert_eq!(b.file_name().unwrap(), "stock.csv.bak-20231114T221320-2");
         assert_eq!(fs::read(a).unwrap(), b"one");
         assert_eq!(fs::read(b).unwrap(), b"two");
-    }
-
-    #[test]
-    fn read_bounded_refuses_large_files_by_their_size() {
-        let dir = tempfile::tempdir().unwrap();
-        let path = dir.path().join("big.csv");
-        // A sparse file: its size says 1 GiB, nothing is written or read.
-        let f = File::create(&path).unwrap();
-        f.set_len(1 << 30).unwrap();
-        let e = read_bounded(&path, 16 << 20, "inventory").unwrap_err();
-        let text = format!("{:#}", e.error);
-        assert!(
-            text.contains("1024.0 MiB") && text.contains("16.0 MiB"),
-            "{text}"
-        );
-        fs::write(&path, b"small").unwrap();
-        assert_eq!(read_bounded(&path, 16, "inventory").unwrap(), b"small");
-        assert!(read_bounded(dir.path(), 16, "inventory").is_err());
     }
 }
