@@ -8,8 +8,11 @@
 //! [`MAX_SPEC_BYTES`] is refused before parsing.
 
 use crate::series::Series;
+use crate::stock::inventory::{more_problems, LineIndex, MAX_LISTED_PROBLEMS};
 use crate::value::{self, Unit};
 use crate::vocab::{Combine, StageKind};
+use serde::Deserialize;
+use std::collections::HashMap;
 use std::fmt;
 use toml::Value;
 
@@ -197,24 +200,31 @@ impl fmt::Display for SpecError {
     }
 }
 
-/// Every problem found in a spec.
+/// Every problem found in a spec: the first [`MAX_LISTED_PROBLEMS`] in full (`.0`), and how
+/// many more were found but not described (`.1`).
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
-pub struct SpecErrors(pub Vec<SpecError>);
+pub struct SpecErrors(pub Vec<SpecError>, pub usize);
+
+impl SpecErrors {
+    /// A spec with one problem.
+    pub fn one(error: SpecError) -> SpecErrors {
+        SpecErrors(vec![error], 0)
+    }
+}
 
 impl fmt::Display for SpecErrors {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        let n = self.0.len();
-        writeln!(
+        let n = self.0.len() + self.1;
+        write!(
             f,
             "{n} problem{} in the spec:",
             if n == 1 { "" } else { "s" }
         )?;
-        for (i, e) in self.0.iter().enumerate() {
-            if i + 1 < n {
-                writeln!(f, "  {e}")?;
-            } else {
-                write!(f, "  {e}")?;
-            }
+        for e in &self.0 {
+            write!(f, "\n  {e}")?;
+        }
+        if self.1 > 0 {
+            write!(f, "\n  {}", more_problems(self.1))?;
         }
         Ok(())
     }
@@ -267,51 +277,83 @@ const GOAL_KEYS: &[&str] = &[
 ];
 const SECTIONS: &[&str] = &["stage", "amplifier", "stock", "goals", "lock"];
 
-/// Reads TOML fields, collecting errors with their lines.
-struct Reader<'a> {
-    text: &'a str,
-    errors: Vec<SpecError>,
+/// Where each section and key of a spec starts, from the TOML parser's spans. Built once per
+/// spec, so that locating an error is a hash lookup and a bisection in the line starts; the
+/// text re-scan per error that this replaces was quadratic (60 000 unknown keys, minutes).
+struct Positions {
+    lines: LineIndex,
+    /// Section (top-level key) → (byte offset of its first mention, its keys' offsets).
+    sections: HashMap<String, (usize, HashMap<String, usize>)>,
 }
 
-impl<'a> Reader<'a> {
-    /// Line of `key` inside `[section]` (or of the section itself when `key` is `None`): the
-    /// first line that defines it, whichever way TOML allows — under a `[section]` header,
-    /// as a dotted key (`stage.load = …` at the top, `stock.x = …` inside a section), with a
-    /// quoted key (`"load" = …`), or inside an inline table (`stage = { load = … }`).
-    fn line_of(&self, section: &str, key: Option<&str>) -> Option<usize> {
-        let wanted: Vec<&str> = std::iter::once(section).chain(key).collect();
-        let mut table: Vec<String> = Vec::new();
-        for (i, raw) in self.text.lines().enumerate() {
-            let line = raw.trim_start_matches('\u{feff}').trim();
-            if line.starts_with('[') {
-                let inner = line.trim_start_matches('[');
-                let inner = inner.split(']').next().unwrap_or("");
-                table = key_path(inner);
-                if starts_with(&table, &wanted) {
-                    return Some(i + 1);
-                }
-                continue;
-            }
-            let Some((lhs, rhs)) = split_assignment(line) else {
+impl Positions {
+    /// Every top-level key and every key of a table below it, however TOML writes them: under
+    /// a `[section]` header, as a dotted key (`stage.load = …`), quoted (`"load" = …`) or in an
+    /// inline table (`stage = { load = … }`). A key's place is the span of the key itself (of
+    /// its first mention for a dotted or implicit table), else of its value.
+    fn new(doc: &toml_edit::ImDocument<&str>, lines: LineIndex) -> Positions {
+        let root = doc.as_table();
+        let start = |key: Option<&toml_edit::Key>, item: &toml_edit::Item| {
+            key.and_then(toml_edit::Key::span)
+                .or_else(|| item.span())
+                .map(|s| s.start)
+        };
+        let mut sections = HashMap::new();
+        for (name, item) in root.iter() {
+            let Some(at) = start(root.key(name), item) else {
                 continue;
             };
-            let mut path = table.clone();
-            path.extend(key_path(lhs));
-            if starts_with(&path, &wanted) {
-                return Some(i + 1);
-            }
-            // `stage = { kind = "inverting", load = "10k" }`: the key inside the inline table.
-            if wanted.len() > path.len() && starts_with(&wanted, &path) {
-                let rest = &wanted[path.len()..];
-                if rest.len() == 1 && inline_assigns(rhs, rest[0]) {
-                    return Some(i + 1);
+            let mut keys = HashMap::new();
+            if let Some(table) = item.as_table_like() {
+                for (key, value) in table.iter() {
+                    let key_span = table.get_key_value(key).map(|(k, _)| k);
+                    if let Some(at) = start(key_span, value) {
+                        keys.insert(key.to_string(), at);
+                    }
                 }
             }
+            sections.insert(name.to_string(), (at, keys));
         }
-        None
+        Positions { lines, sections }
+    }
+
+    /// 1-based line of `key` inside `[section]`, or of the section itself when `key` is `None`.
+    fn line_of(&self, section: &str, key: Option<&str>) -> Option<usize> {
+        let (at, keys) = self.sections.get(section)?;
+        let at = match key {
+            None => *at,
+            Some(key) => *keys.get(key)?,
+        };
+        Some(self.lines.line_of(at))
+    }
+}
+
+/// Reads TOML fields, collecting errors with their lines: the first [`MAX_LISTED_PROBLEMS`]
+/// in full, the rest only counted, so a spec of thousands of bad keys costs little more than
+/// reading it.
+struct Reader {
+    positions: Positions,
+    errors: Vec<SpecError>,
+    /// Problems past the listed ones.
+    more: usize,
+}
+
+impl Reader {
+    /// Line of `key` inside `[section]` (or of the section itself when `key` is `None`).
+    fn line_of(&self, section: &str, key: Option<&str>) -> Option<usize> {
+        self.positions.line_of(section, key)
+    }
+
+    /// True when no more problems are listed, only counted.
+    fn full(&self) -> bool {
+        self.errors.len() >= MAX_LISTED_PROBLEMS
     }
 
     fn error(&mut self, section: &str, key: Option<&str>, message: String) {
+        if self.full() {
+            self.more += 1;
+            return;
+        }
         let line = self.line_of(section, key);
         let key = match key {
             Some(k) => format!("{section}.{k}"),
@@ -324,6 +366,10 @@ impl<'a> Reader<'a> {
     fn check_keys(&mut self, section: &str, table: &toml::Table, known: &[&str]) {
         for key in table.keys() {
             if !known.contains(&key.as_str()) {
+                if self.full() {
+                    self.more += 1;
+                    continue;
+                }
                 let hint = match nearest(key, known) {
                     Some(k) => format!("; did you mean `{k}`?"),
                     None => format!("; known keys: {}", known.join(", ")),
@@ -595,86 +641,6 @@ fn levenshtein(a: &str, b: &str) -> usize {
     d[a.len()][b.len()]
 }
 
-/// The parts of a TOML key or table name, unquoted: `stage.load`, `"stage" . 'load'`.
-fn key_path(text: &str) -> Vec<String> {
-    let mut parts = Vec::new();
-    let mut current = String::new();
-    let mut quote: Option<char> = None;
-    for c in text.chars() {
-        match (quote, c) {
-            (Some(q), c) if c == q => quote = None,
-            (Some(_), c) => current.push(c),
-            (None, '"' | '\'') => quote = Some(c),
-            (None, '.') => parts.push(std::mem::take(&mut current)),
-            (None, c) if c.is_whitespace() => {}
-            (None, c) => current.push(c),
-        }
-    }
-    parts.push(current);
-    parts
-}
-
-fn starts_with<A: AsRef<str>, B: AsRef<str>>(path: &[A], prefix: &[B]) -> bool {
-    path.len() >= prefix.len()
-        && path
-            .iter()
-            .zip(prefix)
-            .all(|(a, b)| a.as_ref() == b.as_ref())
-}
-
-/// Splits `key = value` at the first `=` outside quotes; `None` for lines that assign nothing
-/// (comments, array continuation lines, blank lines).
-fn split_assignment(line: &str) -> Option<(&str, &str)> {
-    if line.starts_with('#') {
-        return None;
-    }
-    let mut quote: Option<char> = None;
-    for (i, c) in line.char_indices() {
-        match (quote, c) {
-            (Some(q), c) if c == q => quote = None,
-            (Some(_), _) => {}
-            (None, '"' | '\'') => quote = Some(c),
-            (None, '=') => return Some((&line[..i], &line[i + 1..])),
-            // A key is bare letters, digits, `_`, `-`, dots, blanks and quotes; anything else
-            // first (`]`, `,`, a digit string in an array) means this is not an assignment.
-            (None, c) if !(c.is_alphanumeric() || matches!(c, '_' | '-' | '.' | ' ' | '\t')) => {
-                return None
-            }
-            _ => {}
-        }
-    }
-    None
-}
-
-/// True when the inline table text `{ a = 1, key = 2 }` assigns `key` at its top level.
-fn inline_assigns(rhs: &str, key: &str) -> bool {
-    let Some(body) = rhs.trim().strip_prefix('{') else {
-        return false;
-    };
-    let mut quote: Option<char> = None;
-    let mut depth = 0usize;
-    let mut start = 0;
-    for (i, c) in body.char_indices() {
-        match (quote, c) {
-            (Some(q), c) if c == q => quote = None,
-            (Some(_), _) => {}
-            (None, '"' | '\'') => quote = Some(c),
-            (None, '{' | '[') => depth += 1,
-            (None, '}' | ']') if depth > 0 => depth -= 1,
-            (None, ',' | '}') if depth == 0 => {
-                if let Some((lhs, _)) = split_assignment(body[start..i].trim()) {
-                    if key_path(lhs).first().map(String::as_str) == Some(key) {
-                        return true;
-                    }
-                }
-                start = i + 1;
-            }
-            _ => {}
-        }
-    }
-    false
-}
-
 fn section<'t>(root: &'t toml::Table, name: &str, r: &mut Reader) -> Option<&'t toml::Table> {
     match root.get(name) {
         None => None,
@@ -726,31 +692,31 @@ impl Spec {
     /// [`MAX_SPEC_BYTES`] is refused before anything is parsed.
     pub fn from_bytes(bytes: &[u8]) -> Result<Spec, SpecErrors> {
         if bytes.len() > MAX_SPEC_BYTES {
-            return Err(SpecErrors(vec![SpecError {
+            return Err(SpecErrors::one(SpecError {
                 key: "spec".into(),
                 line: None,
                 message: format!(
                     "the file is {} bytes, more than the {MAX_SPEC_BYTES} a spec may have; is this the right file?",
                     bytes.len()
                 ),
-            }]));
+            }));
         }
         let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
         match std::str::from_utf8(bytes) {
             Ok(text) => Spec::from_toml(text),
             Err(e) => {
                 let good = &bytes[..e.valid_up_to()];
-                let line = good.iter().filter(|&&b| b == b'\n').count() + 1;
-                let column =
-                    good.len() - good.iter().rposition(|&b| b == b'\n').map_or(0, |p| p + 1) + 1;
-                Err(SpecErrors(vec![SpecError {
+                let lines = LineIndex::lf(good);
+                let line = lines.line_of(good.len());
+                let column = good.len() - lines.start_of(line) + 1;
+                Err(SpecErrors::one(SpecError {
                     key: "spec".into(),
                     line: Some(line),
                     message: format!(
                         "found the byte 0x{:02X} at column {column}, which is not UTF-8 text; save the spec as UTF-8",
                         bytes[e.valid_up_to()]
                     ),
-                }]))
+                }))
             }
         }
     }
@@ -766,21 +732,19 @@ impl Spec {
             .lines()
             .all(|l| l.trim().is_empty() || l.trim_start().starts_with('#'));
         if blank {
-            return Err(SpecErrors(vec![SpecError {
+            return Err(SpecErrors::one(SpecError {
                 key: "spec".into(),
                 line: Some(1),
                 message: "the spec is empty; expected at least a `[stage]` section with kind, \
                           supply, gain, load and band"
                     .into(),
-            }]));
+            }));
         }
-        let root: toml::Table = match text.parse() {
-            Ok(t) => t,
+        let lines = LineIndex::lf(text.as_bytes());
+        let doc = match toml_edit::ImDocument::parse(text) {
+            Ok(doc) => doc,
             Err(e) => {
-                let e: toml::de::Error = e;
-                let line = e
-                    .span()
-                    .map(|s| text[..floor_boundary(text, s.start)].matches('\n').count() + 1);
+                let line = e.span().map(|s| lines.line_of(s.start));
                 // TOML ends lines with LF or CRLF only; a file saved with classic Mac line ends
                 // (CR alone) fails on its first line with a puzzling message.
                 let lone_cr = text
@@ -793,16 +757,29 @@ impl Spec {
                 } else {
                     ""
                 };
-                return Err(SpecErrors(vec![SpecError {
+                return Err(SpecErrors::one(SpecError {
                     key: "toml".into(),
                     line,
                     message: format!("not valid TOML: {}{hint}", e.message().trim_end()),
-                }]));
+                }));
+            }
+        };
+        let positions = Positions::new(&doc, lines);
+        // The values as `toml::Value`s, from the same parse.
+        let root = match toml::Table::deserialize(toml_edit::de::Deserializer::from(doc)) {
+            Ok(root) => root,
+            Err(e) => {
+                return Err(SpecErrors::one(SpecError {
+                    key: "toml".into(),
+                    line: e.span().map(|s| positions.lines.line_of(s.start)),
+                    message: format!("not valid TOML: {}", e.message().trim_end()),
+                }))
             }
         };
         let mut r = Reader {
-            text,
+            positions,
             errors: Vec::new(),
+            more: 0,
         };
         for key in root.keys() {
             if !SECTIONS.contains(&key.as_str()) {
@@ -1188,17 +1165,17 @@ impl Spec {
         }
 
         if !r.errors.is_empty() {
-            return Err(SpecErrors(r.errors));
+            return Err(SpecErrors(r.errors, r.more));
         }
         // Every field read above is Some when no error was recorded.
         let (Some(stage), Some(supply), Some(gain), Some(load), Some(band)) =
             (kind, supply, gain, load, band)
         else {
-            return Err(SpecErrors(vec![SpecError {
+            return Err(SpecErrors::one(SpecError {
                 key: "stage".into(),
                 line: None,
                 message: "incomplete stage section".into(),
-            }]));
+            }));
         };
         Ok(Spec {
             stage,
@@ -1237,15 +1214,6 @@ impl Spec {
 /// Largest spec file read (1 MiB): a hand-written spec is a few hundred bytes, so anything
 /// near this is the wrong file, and refusing it early keeps memory bounded.
 pub const MAX_SPEC_BYTES: usize = 1 << 20;
-
-/// The largest char boundary at or below `i` (a TOML error span may point inside a character).
-fn floor_boundary(text: &str, i: usize) -> usize {
-    let mut i = i.min(text.len());
-    while !text.is_char_boundary(i) {
-        i -= 1;
-    }
-    i
-}
 
 /// Default resistor range: below ~100 Ω the feedback network loads the op-amp output, above
 /// 10 MΩ leakage and bias currents dominate (common practice).
@@ -1540,6 +1508,41 @@ band = ["20 Hz", "20 kHz"]
         .unwrap();
         assert_eq!(ok.stock.resistors, SourceSpec::Series(Series::E96));
         assert_eq!(ok.stock.capacitors, SourceSpec::File("my-stock.csv".into()));
+    }
+
+    #[test]
+    fn sixty_thousand_unknown_keys_are_capped_and_located_from_the_parser() {
+        // 60 000 unknown keys (660 kB, under MAX_SPEC_BYTES): the first hundred are described
+        // with their lines, the rest counted. Their places come from the parser's spans in one
+        // pass; a re-scan of the text per key took minutes here.
+        let mut text = format!("{MINIMAL}[amplifier]\n");
+        for i in 0..60_000 {
+            text.push_str(&format!("x{i:05} = 1\n"));
+        }
+        assert!(text.len() < MAX_SPEC_BYTES);
+        let e = Spec::from_toml(&text).unwrap_err();
+        assert_eq!((e.0.len(), e.1), (MAX_LISTED_PROBLEMS, 59_900));
+        // MINIMAL has 7 lines and `[amplifier]` is line 8, so key i is on line 9 + i.
+        assert_eq!(e.0[0].key, "amplifier.x00000");
+        assert_eq!(e.0[0].line, Some(9));
+        assert_eq!(e.0[99].key, "amplifier.x00099");
+        assert_eq!(e.0[99].line, Some(108));
+        let m = e.to_string();
+        assert!(m.starts_with("60000 problems in the spec:"), "{m}");
+        assert!(m.ends_with("\n  … and 59900 more problems"), "{m}");
+        assert_eq!(m.lines().count(), 1 + MAX_LISTED_PROBLEMS + 1);
+    }
+
+    #[test]
+    fn keys_in_tables_of_several_headers_and_dotted_tables() {
+        // `[stage]` after `[stage.x]`, and a key whose table is implied by a dotted key.
+        let text = format!("[goals.x]\na = 1\n{MINIMAL}[goals]\ncost = \"x\"\n");
+        let got = places(&text);
+        assert!(got.contains(&(Some(1), "goals.x".to_string())), "{got:?}");
+        assert!(
+            got.contains(&(Some(11), "goals.cost".to_string())),
+            "{got:?}"
+        );
     }
 
     #[test]
