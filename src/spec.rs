@@ -387,7 +387,7 @@ impl Reader {
         unit: Unit,
     ) -> Option<f64> {
         let v = table.get(key)?;
-        match scalar(v, unit) {
+        match scalar(v, unit).and_then(|x| judge(section, key, unit, v, x)) {
             Ok(x) => Some(x),
             Err(msg) => {
                 self.error(section, Some(key), msg);
@@ -449,8 +449,8 @@ impl Reader {
         let v = table.get(key)?;
         match v {
             Value::Array(items) if items.len() == 2 => {
-                let a = scalar(&items[0], unit);
-                let b = scalar(&items[1], unit);
+                let one = |v: &Value| scalar(v, unit).and_then(|x| judge(section, key, unit, v, x));
+                let (a, b) = (one(&items[0]), one(&items[1]));
                 match (a, b) {
                     (Ok(a), Ok(b)) => Some((a, b)),
                     (Err(m), _) | (_, Err(m)) => {
@@ -566,6 +566,237 @@ fn scalar(v: &Value, unit: Unit) -> Result<f64, String> {
     .and_then(|x| plausible(x, unit))
 }
 
+/// A figure of the stage or the amplifier and the magnitudes it plausibly has. Outside them
+/// the number was most likely typed in another unit or with the wrong prefix (`slew_rate =
+/// 0.5` is 0.5 V/s, meant as 0.5 V/µs; `load = "1m"` is 1 mΩ, meant as 1 MΩ), so it is
+/// refused with the likely intent rather than run through the analysis (`noise_voltage =
+/// 1e308` printed "inf V rms"). Zero is left to each key's own rule (an ideal amplifier
+/// figure, or "must be greater than zero"); the magnitude is judged, signs have their rules.
+struct Figure {
+    section: &'static str,
+    key: &'static str,
+    /// Smallest and largest plausible magnitude, SI base units.
+    lo: f64,
+    hi: f64,
+    /// What the key is, for the message ("any op-amp's slew rate").
+    what: &'static str,
+    /// The unit the figure is usually written in (scale to base units, as it is typed): a
+    /// number that is plausible in it was most likely meant in it.
+    usual: Option<(f64, &'static str)>,
+}
+
+/// The plausible ranges, generous bounds around what op-amp gain stages are built with
+/// (common practice, from memory; no datasheet is the source). Resistances and capacitances in
+/// `[stock]`, `input_resistance_min` and `source_resistance` have the shared part bounds
+/// ([`crate::vocab::PLAUSIBLE_OHMS`]) and are not listed.
+const FIGURES: &[Figure] = &[
+    // Op-amps run from under 1 V (nanopower parts) to a few hundred volts (high-voltage ones).
+    Figure {
+        section: "stage",
+        key: "supply",
+        lo: 0.5,
+        hi: 1e3,
+        what: "an op-amp's supply",
+        usual: None,
+    },
+    // An op-amp drives loudspeakers and headphones down to a few ohms; below 1 Ω is a shunt.
+    Figure {
+        section: "stage",
+        key: "load",
+        lo: 1.0,
+        hi: 1e12,
+        what: "a load an op-amp drives",
+        usual: None,
+    },
+    // Seismic and sensor stages reach below 1 Hz; op-amp stages end below 1 GHz.
+    Figure {
+        section: "stage",
+        key: "band",
+        lo: 1e-3,
+        hi: 1e9,
+        what: "the band of an op-amp stage",
+        usual: None,
+    },
+    Figure {
+        section: "stage",
+        key: "corner_low_max",
+        lo: 1e-3,
+        hi: 1e9,
+        what: "a corner of an op-amp stage",
+        usual: None,
+    },
+    // Beyond 40 dB (1 % of the amplitude) the band's edge is no longer in the band.
+    Figure {
+        section: "stage",
+        key: "band_loss_max",
+        lo: 0.0,
+        hi: 40.0,
+        what: "a loss at the band's edge",
+        usual: None,
+    },
+    // Signals from a microvolt (a sensor) to the highest supplies.
+    Figure {
+        section: "stage",
+        key: "input_peak",
+        lo: 1e-6,
+        hi: 1e3,
+        what: "a signal peak",
+        usual: None,
+    },
+    Figure {
+        section: "stage",
+        key: "output_peak",
+        lo: 1e-6,
+        hi: 1e3,
+        what: "a signal peak",
+        usual: None,
+    },
+    Figure {
+        section: "stage",
+        key: "source_dc",
+        lo: 0.0,
+        hi: 1e3,
+        what: "a source's DC level",
+        usual: None,
+    },
+    // A divider under 1 nA needs resistors beyond any stock; over 1 A it is a heater.
+    Figure {
+        section: "stage",
+        key: "bias_current_max",
+        lo: 1e-9,
+        hi: 1.0,
+        what: "a bias divider's current",
+        usual: Some((1e-6, "uA")),
+    },
+    // From nanopower parts (a few kHz) to the fastest (tens of GHz).
+    Figure {
+        section: "amplifier",
+        key: "gbw",
+        lo: 100.0,
+        hi: 100e9,
+        what: "any op-amp's gain-bandwidth product",
+        usual: Some((1e6, "MHz")),
+    },
+    // fA (CMOS) to µA (bipolar, current-feedback inputs).
+    Figure {
+        section: "amplifier",
+        key: "input_bias_current",
+        lo: 0.0,
+        hi: 1e-3,
+        what: "any op-amp's input bias current",
+        usual: Some((1e-9, "nA")),
+    },
+    Figure {
+        section: "amplifier",
+        key: "input_offset_current",
+        lo: 0.0,
+        hi: 1e-3,
+        what: "any op-amp's input offset current",
+        usual: Some((1e-9, "nA")),
+    },
+    // Datasheet maxima run from microvolts to a few tens of millivolts.
+    Figure {
+        section: "amplifier",
+        key: "input_offset_voltage",
+        lo: 0.0,
+        hi: 0.1,
+        what: "any op-amp's input offset voltage",
+        usual: Some((1e-3, "mV")),
+    },
+    // 0.0001 V/µs (nanopower) to 100 000 V/µs; datasheets give V/µs, the bare unit is V/s.
+    Figure {
+        section: "amplifier",
+        key: "slew_rate",
+        lo: 100.0,
+        hi: 1e11,
+        what: "any op-amp's slew rate",
+        usual: Some((1e6, "V/us")),
+    },
+    // About 1 nV/√Hz (the quietest) to a few hundred nV/√Hz (nanopower).
+    Figure {
+        section: "amplifier",
+        key: "noise_voltage",
+        lo: 0.0,
+        hi: 10e-6,
+        what: "any op-amp's voltage noise density",
+        usual: Some((1e-9, "nV/rtHz")),
+    },
+    // fA/√Hz (CMOS) to tens of pA/√Hz (current-feedback inputs).
+    Figure {
+        section: "amplifier",
+        key: "noise_current",
+        lo: 0.0,
+        hi: 10e-9,
+        what: "any op-amp's current noise density",
+        usual: Some((1e-12, "pA/rtHz")),
+    },
+];
+
+/// The unit a number without a unit is read in.
+fn base_symbol(unit: Unit) -> &'static str {
+    match unit {
+        Unit::VoltPerSecond => "V/s",
+        other => other.symbol(),
+    }
+}
+
+/// Refuses a figure outside its plausible range ([`FIGURES`]), saying what was likely meant.
+/// `raw` is the TOML value as written.
+fn judge(section: &str, key: &str, unit: Unit, raw: &Value, x: f64) -> Result<f64, String> {
+    let Some(f) = FIGURES
+        .iter()
+        .find(|f| f.section == section && f.key == key)
+    else {
+        return Ok(x);
+    };
+    let m = x.abs();
+    if m == 0.0 || (f.lo..=f.hi).contains(&m) {
+        return Ok(x);
+    }
+    let fits = |v: f64| (f.lo..=f.hi).contains(&v);
+    let (number, bare) = match raw {
+        Value::Integer(i) => (i.to_string(), true),
+        Value::Float(v) => (value::number_text(*v), true),
+        Value::String(t) => (value::number_text(x), t.trim().parse::<f64>().is_ok()),
+        _ => (value::number_text(x), false),
+    };
+    let written = match raw {
+        Value::String(t) => format!("{t:?} is {}", value::format(x, unit)),
+        _ => format!("{number} {}", base_symbol(unit)),
+    };
+    let range = if f.lo == 0.0 {
+        format!("up to {}", value::format(f.hi, unit))
+    } else {
+        format!(
+            "{} to {}",
+            value::format(f.lo, unit),
+            value::format(f.hi, unit)
+        )
+    };
+    let side = if m < f.lo { "below" } else { "above" };
+    let mut text = format!("{written}, far {side} {} (plausible: {range})", f.what);
+    let mega = match raw {
+        Value::String(t) if m < f.lo && t.contains('m') && fits(m * 1e9) => {
+            Some(t.replacen('m', "M", 1))
+        }
+        _ => None,
+    };
+    if let Some(mega) = mega {
+        text.push_str(&format!(
+            "; a small `m` is milli: write `M` for mega, e.g. {mega:?}"
+        ));
+    } else if let Some((_, usual)) = f.usual.filter(|(scale, _)| fits(m * scale)) {
+        text.push_str(&format!("; did you mean \"{number} {usual}\"?"));
+        if bare {
+            text.push_str(&format!(
+                " A number without a unit is in {}",
+                base_symbol(unit)
+            ));
+        }
+    }
+    Err(text)
+}
+
 /// What a TOML value is, for "found …, expected …" messages.
 fn found(v: &Value) -> String {
     match v {
@@ -596,12 +827,9 @@ fn plausible(x: f64, unit: Unit) -> Result<f64, String> {
     }
 }
 
+/// A bare TOML number, by the same rules as the same number quoted (`value::from_number`).
 fn plain(x: f64, unit: Unit) -> Result<f64, String> {
-    if !x.is_finite() {
-        return Err(format!("expected a finite number, {}", unit_hint(unit)));
-    }
-    // A bare number is in base units, except percent: `1` means 1 % (as `value::parse`).
-    Ok(if unit == Unit::Percent { x / 100.0 } else { x })
+    value::from_number(x, unit).map_err(|e| e.to_string())
 }
 
 /// Nearest known key by edit distance, when it is close enough to be a typo.
@@ -867,7 +1095,41 @@ impl Spec {
                 None
             }
         };
-        let gain_tolerance = r.positive(s, stage_t, "gain_tolerance", Unit::Percent);
+        // A closed-loop gain of at least the open-loop gain the analysis takes (10^6,
+        // `stage::OPEN_LOOP_GAIN`) cannot be built; below 1/1000 a stage is an attenuator nobody
+        // builds with an op-amp (common practice).
+        let gain = gain.filter(|&g| {
+            let ok = g == 0.0 || (1e-3..1e6).contains(&g.abs());
+            if !ok {
+                r.error(
+                    s,
+                    Some("gain"),
+                    format!(
+                        "found {}, far outside the gain of one op-amp stage (plausible: a \
+                         magnitude from 0.001 to below 1000000 V/V, the open-loop gain); the \
+                         gain is a plain ratio, not dB",
+                        value::number_text(g)
+                    ),
+                );
+            }
+            ok
+        });
+        let gain_tolerance = r
+            .positive(s, stage_t, "gain_tolerance", Unit::Percent)
+            .filter(|&t| {
+                // ±100 % or more allows no gain at all: no requirement left.
+                if t >= 1.0 {
+                    r.error(
+                        s,
+                        Some("gain_tolerance"),
+                        format!(
+                            "found {}, expected a tolerance below 100 %, e.g. \"5%\"",
+                            value::format(t, Unit::Percent)
+                        ),
+                    );
+                }
+                t < 1.0
+            });
         let input_resistance_min = r.positive(s, stage_t, "input_resistance_min", Unit::Ohm);
         let load = r.required(s, stage_t, "load", Unit::Ohm);
         let band = r.pair(s, stage_t, "band", Unit::Hertz, false);
@@ -1543,6 +1805,240 @@ band = ["20 Hz", "20 kHz"]
             got.contains(&(Some(11), "goals.cost".to_string())),
             "{got:?}"
         );
+    }
+
+    /// MINIMAL with `entry` in `[stage]` (in place of the key's line, or before `band`), or
+    /// with a section of its own when `entry` starts with one.
+    fn with(entry: &str) -> String {
+        if entry.starts_with('[') {
+            return format!("{MINIMAL}{entry}\n");
+        }
+        let key = entry.split(" = ").next().unwrap_or_default();
+        match MINIMAL
+            .lines()
+            .find(|l| l.starts_with(&format!("{key} = ")))
+        {
+            Some(line) => MINIMAL.replace(line, entry),
+            None => MINIMAL.replace("band =", &format!("{entry}\nband =")),
+        }
+    }
+
+    /// The 1-based line of `text` on which `key = …` is written.
+    fn line_with(text: &str, key: &str) -> Option<usize> {
+        let start = format!("{key} = ");
+        text.lines()
+            .position(|l| l.starts_with(&start))
+            .map(|i| i + 1)
+    }
+
+    #[test]
+    fn a_bare_number_follows_the_rules_of_the_same_number_quoted() {
+        // A bare `-20e-9` was taken (as its magnitude) where `"-20e-9"` was refused.
+        for (section, key, number, ok) in [
+            ("[amplifier]\n", "input_bias_current", "-20e-9", false),
+            ("[amplifier]\n", "input_offset_current", "-1e-9", false),
+            ("[amplifier]\n", "noise_voltage", "-1", false),
+            ("[amplifier]\n", "noise_current", "-1e-12", false),
+            ("[amplifier]\n", "gbw", "-1e6", false),
+            ("", "load", "-10000", false),
+            ("", "gain_tolerance", "-5", false),
+            ("", "bias_current_max", "-1e-4", false),
+            // A voltage may be negative (an offset's sign is unknown; a DC level below ground).
+            ("[amplifier]\n", "input_offset_voltage", "-0.002", true),
+            ("", "source_dc", "-1", true),
+            ("[amplifier]\n", "input_bias_current", "20e-9", true),
+            ("", "gain_tolerance", "5", true),
+        ] {
+            let bare = Spec::from_toml(&with(&format!("{section}{key} = {number}")));
+            let quoted = Spec::from_toml(&with(&format!("{section}{key} = \"{number}\"")));
+            assert_eq!(bare.is_ok(), ok, "{key} = {number}: {bare:?}");
+            assert_eq!(quoted.is_ok(), ok, "{key} = \"{number}\": {quoted:?}");
+            if let (Ok(b), Ok(q)) = (&bare, &quoted) {
+                assert_eq!(b, q, "{key} = {number}");
+            }
+            if let Err(e) = &bare {
+                assert!(e.to_string().contains("cannot be negative"), "{e}");
+            }
+        }
+        let m = message(&with("[amplifier]\nnoise_voltage = -1"));
+        assert!(
+            m.contains("line 9, `amplifier.noise_voltage`: -1 is negative"),
+            "{m}"
+        );
+    }
+
+    #[test]
+    fn tolerances_stay_below_100_percent() {
+        for entry in [
+            "gain_tolerance = \"100%\"",
+            "gain_tolerance = 100",
+            "gain_tolerance = 1e308",
+            "gain_tolerance = \"150 %\"",
+            "[stock]\nresistor_tolerance = \"100%\"",
+            "[stock]\ncapacitor_tolerance = 1e308",
+        ] {
+            let m = message(&with(entry));
+            assert!(m.contains("below 100 %"), "{entry}: {m}");
+        }
+        let ok = Spec::from_toml(&with("gain_tolerance = \"99.5%\"")).unwrap();
+        assert_eq!(ok.gain_tolerance, Some(0.995));
+        assert_eq!(
+            places(&with("gain_tolerance = \"100%\"")),
+            [(Some(7), "stage.gain_tolerance".to_string())]
+        );
+    }
+
+    #[test]
+    fn implausible_figures_are_refused_with_the_likely_intent() {
+        // (entry, key, what the message says, what was likely meant — which must load).
+        let cases = [
+            ("supply = 9000", "stage.supply", "far above", None),
+            ("supply = \"9m\"", "stage.supply", "far below", None),
+            ("gain = -1e6", "stage.gain", "not dB", None),
+            ("gain = -0.0001", "stage.gain", "0.001", None),
+            (
+                "load = \"1m\"",
+                "stage.load",
+                "a small `m` is milli",
+                Some("\"1M\""),
+            ),
+            ("load = 0.5", "stage.load", "far below", None),
+            ("band = [20, 2e10]", "stage.band", "far above", None),
+            ("band = [\"0.1 mHz\", 20]", "stage.band", "far below", None),
+            (
+                "corner_low_max = 1e12",
+                "stage.corner_low_max",
+                "far above",
+                None,
+            ),
+            (
+                "band_loss_max = 1e308",
+                "stage.band_loss_max",
+                "far above",
+                None,
+            ),
+            ("input_peak = 1e-9", "stage.input_peak", "far below", None),
+            ("output_peak = 5000", "stage.output_peak", "far above", None),
+            ("source_dc = -1e4", "stage.source_dc", "far above", None),
+            (
+                "bias_current_max = 100",
+                "stage.bias_current_max",
+                "did you mean",
+                Some("\"100 uA\""),
+            ),
+            (
+                "[amplifier]\ngbw = 3",
+                "amplifier.gbw",
+                "did you mean",
+                Some("\"3 MHz\""),
+            ),
+            (
+                "[amplifier]\ngbw = \"1m\"",
+                "amplifier.gbw",
+                "a small `m` is milli",
+                Some("\"1M\""),
+            ),
+            (
+                "[amplifier]\ngbw = 1e12",
+                "amplifier.gbw",
+                "far above",
+                None,
+            ),
+            (
+                "[amplifier]\ninput_bias_current = 20",
+                "amplifier.input_bias_current",
+                "did you mean",
+                Some("\"20 nA\""),
+            ),
+            (
+                "[amplifier]\ninput_offset_current = 5",
+                "amplifier.input_offset_current",
+                "did you mean",
+                Some("\"5 nA\""),
+            ),
+            (
+                "[amplifier]\ninput_offset_voltage = 2",
+                "amplifier.input_offset_voltage",
+                "did you mean",
+                Some("\"2 mV\""),
+            ),
+            (
+                "[amplifier]\nslew_rate = 0.5",
+                "amplifier.slew_rate",
+                "did you mean",
+                Some("\"0.5 V/us\""),
+            ),
+            (
+                "[amplifier]\nslew_rate = 1e12",
+                "amplifier.slew_rate",
+                "far above",
+                None,
+            ),
+            (
+                "[amplifier]\nnoise_voltage = 1e308",
+                "amplifier.noise_voltage",
+                "far above",
+                None,
+            ),
+            (
+                "[amplifier]\nnoise_voltage = 10",
+                "amplifier.noise_voltage",
+                "did you mean",
+                Some("\"10 nV/rtHz\""),
+            ),
+            (
+                "[amplifier]\nnoise_current = 1",
+                "amplifier.noise_current",
+                "did you mean",
+                Some("\"1 pA/rtHz\""),
+            ),
+        ];
+        for (entry, key, says, meant) in cases {
+            let text = with(entry);
+            let line = line_with(&text, key.split('.').nth(1).unwrap_or_default());
+            assert_eq!(
+                places(&text),
+                [(line, key.to_string())],
+                "{entry}: {}",
+                message(&text)
+            );
+            let m = message(&text);
+            assert!(m.contains(says) && m.contains("plausible"), "{entry}: {m}");
+            if let Some(meant) = meant {
+                assert!(m.contains(meant), "{entry}: {m}");
+                let (lhs, _) = entry.split_once(" = ").unwrap();
+                let fixed = with(&format!("{lhs} = {meant}"));
+                assert!(
+                    Spec::from_toml(&fixed).is_ok(),
+                    "{meant}: {}",
+                    message(&fixed)
+                );
+            }
+        }
+        // The message quotes the number as written and the unit a bare number is in.
+        let m = message(&with("[amplifier]\nslew_rate = 0.5"));
+        assert!(
+            m.contains("0.5 V/s, far below any op-amp's slew rate")
+                && m.contains("did you mean \"0.5 V/us\"? A number without a unit is in V/s"),
+            "{m}"
+        );
+        // Ideal figures and the edges of each range load.
+        for entry in [
+            "[amplifier]\nnoise_voltage = 0",
+            "[amplifier]\ninput_bias_current = 0",
+            "[amplifier]\nslew_rate = \"0.0001 V/us\"",
+            "[amplifier]\ngbw = \"100 GHz\"",
+            "load = \"1\"",
+            "supply = \"0.5 V\"",
+            "band_loss_max = \"40 dB\"",
+        ] {
+            let text = with(entry);
+            assert!(
+                Spec::from_toml(&text).is_ok(),
+                "{entry}: {}",
+                message(&text)
+            );
+        }
     }
 
     #[test]

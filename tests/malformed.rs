@@ -312,6 +312,49 @@ fn spec_cases() -> Vec<Case> {
             &["line 9", "`stock.resistor_tolerance`", "below 100 %"],
         ),
         spec(
+            "slew rate as a bare 0.5 (V/s)",
+            "slew-bare.toml",
+            &format!("{BASE}\n[amplifier]\nslew_rate = 0.5\n"),
+            &[
+                "line 9",
+                "`amplifier.slew_rate`",
+                "did you mean \"0.5 V/us\"",
+            ],
+        ),
+        spec(
+            "load of 1 milliohm",
+            "load-milli.toml",
+            &base_with("\"10k\"", "\"1m\""),
+            &["line 5", "`stage.load`", "a small `m` is milli"],
+        ),
+        spec(
+            "noise density of 1e308",
+            "noise-huge.toml",
+            &format!("{BASE}\n[amplifier]\nnoise_voltage = 1e308\n"),
+            &[
+                "line 9",
+                "`amplifier.noise_voltage`",
+                "far above",
+                "plausible",
+            ],
+        ),
+        spec(
+            "bare negative bias current",
+            "ib-negative.toml",
+            &format!("{BASE}\n[amplifier]\ninput_bias_current = -20e-9\n"),
+            &[
+                "line 9",
+                "`amplifier.input_bias_current`",
+                "cannot be negative",
+            ],
+        ),
+        spec(
+            "gain tolerance of 100 %",
+            "gain-tol-100.toml",
+            &base_with("band =", "gain_tolerance = \"100%\"\nband ="),
+            &["line 6", "`stage.gain_tolerance`", "below 100 %"],
+        ),
+        spec(
             "GBW as words",
             "gbw.toml",
             &format!("{BASE}\n[amplifier]\ngbw = \"fast\"\n"),
