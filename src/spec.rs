@@ -2,8 +2,11 @@
 //!
 //! A spec is TOML with the sections `[stage]`, `[amplifier]`, `[stock]`, `[goals]` and `[lock]`.
 //! Every value may be written as the trade writes it (`"9 V"`, `"4k7"`, `"20 Hz"`, `"1%"`) or as
-//! a plain number in SI base units. Every problem found is collected, each with its key and the
-//! line it is on, so that a hand-typed spec is fixed in one round. [`Spec::from_bytes`] takes
+//! a plain number in SI base units, under the same rules either way. Every problem found is
+//! collected (the first [`MAX_LISTED_PROBLEMS`] described, the rest counted), each with its key
+//! and the line it is on — from the TOML parser's spans — so that a hand-typed spec is fixed in
+//! one round. Stage and amplifier figures outside a plausible range are refused with what was
+//! likely meant (`slew_rate = 0.5` is 0.5 V/s). [`Spec::from_bytes`] takes
 //! the bytes of a file: a byte-order mark is skipped, non-UTF-8 text is located, and more than
 //! [`MAX_SPEC_BYTES`] is refused before parsing.
 
@@ -1625,6 +1628,10 @@ band = ["20 Hz", "20 kHz"]
             "{}",
             message(&text)
         );
+        // TOML 1.0 ends lines at LF or CRLF only, so the parser refuses a lone CR where it
+        // stands: the error is on the line it ends, counted in LF lines.
+        let text = MINIMAL.replacen("gain = -10\n", "gain = -10\r", 1);
+        assert_eq!(places(&text), [(Some(5), "toml".to_string())]);
     }
 
     #[test]

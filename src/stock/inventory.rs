@@ -1,12 +1,15 @@
 //! Inventory CSV loader: turns a stock list (one line per bin of resistors or capacitors) into
-//! typed [`Line`]s in SI units, collecting every bad cell with its file line and column.
+//! typed [`Line`]s in SI units, collecting the bad cells with their file line and column (the
+//! first [`MAX_LISTED_PROBLEMS`] described, the rest counted).
 //!
 //! The format is plain CSV (RFC 4180 quoting) with a header row. Required columns: `kind`,
 //! `value`, `tolerance`, `qty`; optional: `voltage`, `power`, `polarized`, `dielectric`,
 //! `unit_cost`, `location`, `note`. Any other column is ignored, so a stock export can keep its
 //! own bookkeeping columns. Column names are matched trimmed and case-insensitively, with spaces
 //! and dashes read as underscores (`Unit Cost` is `unit_cost`). Lines starting with `#` are
-//! comments, empty lines are skipped, a UTF-8 byte-order mark and CRLF line ends are accepted.
+//! comments, empty lines are skipped, a UTF-8 byte-order mark is accepted, and lines end at LF,
+//! CRLF or a lone CR. Records are read by the csv crate's tokenizer (`csv-core`), which also
+//! gives each `qty` cell's byte range for [`crate::stock::edit`].
 //! A value outside what any part of its kind can be ([`crate::vocab::PLAUSIBLE_OHMS`], [`crate::vocab::PLAUSIBLE_FARADS`])
 //! is reported as a value of the other kind typed on the wrong line (`c,4k7,…`). Input beyond
 //! [`MAX_INVENTORY_BYTES`] or [`MAX_INVENTORY_LINES`] is refused before it is parsed.
@@ -302,7 +305,7 @@ impl Inventory {
         let mut reader = reader.take(MAX_INVENTORY_BYTES as u64 + 1);
         if let Err(error) = reader.read_to_end(&mut bytes) {
             return Err(InventoryError::Csv {
-                file_line: 1 + bytes.iter().filter(|&&b| b == b'\n').count(),
+                file_line: LineIndex::new(&bytes).line_of(bytes.len()),
                 message: format!("could not read the input: {error}"),
             });
         }
