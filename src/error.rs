@@ -83,4 +83,3 @@ pub enum SlotError {
         missing: String,
     },
 }
-

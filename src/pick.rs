@@ -36,7 +36,7 @@ use crate::error::{Error, SlotError};
 use crate::search::{self, diagnose, Engine, PlanChoice, Progress, Ranked, Request, Stats};
 use crate::series::Series;
 use crate::spec::{self, Lock, SourceSpec, Spec, SpecError, SpecErrors};
-use crate::stock::inventory::Inventory;
+use crate::stock::inventory::{Inventory, MAX_LISTED_PROBLEMS};
 use crate::stock::{Source, Stock};
 use crate::vocab::PartKind;
 use std::collections::HashMap;
@@ -158,7 +158,17 @@ pub fn resolve_locks(
 ) -> Result<Vec<(usize, Part)>, Error> {
     let mut out: Vec<(usize, Part)> = Vec::new();
     let mut errors = Vec::new();
+    let mut more = 0;
     for lock in &spec.locks {
+        // Past the cap only count, without working out a message (bounded work).
+        if errors.len() >= MAX_LISTED_PROBLEMS {
+            if circuit::slot_index(circuit, &lock.slot)
+                .is_none_or(|i| lock.parse(circuit.slots()[i].kind).is_err())
+            {
+                more += 1;
+            }
+            continue;
+        }
         match spec_lock(circuit, lock) {
             Ok((slot, kind, value, tolerance)) => {
                 out.push((slot, locked_part(stock, kind, value, tolerance)));
@@ -167,7 +177,7 @@ pub fn resolve_locks(
         }
     }
     if !errors.is_empty() {
-        return Err(Error::Spec(SpecErrors(errors)));
+        return Err(Error::Spec(SpecErrors(errors, more)));
     }
     for (slot, part) in flag_parts(circuit, stock, flags, "--lock")? {
         out.retain(|(i, _)| *i != slot);

@@ -2,14 +2,20 @@
 //!
 //! A spec is TOML with the sections `[stage]`, `[amplifier]`, `[stock]`, `[goals]` and `[lock]`.
 //! Every value may be written as the trade writes it (`"9 V"`, `"4k7"`, `"20 Hz"`, `"1%"`) or as
-//! a plain number in SI base units. Every problem found is collected, each with its key and the
-//! line it is on, so that a hand-typed spec is fixed in one round. [`Spec::from_bytes`] takes
+//! a plain number in SI base units, under the same rules either way. Every problem found is
+//! collected (the first [`MAX_LISTED_PROBLEMS`] described, the rest counted), each with its key
+//! and the line it is on — from the TOML parser's spans — so that a hand-typed spec is fixed in
+//! one round. Stage and amplifier figures outside a plausible range are refused with what was
+//! likely meant (`slew_rate = 0.5` is 0.5 V/s). [`Spec::from_bytes`] takes
 //! the bytes of a file: a byte-order mark is skipped, non-UTF-8 text is located, and more than
 //! [`MAX_SPEC_BYTES`] is refused before parsing.
 
 use crate::series::Series;
+use crate::stock::inventory::{more_problems, LineIndex, MAX_LISTED_PROBLEMS};
 use crate::value::{self, Unit};
 use crate::vocab::{Combine, Goal, PartKind, StageKind};
+use serde::Deserialize;
+use std::collections::HashMap;
 use std::fmt;
 use toml::Value;
 
@@ -217,24 +223,31 @@ impl fmt::Display for SpecError {
     }
 }
 
-/// Every problem found in a spec.
+/// Every problem found in a spec: the first [`MAX_LISTED_PROBLEMS`] in full (`.0`), and how
+/// many more were found but not described (`.1`).
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
-pub struct SpecErrors(pub Vec<SpecError>);
+pub struct SpecErrors(pub Vec<SpecError>, pub usize);
+
+impl SpecErrors {
+    /// A spec with one problem.
+    pub fn one(error: SpecError) -> SpecErrors {
+        SpecErrors(vec![error], 0)
+    }
+}
 
 impl fmt::Display for SpecErrors {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        let n = self.0.len();
-        writeln!(
+        let n = self.0.len() + self.1;
+        write!(
             f,
             "{n} problem{} in the spec:",
             if n == 1 { "" } else { "s" }
         )?;
-        for (i, e) in self.0.iter().enumerate() {
-            if i + 1 < n {
-                writeln!(f, "  {e}")?;
-            } else {
-                write!(f, "  {e}")?;
-            }
+        for e in &self.0 {
+            write!(f, "\n  {e}")?;
+        }
+        if self.1 > 0 {
+            write!(f, "\n  {}", more_problems(self.1))?;
         }
         Ok(())
     }
@@ -288,51 +301,83 @@ const GOAL_KEYS: [&str; Goal::ALL.len()] = {
 };
 const SECTIONS: &[&str] = &["stage", "amplifier", "stock", "goals", "lock"];
 
-/// Reads TOML fields, collecting errors with their lines.
-struct Reader<'a> {
-    text: &'a str,
-    errors: Vec<SpecError>,
+/// Where each section and key of a spec starts, from the TOML parser's spans. Built once per
+/// spec, so that locating an error is a hash lookup and a bisection in the line starts; the
+/// text re-scan per error that this replaces was quadratic (60 000 unknown keys, minutes).
+struct Positions {
+    lines: LineIndex,
+    /// Section (top-level key) → (byte offset of its first mention, its keys' offsets).
+    sections: HashMap<String, (usize, HashMap<String, usize>)>,
 }
 
-impl<'a> Reader<'a> {
-    /// Line of `key` inside `[section]` (or of the section itself when `key` is `None`): the
-    /// first line that defines it, whichever way TOML allows — under a `[section]` header,
-    /// as a dotted key (`stage.load = …` at the top, `stock.x = …` inside a section), with a
-    /// quoted key (`"load" = …`), or inside an inline table (`stage = { load = … }`).
-    fn line_of(&self, section: &str, key: Option<&str>) -> Option<usize> {
-        let wanted: Vec<&str> = std::iter::once(section).chain(key).collect();
-        let mut table: Vec<String> = Vec::new();
-        for (i, raw) in self.text.lines().enumerate() {
-            let line = raw.trim_start_matches('\u{feff}').trim();
-            if line.starts_with('[') {
-                let inner = line.trim_start_matches('[');
-                let inner = inner.split(']').next().unwrap_or("");
-                table = key_path(inner);
-                if starts_with(&table, &wanted) {
-                    return Some(i + 1);
-                }
-                continue;
-            }
-            let Some((lhs, rhs)) = split_assignment(line) else {
+impl Positions {
+    /// Every top-level key and every key of a table below it, however TOML writes them: under
+    /// a `[section]` header, as a dotted key (`stage.load = …`), quoted (`"load" = …`) or in an
+    /// inline table (`stage = { load = … }`). A key's place is the span of the key itself (of
+    /// its first mention for a dotted or implicit table), else of its value.
+    fn new(doc: &toml_edit::ImDocument<&str>, lines: LineIndex) -> Positions {
+        let root = doc.as_table();
+        let start = |key: Option<&toml_edit::Key>, item: &toml_edit::Item| {
+            key.and_then(toml_edit::Key::span)
+                .or_else(|| item.span())
+                .map(|s| s.start)
+        };
+        let mut sections = HashMap::new();
+        for (name, item) in root.iter() {
+            let Some(at) = start(root.key(name), item) else {
                 continue;
             };
-            let mut path = table.clone();
-            path.extend(key_path(lhs));
-            if starts_with(&path, &wanted) {
-                return Some(i + 1);
-            }
-            // `stage = { kind = "inverting", load = "10k" }`: the key inside the inline table.
-            if wanted.len() > path.len() && starts_with(&wanted, &path) {
-                let rest = &wanted[path.len()..];
-                if rest.len() == 1 && inline_assigns(rhs, rest[0]) {
-                    return Some(i + 1);
+            let mut keys = HashMap::new();
+            if let Some(table) = item.as_table_like() {
+                for (key, value) in table.iter() {
+                    let key_span = table.get_key_value(key).map(|(k, _)| k);
+                    if let Some(at) = start(key_span, value) {
+                        keys.insert(key.to_string(), at);
+                    }
                 }
             }
+            sections.insert(name.to_string(), (at, keys));
         }
-        None
+        Positions { lines, sections }
+    }
+
+    /// 1-based line of `key` inside `[section]`, or of the section itself when `key` is `None`.
+    fn line_of(&self, section: &str, key: Option<&str>) -> Option<usize> {
+        let (at, keys) = self.sections.get(section)?;
+        let at = match key {
+            None => *at,
+            Some(key) => *keys.get(key)?,
+        };
+        Some(self.lines.line_of(at))
+    }
+}
+
+/// Reads TOML fields, collecting errors with their lines: the first [`MAX_LISTED_PROBLEMS`]
+/// in full, the rest only counted, so a spec of thousands of bad keys costs little more than
+/// reading it.
+struct Reader {
+    positions: Positions,
+    errors: Vec<SpecError>,
+    /// Problems past the listed ones.
+    more: usize,
+}
+
+impl Reader {
+    /// Line of `key` inside `[section]` (or of the section itself when `key` is `None`).
+    fn line_of(&self, section: &str, key: Option<&str>) -> Option<usize> {
+        self.positions.line_of(section, key)
+    }
+
+    /// True when no more problems are listed, only counted.
+    fn full(&self) -> bool {
+        self.errors.len() >= MAX_LISTED_PROBLEMS
     }
 
     fn error(&mut self, section: &str, key: Option<&str>, message: String) {
+        if self.full() {
+            self.more += 1;
+            return;
+        }
         let line = self.line_of(section, key);
         let key = match key {
             Some(k) => format!("{section}.{k}"),
@@ -345,6 +390,10 @@ impl<'a> Reader<'a> {
     fn check_keys(&mut self, section: &str, table: &toml::Table, known: &[&str]) {
         for key in table.keys() {
             if !known.contains(&key.as_str()) {
+                if self.full() {
+                    self.more += 1;
+                    continue;
+                }
                 let hint = match nearest(key, known) {
                     Some(k) => format!("; did you mean `{k}`?"),
                     None => format!("; known keys: {}", known.join(", ")),
@@ -362,7 +411,7 @@ impl<'a> Reader<'a> {
         unit: Unit,
     ) -> Option<f64> {
         let v = table.get(key)?;
-        match scalar(v, unit) {
+        match scalar(v, unit).and_then(|x| judge(section, key, unit, v, x)) {
             Ok(x) => Some(x),
             Err(msg) => {
                 self.error(section, Some(key), msg);
@@ -424,8 +473,8 @@ impl<'a> Reader<'a> {
         let v = table.get(key)?;
         match v {
             Value::Array(items) if items.len() == 2 => {
-                let a = scalar(&items[0], unit);
-                let b = scalar(&items[1], unit);
+                let one = |v: &Value| scalar(v, unit).and_then(|x| judge(section, key, unit, v, x));
+                let (a, b) = (one(&items[0]), one(&items[1]));
                 match (a, b) {
                     (Ok(a), Ok(b)) => Some((a, b)),
                     (Err(m), _) | (_, Err(m)) => {
@@ -541,6 +590,237 @@ fn scalar(v: &Value, unit: Unit) -> Result<f64, String> {
     .and_then(|x| plausible(x, unit))
 }
 
+/// A figure of the stage or the amplifier and the magnitudes it plausibly has. Outside them
+/// the number was most likely typed in another unit or with the wrong prefix (`slew_rate =
+/// 0.5` is 0.5 V/s, meant as 0.5 V/µs; `load = "1m"` is 1 mΩ, meant as 1 MΩ), so it is
+/// refused with the likely intent rather than run through the analysis (`noise_voltage =
+/// 1e308` printed "inf V rms"). Zero is left to each key's own rule (an ideal amplifier
+/// figure, or "must be greater than zero"); the magnitude is judged, signs have their rules.
+struct Figure {
+    section: &'static str,
+    key: &'static str,
+    /// Smallest and largest plausible magnitude, SI base units.
+    lo: f64,
+    hi: f64,
+    /// What the key is, for the message ("any op-amp's slew rate").
+    what: &'static str,
+    /// The unit the figure is usually written in (scale to base units, as it is typed): a
+    /// number that is plausible in it was most likely meant in it.
+    usual: Option<(f64, &'static str)>,
+}
+
+/// The plausible ranges, generous bounds around what op-amp gain stages are built with
+/// (common practice, from memory; no datasheet is the source). Resistances and capacitances in
+/// `[stock]`, `input_resistance_min` and `source_resistance` have the shared part bounds
+/// ([`crate::vocab::PLAUSIBLE_OHMS`]) and are not listed.
+const FIGURES: &[Figure] = &[
+    // Op-amps run from under 1 V (nanopower parts) to a few hundred volts (high-voltage ones).
+    Figure {
+        section: "stage",
+        key: "supply",
+        lo: 0.5,
+        hi: 1e3,
+        what: "an op-amp's supply",
+        usual: None,
+    },
+    // An op-amp drives loudspeakers and headphones down to a few ohms; below 1 Ω is a shunt.
+    Figure {
+        section: "stage",
+        key: "load",
+        lo: 1.0,
+        hi: 1e12,
+        what: "a load an op-amp drives",
+        usual: None,
+    },
+    // Seismic and sensor stages reach below 1 Hz; op-amp stages end below 1 GHz.
+    Figure {
+        section: "stage",
+        key: "band",
+        lo: 1e-3,
+        hi: 1e9,
+        what: "the band of an op-amp stage",
+        usual: None,
+    },
+    Figure {
+        section: "stage",
+        key: "corner_low_max",
+        lo: 1e-3,
+        hi: 1e9,
+        what: "a corner of an op-amp stage",
+        usual: None,
+    },
+    // Beyond 40 dB (1 % of the amplitude) the band's edge is no longer in the band.
+    Figure {
+        section: "stage",
+        key: "band_loss_max",
+        lo: 0.0,
+        hi: 40.0,
+        what: "a loss at the band's edge",
+        usual: None,
+    },
+    // Signals from a microvolt (a sensor) to the highest supplies.
+    Figure {
+        section: "stage",
+        key: "input_peak",
+        lo: 1e-6,
+        hi: 1e3,
+        what: "a signal peak",
+        usual: None,
+    },
+    Figure {
+        section: "stage",
+        key: "output_peak",
+        lo: 1e-6,
+        hi: 1e3,
+        what: "a signal peak",
+        usual: None,
+    },
+    Figure {
+        section: "stage",
+        key: "source_dc",
+        lo: 0.0,
+        hi: 1e3,
+        what: "a source's DC level",
+        usual: None,
+    },
+    // A divider under 1 nA needs resistors beyond any stock; over 1 A it is a heater.
+    Figure {
+        section: "stage",
+        key: "bias_current_max",
+        lo: 1e-9,
+        hi: 1.0,
+        what: "a bias divider's current",
+        usual: Some((1e-6, "uA")),
+    },
+    // From nanopower parts (a few kHz) to the fastest (tens of GHz).
+    Figure {
+        section: "amplifier",
+        key: "gbw",
+        lo: 100.0,
+        hi: 100e9,
+        what: "any op-amp's gain-bandwidth product",
+        usual: Some((1e6, "MHz")),
+    },
+    // fA (CMOS) to µA (bipolar, current-feedback inputs).
+    Figure {
+        section: "amplifier",
+        key: "input_bias_current",
+        lo: 0.0,
+        hi: 1e-3,
+        what: "any op-amp's input bias current",
+        usual: Some((1e-9, "nA")),
+    },
+    Figure {
+        section: "amplifier",
+        key: "input_offset_current",
+        lo: 0.0,
+        hi: 1e-3,
+        what: "any op-amp's input offset current",
+        usual: Some((1e-9, "nA")),
+    },
+    // Datasheet maxima run from microvolts to a few tens of millivolts.
+    Figure {
+        section: "amplifier",
+        key: "input_offset_voltage",
+        lo: 0.0,
+        hi: 0.1,
+        what: "any op-amp's input offset voltage",
+        usual: Some((1e-3, "mV")),
+    },
+    // 0.0001 V/µs (nanopower) to 100 000 V/µs; datasheets give V/µs, the bare unit is V/s.
+    Figure {
+        section: "amplifier",
+        key: "slew_rate",
+        lo: 100.0,
+        hi: 1e11,
+        what: "any op-amp's slew rate",
+        usual: Some((1e6, "V/us")),
+    },
+    // About 1 nV/√Hz (the quietest) to a few hundred nV/√Hz (nanopower).
+    Figure {
+        section: "amplifier",
+        key: "noise_voltage",
+        lo: 0.0,
+        hi: 10e-6,
+        what: "any op-amp's voltage noise density",
+        usual: Some((1e-9, "nV/rtHz")),
+    },
+    // fA/√Hz (CMOS) to tens of pA/√Hz (current-feedback inputs).
+    Figure {
+        section: "amplifier",
+        key: "noise_current",
+        lo: 0.0,
+        hi: 10e-9,
+        what: "any op-amp's current noise density",
+        usual: Some((1e-12, "pA/rtHz")),
+    },
+];
+
+/// The unit a number without a unit is read in.
+fn base_symbol(unit: Unit) -> &'static str {
+    match unit {
+        Unit::VoltPerSecond => "V/s",
+        other => other.symbol(),
+    }
+}
+
+/// Refuses a figure outside its plausible range ([`FIGURES`]), saying what was likely meant.
+/// `raw` is the TOML value as written.
+fn judge(section: &str, key: &str, unit: Unit, raw: &Value, x: f64) -> Result<f64, String> {
+    let Some(f) = FIGURES
+        .iter()
+        .find(|f| f.section == section && f.key == key)
+    else {
+        return Ok(x);
+    };
+    let m = x.abs();
+    if m == 0.0 || (f.lo..=f.hi).contains(&m) {
+        return Ok(x);
+    }
+    let fits = |v: f64| (f.lo..=f.hi).contains(&v);
+    let (number, bare) = match raw {
+        Value::Integer(i) => (i.to_string(), true),
+        Value::Float(v) => (value::number_text(*v), true),
+        Value::String(t) => (value::number_text(x), t.trim().parse::<f64>().is_ok()),
+        _ => (value::number_text(x), false),
+    };
+    let written = match raw {
+        Value::String(t) => format!("{t:?} is {}", value::format(x, unit)),
+        _ => format!("{number} {}", base_symbol(unit)),
+    };
+    let range = if f.lo == 0.0 {
+        format!("up to {}", value::format(f.hi, unit))
+    } else {
+        format!(
+            "{} to {}",
+            value::format(f.lo, unit),
+            value::format(f.hi, unit)
+        )
+    };
+    let side = if m < f.lo { "below" } else { "above" };
+    let mut text = format!("{written}, far {side} {} (plausible: {range})", f.what);
+    let mega = match raw {
+        Value::String(t) if m < f.lo && t.contains('m') && fits(m * 1e9) => {
+            Some(t.replacen('m', "M", 1))
+        }
+        _ => None,
+    };
+    if let Some(mega) = mega {
+        text.push_str(&format!(
+            "; a small `m` is milli: write `M` for mega, e.g. {mega:?}"
+        ));
+    } else if let Some((_, usual)) = f.usual.filter(|(scale, _)| fits(m * scale)) {
+        text.push_str(&format!("; did you mean \"{number} {usual}\"?"));
+        if bare {
+            text.push_str(&format!(
+                " A number without a unit is in {}",
+                base_symbol(unit)
+            ));
+        }
+    }
+    Err(text)
+}
+
 /// What a TOML value is, for "found …, expected …" messages.
 fn found(v: &Value) -> String {
     match v {
@@ -571,12 +851,9 @@ fn plausible(x: f64, unit: Unit) -> Result<f64, String> {
     }
 }
 
+/// A bare TOML number, by the same rules as the same number quoted (`value::from_number`).
 fn plain(x: f64, unit: Unit) -> Result<f64, String> {
-    if !x.is_finite() {
-        return Err(format!("expected a finite number, {}", unit_hint(unit)));
-    }
-    // A bare number is in base units, except percent: `1` means 1 % (as `value::parse`).
-    Ok(if unit == Unit::Percent { x / 100.0 } else { x })
+    value::from_number(x, unit).map_err(|e| e.to_string())
 }
 
 /// Nearest known key by edit distance, when it is close enough to be a typo.
@@ -614,86 +891,6 @@ fn levenshtein(a: &str, b: &str) -> usize {
         }
     }
     d[a.len()][b.len()]
-}
-
-/// The parts of a TOML key or table name, unquoted: `stage.load`, `"stage" . 'load'`.
-fn key_path(text: &str) -> Vec<String> {
-    let mut parts = Vec::new();
-    let mut current = String::new();
-    let mut quote: Option<char> = None;
-    for c in text.chars() {
-        match (quote, c) {
-            (Some(q), c) if c == q => quote = None,
-            (Some(_), c) => current.push(c),
-            (None, '"' | '\'') => quote = Some(c),
-            (None, '.') => parts.push(std::mem::take(&mut current)),
-            (None, c) if c.is_whitespace() => {}
-            (None, c) => current.push(c),
-        }
-    }
-    parts.push(current);
-    parts
-}
-
-fn starts_with<A: AsRef<str>, B: AsRef<str>>(path: &[A], prefix: &[B]) -> bool {
-    path.len() >= prefix.len()
-        && path
-            .iter()
-            .zip(prefix)
-            .all(|(a, b)| a.as_ref() == b.as_ref())
-}
-
-/// Splits `key = value` at the first `=` outside quotes; `None` for lines that assign nothing
-/// (comments, array continuation lines, blank lines).
-fn split_assignment(line: &str) -> Option<(&str, &str)> {
-    if line.starts_with('#') {
-        return None;
-    }
-    let mut quote: Option<char> = None;
-    for (i, c) in line.char_indices() {
-        match (quote, c) {
-            (Some(q), c) if c == q => quote = None,
-            (Some(_), _) => {}
-            (None, '"' | '\'') => quote = Some(c),
-            (None, '=') => return Some((&line[..i], &line[i + 1..])),
-            // A key is bare letters, digits, `_`, `-`, dots, blanks and quotes; anything else
-            // first (`]`, `,`, a digit string in an array) means this is not an assignment.
-            (None, c) if !(c.is_alphanumeric() || matches!(c, '_' | '-' | '.' | ' ' | '\t')) => {
-                return None
-            }
-            _ => {}
-        }
-    }
-    None
-}
-
-/// True when the inline table text `{ a = 1, key = 2 }` assigns `key` at its top level.
-fn inline_assigns(rhs: &str, key: &str) -> bool {
-    let Some(body) = rhs.trim().strip_prefix('{') else {
-        return false;
-    };
-    let mut quote: Option<char> = None;
-    let mut depth = 0usize;
-    let mut start = 0;
-    for (i, c) in body.char_indices() {
-        match (quote, c) {
-            (Some(q), c) if c == q => quote = None,
-            (Some(_), _) => {}
-            (None, '"' | '\'') => quote = Some(c),
-            (None, '{' | '[') => depth += 1,
-            (None, '}' | ']') if depth > 0 => depth -= 1,
-            (None, ',' | '}') if depth == 0 => {
-                if let Some((lhs, _)) = split_assignment(body[start..i].trim()) {
-                    if key_path(lhs).first().map(String::as_str) == Some(key) {
-                        return true;
-                    }
-                }
-                start = i + 1;
-            }
-            _ => {}
-        }
-    }
-    false
 }
 
 fn section<'t>(root: &'t toml::Table, name: &str, r: &mut Reader) -> Option<&'t toml::Table> {
@@ -747,31 +944,31 @@ impl Spec {
     /// [`MAX_SPEC_BYTES`] is refused before anything is parsed.
     pub fn from_bytes(bytes: &[u8]) -> Result<Spec, SpecErrors> {
         if bytes.len() > MAX_SPEC_BYTES {
-            return Err(SpecErrors(vec![SpecError {
+            return Err(SpecErrors::one(SpecError {
                 key: "spec".into(),
                 line: None,
                 message: format!(
                     "the file is {} bytes, more than the {MAX_SPEC_BYTES} a spec may have; is this the right file?",
                     bytes.len()
                 ),
-            }]));
+            }));
         }
         let bytes = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
         match std::str::from_utf8(bytes) {
             Ok(text) => Spec::from_toml(text),
             Err(e) => {
                 let good = &bytes[..e.valid_up_to()];
-                let line = good.iter().filter(|&&b| b == b'\n').count() + 1;
-                let column =
-                    good.len() - good.iter().rposition(|&b| b == b'\n').map_or(0, |p| p + 1) + 1;
-                Err(SpecErrors(vec![SpecError {
+                let lines = LineIndex::lf(good);
+                let line = lines.line_of(good.len());
+                let column = good.len() - lines.start_of(line) + 1;
+                Err(SpecErrors::one(SpecError {
                     key: "spec".into(),
                     line: Some(line),
                     message: format!(
                         "found the byte 0x{:02X} at column {column}, which is not UTF-8 text; save the spec as UTF-8",
                         bytes[e.valid_up_to()]
                     ),
-                }]))
+                }))
             }
         }
     }
@@ -787,21 +984,19 @@ impl Spec {
             .lines()
             .all(|l| l.trim().is_empty() || l.trim_start().starts_with('#'));
         if blank {
-            return Err(SpecErrors(vec![SpecError {
+            return Err(SpecErrors::one(SpecError {
                 key: "spec".into(),
                 line: Some(1),
                 message: "the spec is empty; expected at least a `[stage]` section with kind, \
                           supply, gain, load and band"
                     .into(),
-            }]));
+            }));
         }
-        let root: toml::Table = match text.parse() {
-            Ok(t) => t,
+        let lines = LineIndex::lf(text.as_bytes());
+        let doc = match toml_edit::ImDocument::parse(text) {
+            Ok(doc) => doc,
             Err(e) => {
-                let e: toml::de::Error = e;
-                let line = e
-                    .span()
-                    .map(|s| text[..floor_boundary(text, s.start)].matches('\n').count() + 1);
+                let line = e.span().map(|s| lines.line_of(s.start));
                 // TOML ends lines with LF or CRLF only; a file saved with classic Mac line ends
                 // (CR alone) fails on its first line with a puzzling message.
                 let lone_cr = text
@@ -814,16 +1009,29 @@ impl Spec {
                 } else {
                     ""
                 };
-                return Err(SpecErrors(vec![SpecError {
+                return Err(SpecErrors::one(SpecError {
                     key: "toml".into(),
                     line,
                     message: format!("not valid TOML: {}{hint}", e.message().trim_end()),
-                }]));
+                }));
+            }
+        };
+        let positions = Positions::new(&doc, lines);
+        // The values as `toml::Value`s, from the same parse.
+        let root = match toml::Table::deserialize(toml_edit::de::Deserializer::from(doc)) {
+            Ok(root) => root,
+            Err(e) => {
+                return Err(SpecErrors::one(SpecError {
+                    key: "toml".into(),
+                    line: e.span().map(|s| positions.lines.line_of(s.start)),
+                    message: format!("not valid TOML: {}", e.message().trim_end()),
+                }))
             }
         };
         let mut r = Reader {
-            text,
+            positions,
             errors: Vec::new(),
+            more: 0,
         };
         for key in root.keys() {
             if !SECTIONS.contains(&key.as_str()) {
@@ -911,7 +1119,41 @@ impl Spec {
                 None
             }
         };
-        let gain_tolerance = r.positive(s, stage_t, "gain_tolerance", Unit::Percent);
+        // A closed-loop gain of at least the open-loop gain the analysis takes (10^6,
+        // `stage::OPEN_LOOP_GAIN`) cannot be built; below 1/1000 a stage is an attenuator nobody
+        // builds with an op-amp (common practice).
+        let gain = gain.filter(|&g| {
+            let ok = g == 0.0 || (1e-3..1e6).contains(&g.abs());
+            if !ok {
+                r.error(
+                    s,
+                    Some("gain"),
+                    format!(
+                        "found {}, far outside the gain of one op-amp stage (plausible: a \
+                         magnitude from 0.001 to below 1000000 V/V, the open-loop gain); the \
+                         gain is a plain ratio, not dB",
+                        value::number_text(g)
+                    ),
+                );
+            }
+            ok
+        });
+        let gain_tolerance = r
+            .positive(s, stage_t, "gain_tolerance", Unit::Percent)
+            .filter(|&t| {
+                // ±100 % or more allows no gain at all: no requirement left.
+                if t >= 1.0 {
+                    r.error(
+                        s,
+                        Some("gain_tolerance"),
+                        format!(
+                            "found {}, expected a tolerance below 100 %, e.g. \"5%\"",
+                            value::format(t, Unit::Percent)
+                        ),
+                    );
+                }
+                t < 1.0
+            });
         let input_resistance_min = r.positive(s, stage_t, "input_resistance_min", Unit::Ohm);
         let load = r.required(s, stage_t, "load", Unit::Ohm);
         let band = r.pair(s, stage_t, "band", Unit::Hertz, false);
@@ -1172,17 +1414,17 @@ impl Spec {
         }
 
         if !r.errors.is_empty() {
-            return Err(SpecErrors(r.errors));
+            return Err(SpecErrors(r.errors, r.more));
         }
         // Every field read above is Some when no error was recorded.
         let (Some(stage), Some(supply), Some(gain), Some(load), Some(band)) =
             (kind, supply, gain, load, band)
         else {
-            return Err(SpecErrors(vec![SpecError {
+            return Err(SpecErrors::one(SpecError {
                 key: "stage".into(),
                 line: None,
                 message: "incomplete stage section".into(),
-            }]));
+            }));
         };
         Ok(Spec {
             stage,
@@ -1221,15 +1463,6 @@ impl Spec {
 /// Largest spec file read (1 MiB): a hand-written spec is a few hundred bytes, so anything
 /// near this is the wrong file, and refusing it early keeps memory bounded.
 pub const MAX_SPEC_BYTES: usize = 1 << 20;
-
-/// The largest char boundary at or below `i` (a TOML error span may point inside a character).
-fn floor_boundary(text: &str, i: usize) -> usize {
-    let mut i = i.min(text.len());
-    while !text.is_char_boundary(i) {
-        i -= 1;
-    }
-    i
-}
 
 /// Default resistor range: below ~100 Ω the feedback network loads the op-amp output, above
 /// 10 MΩ leakage and bias currents dominate (common practice).
@@ -1380,6 +1613,10 @@ band = ["20 Hz", "20 kHz"]
             "{}",
             message(&text)
         );
+        // TOML 1.0 ends lines at LF or CRLF only, so the parser refuses a lone CR where it
+        // stands: the error is on the line it ends, counted in LF lines.
+        let text = MINIMAL.replacen("gain = -10\n", "gain = -10\r", 1);
+        assert_eq!(places(&text), [(Some(5), "toml".to_string())]);
     }
 
     #[test]
@@ -1534,6 +1771,275 @@ band = ["20 Hz", "20 kHz"]
         .unwrap();
         assert_eq!(ok.stock.resistors, SourceSpec::Series(Series::E96));
         assert_eq!(ok.stock.capacitors, SourceSpec::File("my-stock.csv".into()));
+    }
+
+    #[test]
+    fn sixty_thousand_unknown_keys_are_capped_and_located_from_the_parser() {
+        // 60 000 unknown keys (660 kB, under MAX_SPEC_BYTES): the first hundred are described
+        // with their lines, the rest counted. Their places come from the parser's spans in one
+        // pass; a re-scan of the text per key took minutes here.
+        let mut text = format!("{MINIMAL}[amplifier]\n");
+        for i in 0..60_000 {
+            text.push_str(&format!("x{i:05} = 1\n"));
+        }
+        assert!(text.len() < MAX_SPEC_BYTES);
+        let e = Spec::from_toml(&text).unwrap_err();
+        assert_eq!((e.0.len(), e.1), (MAX_LISTED_PROBLEMS, 59_900));
+        // MINIMAL has 7 lines and `[amplifier]` is line 8, so key i is on line 9 + i.
+        assert_eq!(e.0[0].key, "amplifier.x00000");
+        assert_eq!(e.0[0].line, Some(9));
+        assert_eq!(e.0[99].key, "amplifier.x00099");
+        assert_eq!(e.0[99].line, Some(108));
+        let m = e.to_string();
+        assert!(m.starts_with("60000 problems in the spec:"), "{m}");
+        assert!(m.ends_with("\n  … and 59900 more problems"), "{m}");
+        assert_eq!(m.lines().count(), 1 + MAX_LISTED_PROBLEMS + 1);
+    }
+
+    #[test]
+    fn keys_in_tables_of_several_headers_and_dotted_tables() {
+        // `[stage]` after `[stage.x]`, and a key whose table is implied by a dotted key.
+        let text = format!("[goals.x]\na = 1\n{MINIMAL}[goals]\ncost = \"x\"\n");
+        let got = places(&text);
+        assert!(got.contains(&(Some(1), "goals.x".to_string())), "{got:?}");
+        assert!(
+            got.contains(&(Some(11), "goals.cost".to_string())),
+            "{got:?}"
+        );
+    }
+
+    /// MINIMAL with `entry` in `[stage]` (in place of the key's line, or before `band`), or
+    /// with a section of its own when `entry` starts with one.
+    fn with(entry: &str) -> String {
+        if entry.starts_with('[') {
+            return format!("{MINIMAL}{entry}\n");
+        }
+        let key = entry.split(" = ").next().unwrap_or_default();
+        match MINIMAL
+            .lines()
+            .find(|l| l.starts_with(&format!("{key} = ")))
+        {
+            Some(line) => MINIMAL.replace(line, entry),
+            None => MINIMAL.replace("band =", &format!("{entry}\nband =")),
+        }
+    }
+
+    /// The 1-based line of `text` on which `key = …` is written.
+    fn line_with(text: &str, key: &str) -> Option<usize> {
+        let start = format!("{key} = ");
+        text.lines()
+            .position(|l| l.starts_with(&start))
+            .map(|i| i + 1)
+    }
+
+    #[test]
+    fn a_bare_number_follows_the_rules_of_the_same_number_quoted() {
+        // A bare `-20e-9` was taken (as its magnitude) where `"-20e-9"` was refused.
+        for (section, key, number, ok) in [
+            ("[amplifier]\n", "input_bias_current", "-20e-9", false),
+            ("[amplifier]\n", "input_offset_current", "-1e-9", false),
+            ("[amplifier]\n", "noise_voltage", "-1", false),
+            ("[amplifier]\n", "noise_current", "-1e-12", false),
+            ("[amplifier]\n", "gbw", "-1e6", false),
+            ("", "load", "-10000", false),
+            ("", "gain_tolerance", "-5", false),
+            ("", "bias_current_max", "-1e-4", false),
+            // A voltage may be negative (an offset's sign is unknown; a DC level below ground).
+            ("[amplifier]\n", "input_offset_voltage", "-0.002", true),
+            ("", "source_dc", "-1", true),
+            ("[amplifier]\n", "input_bias_current", "20e-9", true),
+            ("", "gain_tolerance", "5", true),
+        ] {
+            let bare = Spec::from_toml(&with(&format!("{section}{key} = {number}")));
+            let quoted = Spec::from_toml(&with(&format!("{section}{key} = \"{number}\"")));
+            assert_eq!(bare.is_ok(), ok, "{key} = {number}: {bare:?}");
+            assert_eq!(quoted.is_ok(), ok, "{key} = \"{number}\": {quoted:?}");
+            if let (Ok(b), Ok(q)) = (&bare, &quoted) {
+                assert_eq!(b, q, "{key} = {number}");
+            }
+            if let Err(e) = &bare {
+                assert!(e.to_string().contains("cannot be negative"), "{e}");
+            }
+        }
+        let m = message(&with("[amplifier]\nnoise_voltage = -1"));
+        assert!(
+            m.contains("line 9, `amplifier.noise_voltage`: -1 is negative"),
+            "{m}"
+        );
+    }
+
+    #[test]
+    fn tolerances_stay_below_100_percent() {
+        for entry in [
+            "gain_tolerance = \"100%\"",
+            "gain_tolerance = 100",
+            "gain_tolerance = 1e308",
+            "gain_tolerance = \"150 %\"",
+            "[stock]\nresistor_tolerance = \"100%\"",
+            "[stock]\ncapacitor_tolerance = 1e308",
+        ] {
+            let m = message(&with(entry));
+            assert!(m.contains("below 100 %"), "{entry}: {m}");
+        }
+        let ok = Spec::from_toml(&with("gain_tolerance = \"99.5%\"")).unwrap();
+        assert_eq!(ok.gain_tolerance, Some(0.995));
+        assert_eq!(
+            places(&with("gain_tolerance = \"100%\"")),
+            [(Some(7), "stage.gain_tolerance".to_string())]
+        );
+    }
+
+    #[test]
+    fn implausible_figures_are_refused_with_the_likely_intent() {
+        // (entry, key, what the message says, what was likely meant — which must load).
+        let cases = [
+            ("supply = 9000", "stage.supply", "far above", None),
+            ("supply = \"9m\"", "stage.supply", "far below", None),
+            ("gain = -1e6", "stage.gain", "not dB", None),
+            ("gain = -0.0001", "stage.gain", "0.001", None),
+            (
+                "load = \"1m\"",
+                "stage.load",
+                "a small `m` is milli",
+                Some("\"1M\""),
+            ),
+            ("load = 0.5", "stage.load", "far below", None),
+            ("band = [20, 2e10]", "stage.band", "far above", None),
+            ("band = [\"0.1 mHz\", 20]", "stage.band", "far below", None),
+            (
+                "corner_low_max = 1e12",
+                "stage.corner_low_max",
+                "far above",
+                None,
+            ),
+            (
+                "band_loss_max = 1e308",
+                "stage.band_loss_max",
+                "far above",
+                None,
+            ),
+            ("input_peak = 1e-9", "stage.input_peak", "far below", None),
+            ("output_peak = 5000", "stage.output_peak", "far above", None),
+            ("source_dc = -1e4", "stage.source_dc", "far above", None),
+            (
+                "bias_current_max = 100",
+                "stage.bias_current_max",
+                "did you mean",
+                Some("\"100 uA\""),
+            ),
+            (
+                "[amplifier]\ngbw = 3",
+                "amplifier.gbw",
+                "did you mean",
+                Some("\"3 MHz\""),
+            ),
+            (
+                "[amplifier]\ngbw = \"1m\"",
+                "amplifier.gbw",
+                "a small `m` is milli",
+                Some("\"1M\""),
+            ),
+            (
+                "[amplifier]\ngbw = 1e12",
+                "amplifier.gbw",
+                "far above",
+                None,
+            ),
+            (
+                "[amplifier]\ninput_bias_current = 20",
+                "amplifier.input_bias_current",
+                "did you mean",
+                Some("\"20 nA\""),
+            ),
+            (
+                "[amplifier]\ninput_offset_current = 5",
+                "amplifier.input_offset_current",
+                "did you mean",
+                Some("\"5 nA\""),
+            ),
+            (
+                "[amplifier]\ninput_offset_voltage = 2",
+                "amplifier.input_offset_voltage",
+                "did you mean",
+                Some("\"2 mV\""),
+            ),
+            (
+                "[amplifier]\nslew_rate = 0.5",
+                "amplifier.slew_rate",
+                "did you mean",
+                Some("\"0.5 V/us\""),
+            ),
+            (
+                "[amplifier]\nslew_rate = 1e12",
+                "amplifier.slew_rate",
+                "far above",
+                None,
+            ),
+            (
+                "[amplifier]\nnoise_voltage = 1e308",
+                "amplifier.noise_voltage",
+                "far above",
+                None,
+            ),
+            (
+                "[amplifier]\nnoise_voltage = 10",
+                "amplifier.noise_voltage",
+                "did you mean",
+                Some("\"10 nV/rtHz\""),
+            ),
+            (
+                "[amplifier]\nnoise_current = 1",
+                "amplifier.noise_current",
+                "did you mean",
+                Some("\"1 pA/rtHz\""),
+            ),
+        ];
+        for (entry, key, says, meant) in cases {
+            let text = with(entry);
+            let line = line_with(&text, key.split('.').nth(1).unwrap_or_default());
+            assert_eq!(
+                places(&text),
+                [(line, key.to_string())],
+                "{entry}: {}",
+                message(&text)
+            );
+            let m = message(&text);
+            assert!(m.contains(says) && m.contains("plausible"), "{entry}: {m}");
+            if let Some(meant) = meant {
+                assert!(m.contains(meant), "{entry}: {m}");
+                let (lhs, _) = entry.split_once(" = ").unwrap();
+                let fixed = with(&format!("{lhs} = {meant}"));
+                assert!(
+                    Spec::from_toml(&fixed).is_ok(),
+                    "{meant}: {}",
+                    message(&fixed)
+                );
+            }
+        }
+        // The message quotes the number as written and the unit a bare number is in.
+        let m = message(&with("[amplifier]\nslew_rate = 0.5"));
+        assert!(
+            m.contains("0.5 V/s, far below any op-amp's slew rate")
+                && m.contains("did you mean \"0.5 V/us\"? A number without a unit is in V/s"),
+            "{m}"
+        );
+        // Ideal figures and the edges of each range load.
+        for entry in [
+            "[amplifier]\nnoise_voltage = 0",
+            "[amplifier]\ninput_bias_current = 0",
+            "[amplifier]\nslew_rate = \"0.0001 V/us\"",
+            "[amplifier]\ngbw = \"100 GHz\"",
+            "load = \"1\"",
+            "supply = \"0.5 V\"",
+            "band_loss_max = \"40 dB\"",
+        ] {
+            let text = with(entry);
+            assert!(
+                Spec::from_toml(&text).is_ok(),
+                "{entry}: {}",
+                message(&text)
+            );
+        }
     }
 
     #[test]

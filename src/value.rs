@@ -472,6 +472,40 @@ pub fn parse(text: &str, unit: Unit) -> Result<f64, ValueError> {
     })
 }
 
+/// A plain number (a bare TOML number, `-20e-9`) as a value of `unit`, under the rules that
+/// [`parse`] applies to the same number written as text (`"-20e-9"`): finite, negative only
+/// for a voltage or a dB level, and a bare tolerance in percent (`5` → 0.05). Returns SI base
+/// units like [`parse`].
+pub fn from_number(x: f64, unit: Unit) -> Result<f64, ValueError> {
+    let text = number_text(x);
+    let ctx = Ctx {
+        text: &text,
+        s: &text,
+        unit,
+    };
+    if !x.is_finite() {
+        return Err(ctx.invalid("NaN and infinity are not values"));
+    }
+    if x < 0.0 && !unit.may_be_negative() {
+        return Err(ctx.error(format!(
+            "{text} is negative; a {} cannot be negative ({})",
+            unit.quantity(),
+            unit.expected_phrase()
+        )));
+    }
+    // A bare tolerance is in percent, as in `parse`.
+    Ok(if unit == Unit::Percent { x / 100.0 } else { x })
+}
+
+/// A plain number as a person would have written it: `-1`, `0.5`, `2e-8`, `1e308`.
+pub(crate) fn number_text(x: f64) -> String {
+    let text = format!("{x:?}");
+    match text.strip_suffix(".0") {
+        Some(whole) => whole.to_string(),
+        None => text,
+    }
+}
+
 /// Reads sign, number (decimal or RKM), prefix and unit symbol; checks only the syntax.
 fn scan(ctx: &Ctx<'_>) -> Result<Reading, ValueError> {
     let mut rest = ctx.s;

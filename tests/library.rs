@@ -9,7 +9,9 @@ use stockfit::pick::{self, Options};
 use stockfit::report::json;
 
 fn data(name: &str) -> std::path::PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data").join(name)
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/data")
+        .join(name)
 }
 
 #[test]
@@ -48,13 +50,24 @@ fn the_library_gives_the_binarys_builds() {
 
     let out = assert_cmd::Command::cargo_bin("stockfit")
         .unwrap()
-        .args(["pick", "--top", "4", "--yield", "500", "--seed", "7", "--json", "-"])
+        .args([
+            "pick", "--top", "4", "--yield", "500", "--seed", "7", "--json", "-",
+        ])
         .arg(data("lib-lock-inverting.toml"))
         .output()
         .unwrap();
-    assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let binary = String::from_utf8(out.stdout).unwrap();
-    assert_eq!(binary.trim_end(), library, "the binary and the library differ");
+    assert_eq!(
+        binary.trim_end(),
+        library,
+        "the binary and the library differ"
+    );
     // Noise, the DC budget and the yield are complete in both.
     for field in ["\"noise\"", "\"dc_budget\"", "\"yield\""] {
         assert!(library.contains(field), "{field}");

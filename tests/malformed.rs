@@ -312,6 +312,49 @@ fn spec_cases() -> Vec<Case> {
             &["line 9", "`stock.resistor_tolerance`", "below 100 %"],
         ),
         spec(
+            "slew rate as a bare 0.5 (V/s)",
+            "slew-bare.toml",
+            &format!("{BASE}\n[amplifier]\nslew_rate = 0.5\n"),
+            &[
+                "line 9",
+                "`amplifier.slew_rate`",
+                "did you mean \"0.5 V/us\"",
+            ],
+        ),
+        spec(
+            "load of 1 milliohm",
+            "load-milli.toml",
+            &base_with("\"10k\"", "\"1m\""),
+            &["line 5", "`stage.load`", "a small `m` is milli"],
+        ),
+        spec(
+            "noise density of 1e308",
+            "noise-huge.toml",
+            &format!("{BASE}\n[amplifier]\nnoise_voltage = 1e308\n"),
+            &[
+                "line 9",
+                "`amplifier.noise_voltage`",
+                "far above",
+                "plausible",
+            ],
+        ),
+        spec(
+            "bare negative bias current",
+            "ib-negative.toml",
+            &format!("{BASE}\n[amplifier]\ninput_bias_current = -20e-9\n"),
+            &[
+                "line 9",
+                "`amplifier.input_bias_current`",
+                "cannot be negative",
+            ],
+        ),
+        spec(
+            "gain tolerance of 100 %",
+            "gain-tol-100.toml",
+            &base_with("band =", "gain_tolerance = \"100%\"\nband ="),
+            &["line 6", "`stage.gain_tolerance`", "below 100 %"],
+        ),
+        spec(
             "GBW as words",
             "gbw.toml",
             &format!("{BASE}\n[amplifier]\ngbw = \"fast\"\n"),
@@ -600,6 +643,16 @@ fn csv_cases() -> Vec<Case> {
                 .map(String::from)
                 .to_vec(),
         },
+        csv(
+            "CR-only line ends (classic Mac)",
+            "cr-only.csv",
+            "# export\rkind,value,tolerance,qty\rr,1k,1%,1\rr,1k,x,1\rc,4k7,10%,3\r",
+            &[
+                "2 problems",
+                "line 4, column `tolerance`",
+                "line 5, column `value`",
+            ],
+        ),
         Case {
             what: "Latin-1 byte in a location",
             file: "latin1.csv",
@@ -707,4 +760,39 @@ fn too_many_lines_are_refused_with_the_line() {
         stderr.contains("long.csv") && stderr.contains("line 1000001"),
         "{stderr}"
     );
+}
+
+/// The error-dense inventory: 999,000 rows of `x` (16 MB, within both size limits), seven bad
+/// cells each. The first hundred problems are described and the rest counted, so the message
+/// stays a screenful and the work stays bounded (it used to write 899 MB of errors).
+#[test]
+fn an_error_dense_inventory_gives_a_capped_list() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("dense.csv");
+    let mut text = String::from(H);
+    text.push_str(&"x,x,x,x,x,x,x,x\n".repeat(999_000));
+    assert!(text.len() > 15_000_000 && text.len() < 16 << 20);
+    std::fs::write(&path, text).unwrap();
+    let out = Command::cargo_bin("stockfit")
+        .unwrap()
+        .arg("stock")
+        .arg(&path)
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(
+        out.status.code(),
+        Some(2),
+        "{}",
+        &stderr[..stderr.len().min(2000)]
+    );
+    assert!(out.stdout.is_empty());
+    assert!(stderr.len() < 32 << 10, "{} bytes of stderr", stderr.len());
+    // Per row: kind, tolerance and qty, and four cells past the header's four columns.
+    assert!(
+        stderr.contains("6993000 problems in the inventory"),
+        "{stderr}"
+    );
+    assert!(stderr.contains("line 2, column `kind`"), "{stderr}");
+    assert!(stderr.contains("… and 6992900 more problems"), "{stderr}");
 }

@@ -156,7 +156,11 @@ fn modules_form_a_one_way_graph() {
     for f in &files {
         let parts = rel(f);
         let text = code(&std::fs::read_to_string(f).unwrap());
-        let me = if parts[0] == "main" { "cli".to_string() } else { parts[0].clone() };
+        let me = if parts[0] == "main" {
+            "cli".to_string()
+        } else {
+            parts[0].clone()
+        };
         let node = top.entry(me.clone()).or_default();
         let prefix = if me == "cli" { "stockfit::" } else { "crate::" };
         for n in names_after(&text, prefix) {
@@ -199,7 +203,10 @@ fn modules_form_a_one_way_graph() {
             }
         }
     }
-    assert!(edges > 50, "the scan found only {edges} imports; is it reading the files?");
+    assert!(
+        edges > 50,
+        "the scan found only {edges} imports; is it reading the files?"
+    );
     if let Some(c) = cycle(&top) {
         panic!("the top-level modules form a cycle: {}", c.join(" → "));
     }
@@ -218,7 +225,10 @@ fn the_scan_sees_a_cycle() {
     g.entry("b".into()).or_default().insert("a".into());
     assert_eq!(cycle(&g), Some(vec!["a".into(), "b".into(), "a".into()]));
     assert_eq!(
-        names_after("use crate::{spec::Spec, stock};\nlet x = crate::value::parse;", "crate::"),
+        names_after(
+            "use crate::{spec::Spec, stock};\nlet x = crate::value::parse;",
+            "crate::"
+        ),
         ["spec", "stock", "value"]
     );
 }

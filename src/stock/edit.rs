@@ -2,11 +2,12 @@
 //! the digits of the affected `qty` cells.
 //!
 //! A stock list is the one file its owner cares about, often kept in a spreadsheet with their
-//! own columns, comments and quoting. [`deduct`] therefore does not re-write the CSV: it finds
-//! the byte span of each affected `qty` cell with a tokenizer that follows the loader's rules
-//! (RFC 4180 quoting, `#` comment lines, blank rows, a UTF-8 byte-order mark, LF, CRLF or CR
-//! line ends) and replaces only the digits inside it. Every other byte — column order, unknown
-//! columns, comments, row order, quotes, spaces, line ends — is copied as it was.
+//! own columns, comments and quoting. [`deduct`] therefore does not re-write the CSV: the
+//! loader records where the digits of each row's `qty` cell are in the bytes it read
+//! ([`Inventory::qty_digits`], from the csv reader's own field spans), and only those bytes
+//! are replaced. There is no second tokenizer here to disagree with the loader. Every other
+//! byte — column order, unknown columns, comments, row order, quotes, spaces, line ends — is
+//! copied as it was.
 //!
 //! The result is checked before it is returned: it must load, with the same lines in the same
 //! order, each equal to the original except for the quantity taken. Like the rest of the library
@@ -61,164 +62,6 @@ fn shortfall_message(list: &[Shortfall]) -> String {
     text
 }
 
-/// A field's place in the raw bytes.
-#[derive(Debug, Clone, Copy)]
-struct Field {
-    /// Whole field, quotes included: `[start, end)`.
-    start: usize,
-    end: usize,
-    /// Opened with a quote.
-    quoted: bool,
-}
-
-/// One record as the tokenizer saw it.
-#[derive(Debug, Clone)]
-struct Record {
-    file_line: usize,
-    fields: Vec<Field>,
-}
-
-/// The text of a field: quotes removed, `""` read as `"` (RFC 4180 §2.7). A field that goes on
-/// after its closing quote (`"ab"c`) keeps the rest, as the csv reader does.
-fn field_text(bytes: &[u8], f: Field) -> Vec<u8> {
-    let raw = &bytes[f.start..f.end];
-    if !f.quoted {
-        return raw.to_vec();
-    }
-    let mut out = Vec::with_capacity(raw.len());
-    let mut i = 1;
-    let mut inside = true;
-    while i < raw.len() {
-        let b = raw[i];
-        if inside && b == b'"' {
-            if raw.get(i + 1) == Some(&b'"') {
-                out.push(b'"');
-                i += 2;
-                continue;
-            }
-            inside = false;
-            i += 1;
-            continue;
-        }
-        out.push(b);
-        i += 1;
-    }
-    out
-}
-
-/// Splits the bytes into records with the loader's rules (see the module docs). Comment lines
-/// produce no record; a line with only blanks produces one, judged blank later.
-fn tokenize(bytes: &[u8], from: usize) -> Vec<Record> {
-    let mut records = Vec::new();
-    let mut line = 1 + bytes[..from].iter().filter(|&&b| b == b'\n').count();
-    let mut i = from;
-    let n = bytes.len();
-    while i < n {
-        // Line ends between records (the csv reader skips empty lines).
-        if bytes[i] == b'\n' || bytes[i] == b'\r' {
-            if bytes[i] == b'\n' {
-                line += 1;
-            }
-            i += 1;
-            continue;
-        }
-        if bytes[i] == b'#' {
-            while i < n && bytes[i] != b'\n' && bytes[i] != b'\r' {
-                i += 1;
-            }
-            continue;
-        }
-        let file_line = line;
-        let mut fields = Vec::new();
-        loop {
-            let start = i;
-            let quoted = i < n && bytes[i] == b'"';
-            if quoted {
-                i += 1;
-                // Inside quotes until a quote that is not doubled.
-                while i < n {
-                    match bytes[i] {
-                        b'"' if bytes.get(i + 1) == Some(&b'"') => i += 2,
-                        b'"' => {
-                            i += 1;
-                            break;
-                        }
-                        b'\n' => {
-                            line += 1;
-                            i += 1;
-                        }
-                        _ => i += 1,
-                    }
-                }
-            }
-            while i < n && !matches!(bytes[i], b',' | b'\n' | b'\r') {
-                i += 1;
-            }
-            fields.push(Field {
-                start,
-                end: i,
-                quoted,
-            });
-            if i < n && bytes[i] == b',' {
-                i += 1;
-                continue;
-            }
-            break;
-        }
-        records.push(Record { file_line, fields });
-    }
-    records
-}
-
-/// The loader's rule for records that carry no data: all cells blank, or the first cell starts
-/// with `#` after blanks (an indented comment).
-fn is_blank(bytes: &[u8], r: &Record) -> bool {
-    let texts: Vec<Vec<u8>> = r.fields.iter().map(|f| field_text(bytes, *f)).collect();
-    let first_is_comment = texts
-        .first()
-        .is_some_and(|t| t.trim_ascii_start().starts_with(b"#"));
-    first_is_comment || texts.iter().all(|t| t.trim_ascii().is_empty())
-}
-
-/// The loader's header matching: trimmed, case-insensitive, blanks and dashes as underscores.
-fn is_qty_header(text: &[u8]) -> bool {
-    let name: String = String::from_utf8_lossy(text)
-        .trim()
-        .chars()
-        .map(|c| match c {
-            ' ' | '-' => '_',
-            c => c.to_ascii_lowercase(),
-        })
-        .collect();
-    name == "qty"
-}
-
-/// The byte span of the digits inside a qty cell (`12`, ` 12 `, `"+12"`), or why there is none.
-fn digit_span(bytes: &[u8], f: Field) -> Result<(usize, usize), String> {
-    let (mut lo, mut hi) = (f.start, f.end);
-    if f.quoted {
-        lo += 1;
-        // The closing quote must end the field for the digits to be all there is inside.
-        if hi <= lo || bytes[hi - 1] != b'"' {
-            return Err("the quoted cell goes on after its closing quote".into());
-        }
-        hi -= 1;
-    }
-    let cell = &bytes[lo..hi];
-    let first = cell
-        .iter()
-        .position(u8::is_ascii_digit)
-        .ok_or("no digits in the cell")?;
-    let last = cell
-        .iter()
-        .rposition(u8::is_ascii_digit)
-        .ok_or("no digits in the cell")?;
-    if !cell[first..=last].iter().all(u8::is_ascii_digit) {
-        return Err("the cell is not one number".into());
-    }
-    Ok((lo + first, lo + last + 1))
-}
-
 /// Takes `n` pieces off each data row ([`Line::row`], 1-based) and returns the new file bytes.
 /// The same row may appear several times; its deductions add up. Rows with `n == 0` are left
 /// alone byte for byte. Refuses — changing nothing — when the original does not load, a row
@@ -255,48 +98,17 @@ pub fn deduct(original: &[u8], deductions: &[(usize, u32)]) -> Result<Vec<u8>, E
         return Ok(original.to_vec());
     }
 
-    let from = if original.starts_with(b"\xEF\xBB\xBF") {
-        3
-    } else {
-        0
-    };
-    let records: Vec<Record> = tokenize(original, from)
-        .into_iter()
-        .filter(|r| !is_blank(original, r))
-        .collect();
-    let Some((header, rows)) = records.split_first() else {
-        return Err(EditError::Verify("no header found".into()));
-    };
-    let qty_column = header
-        .fields
-        .iter()
-        .position(|f| is_qty_header(&field_text(original, *f)))
-        .ok_or_else(|| EditError::Verify("no qty column found".into()))?;
-
     let mut edits: Vec<(usize, usize, String)> = Vec::new();
     for (&row, &n) in &wanted {
         let line = line_of(row);
-        let record = rows
-            .get(row - 1)
-            .ok_or_else(|| EditError::Verify(format!("row {row} not found")))?;
-        if record.file_line != line.file_line {
-            return Err(EditError::Verify(format!(
-                "row {row} is on line {} for the loader and {} for the editor",
-                line.file_line, record.file_line
-            )));
-        }
-        let field = record
-            .fields
-            .get(qty_column)
-            .copied()
-            .ok_or_else(|| EditError::Layout {
+        let digits = inventory
+            .qty_digits(row)
+            .ok_or_else(|| EditError::Verify(format!("row {row} has no qty cell on record")))?
+            .map_err(|reason| EditError::Layout {
                 file_line: line.file_line,
-                reason: "the row has no qty cell".into(),
+                reason: reason.to_string(),
             })?;
-        let (lo, hi) = digit_span(original, field).map_err(|reason| EditError::Layout {
-            file_line: line.file_line,
-            reason,
-        })?;
+        let (lo, hi) = (digits.start, digits.end);
         // `wanted ≤ qty` was checked above, so this does not underflow.
         let left = u64::from(line.qty) - n;
         edits.push((lo, hi, left.to_string()));
@@ -408,7 +220,7 @@ mod tests {
         let bad = b"kind,value,tolerance,qty\nr,1k,1%,many\n";
         assert!(matches!(
             deduct(bad, &[(1, 1)]),
-            Err(EditError::Inventory(InventoryError::Rows(_)))
+            Err(EditError::Inventory(InventoryError::Rows { .. }))
         ));
     }
 
@@ -427,6 +239,27 @@ mod tests {
             String::from_utf8(after).unwrap(),
             cr.replace(",3\r", ",0\r")
         );
+    }
+
+    #[test]
+    fn shortfalls_of_a_cr_only_file_name_their_own_lines() {
+        let cr = b"kind,value,tolerance,qty\rr,1k,1%,3\rc,1n,5%,4\r";
+        match deduct(cr, &[(2, 9)]) {
+            Err(EditError::TooFew(list)) => assert_eq!((list[0].row, list[0].file_line), (2, 3)),
+            other => panic!("{other:?}"),
+        }
+    }
+
+    #[test]
+    fn a_qty_cell_the_reader_joins_from_pieces_is_not_edited() {
+        // `"1"2` reads as 12 (text after a closing quote is kept); which digits to change is a
+        // guess, so the edit is refused and nothing changes.
+        let before = b"kind,value,tolerance,qty\nr,1k,1%,\"1\"2\nr,2k,1%,5\n";
+        assert!(matches!(
+            deduct(before, &[(1, 1)]),
+            Err(EditError::Layout { file_line: 2, .. })
+        ));
+        assert_eq!(qtys(&deduct(before, &[(2, 1)]).unwrap()), [12, 4]);
     }
 
     // ---- generated CSVs -----------------------------------------------------------------

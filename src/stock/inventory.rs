@@ -1,12 +1,15 @@
 //! Inventory CSV loader: turns a stock list (one line per bin of resistors or capacitors) into
-//! typed [`Line`]s in SI units, collecting every bad cell with its file line and column.
+//! typed [`Line`]s in SI units, collecting the bad cells with their file line and column (the
+//! first [`MAX_LISTED_PROBLEMS`] described, the rest counted).
 //!
 //! The format is plain CSV (RFC 4180 quoting) with a header row. Required columns: `kind`,
 //! `value`, `tolerance`, `qty`; optional: `voltage`, `power`, `polarized`, `dielectric`,
 //! `unit_cost`, `location`, `note`. Any other column is ignored, so a stock export can keep its
 //! own bookkeeping columns. Column names are matched trimmed and case-insensitively, with spaces
 //! and dashes read as underscores (`Unit Cost` is `unit_cost`). Lines starting with `#` are
-//! comments, empty lines are skipped, a UTF-8 byte-order mark and CRLF line ends are accepted.
+//! comments, empty lines are skipped, a UTF-8 byte-order mark is accepted, and lines end at LF,
+//! CRLF or a lone CR. Records are read by the csv crate's tokenizer (`csv-core`), which also
+//! gives each `qty` cell's byte range for [`crate::stock::edit`].
 //! A value outside what any part of its kind can be ([`crate::vocab::PLAUSIBLE_OHMS`], [`crate::vocab::PLAUSIBLE_FARADS`])
 //! is reported as a value of the other kind typed on the wrong line (`c,4k7,…`). Input beyond
 //! [`MAX_INVENTORY_BYTES`] or [`MAX_INVENTORY_LINES`] is refused before it is parsed.
@@ -16,6 +19,8 @@
 
 use std::collections::HashMap;
 use std::io::Read;
+
+use csv_core::ReadFieldResult;
 
 use serde::Serialize;
 
@@ -54,7 +59,15 @@ pub struct Line {
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct Inventory {
     pub lines: Vec<Line>,
+    /// Per line (same index): where the digits of its `qty` cell are in the bytes it was
+    /// loaded from, or why they cannot be edited in place. See [`Inventory::qty_digits`].
+    #[serde(skip)]
+    qty_digits: Vec<QtyDigits>,
 }
+
+/// The byte range of a `qty` cell's digits in the loaded bytes, or why the cell is written in
+/// a way that is not edited in place.
+pub type QtyDigits = Result<std::ops::Range<usize>, &'static str>;
 
 /// One bad cell (or a row whose shape is wrong), located by file line and column name.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -83,9 +96,10 @@ pub enum InventoryError {
     /// The text is not well-formed CSV (or could not be read at all).
     #[error("line {file_line}: malformed CSV: {message}")]
     Csv { file_line: usize, message: String },
-    /// Every bad cell of every row, in file order.
-    #[error("{}", rows_message(.0))]
-    Rows(Vec<RowError>),
+    /// The bad cells of the rows, in file order: the first [`MAX_LISTED_PROBLEMS`] in full,
+    /// and how many more were found.
+    #[error("{}", rows_message(.errors, *.more))]
+    Rows { errors: Vec<RowError>, more: usize },
     #[error("line {header_line}: the inventory has a header but no data rows")]
     Empty { header_line: usize },
     /// More than [`MAX_INVENTORY_BYTES`] bytes, or more than [`MAX_INVENTORY_LINES`] lines
@@ -138,15 +152,19 @@ fn missing_message(missing: &[String], found: &[String]) -> String {
     text
 }
 
-fn rows_message(errors: &[RowError]) -> String {
+fn rows_message(errors: &[RowError], more: usize) -> String {
+    let n = errors.len() + more;
     let mut text = format!(
-        "{} problem{} in the inventory:",
-        errors.len(),
-        if errors.len() == 1 { "" } else { "s" }
+        "{n} problem{} in the inventory:",
+        if n == 1 { "" } else { "s" }
     );
     for error in errors {
         text.push_str("\n  ");
         text.push_str(&error.to_string());
+    }
+    if more > 0 {
+        text.push_str("\n  ");
+        text.push_str(&more_problems(more));
     }
     text
 }
@@ -287,7 +305,7 @@ impl Inventory {
         let mut reader = reader.take(MAX_INVENTORY_BYTES as u64 + 1);
         if let Err(error) = reader.read_to_end(&mut bytes) {
             return Err(InventoryError::Csv {
-                file_line: 1 + bytes.iter().filter(|&&b| b == b'\n').count(),
+                file_line: LineIndex::new(&bytes).line_of(bytes.len()),
                 message: format!("could not read the input: {error}"),
             });
         }
@@ -298,6 +316,13 @@ impl Inventory {
     /// [`std::str::FromStr`]; the inherent name avoids clippy's `should_implement_trait`.)
     pub fn parse_str(text: &str) -> Result<Inventory, InventoryError> {
         parse_bytes(text.as_bytes())
+    }
+
+    /// Where the digits of data row `row`'s `qty` cell ([`Line::row`], 1-based) sit in the bytes
+    /// this inventory was parsed from, so that [`crate::stock::edit`] changes exactly those
+    /// bytes; `None` for a row that does not exist (or an inventory not parsed from bytes).
+    pub fn qty_digits(&self, row: usize) -> Option<QtyDigits> {
+        self.qty_digits.get(row.checked_sub(1)?).cloned()
     }
 
     /// Lines of one kind, in file order.
@@ -411,192 +436,284 @@ impl Layout {
     }
 }
 
-/// Offsets of every `\n`, to turn byte offsets into 1-based line numbers.
-struct LineIndex(Vec<usize>);
+/// Where each line starts, to turn byte offsets into 1-based line numbers by bisection (the
+/// spec loader uses it too).
+pub(crate) struct LineIndex(Vec<usize>);
 
 impl LineIndex {
-    fn new(bytes: &[u8]) -> LineIndex {
+    /// Lines of a CSV: a line ends at LF, CRLF or a lone CR. The csv reader ends records at
+    /// all three, so a file saved with classic Mac line ends (CR alone) has its rows on lines
+    /// of their own, not all on line 1.
+    pub(crate) fn new(bytes: &[u8]) -> LineIndex {
+        let mut starts = vec![0];
+        for (i, &b) in bytes.iter().enumerate() {
+            if b == b'\n' || (b == b'\r' && bytes.get(i + 1) != Some(&b'\n')) {
+                starts.push(i + 1);
+            }
+        }
+        LineIndex(starts)
+    }
+
+    /// Lines of TOML text, which ends lines with LF or CRLF only (TOML 1.0, "Newline means
+    /// LF (0x0A) or CRLF (0x0D 0x0A)"): a lone CR is no line end there, and a spec holding one
+    /// does not parse.
+    pub(crate) fn lf(bytes: &[u8]) -> LineIndex {
+        let breaks = bytes.iter().enumerate().filter(|(_, &b)| b == b'\n');
         LineIndex(
-            bytes
-                .iter()
-                .enumerate()
-                .filter(|(_, &b)| b == b'\n')
-                .map(|(i, _)| i)
+            std::iter::once(0)
+                .chain(breaks.map(|(i, _)| i + 1))
                 .collect(),
         )
     }
 
-    fn line_of(&self, offset: usize) -> usize {
-        1 + self.0.partition_point(|&p| p < offset)
+    /// The 1-based line holding the byte at `offset` (a line break belongs to the line it ends).
+    pub(crate) fn line_of(&self, offset: usize) -> usize {
+        self.0.partition_point(|&start| start <= offset)
     }
 
-    /// The line a record starts on. The csv reader's `Position::byte` is where it resumed
-    /// after the previous record (observed with csv 1.4), i.e. before the line break ending
-    /// that record and any empty lines it then skipped; the record itself starts after them.
-    fn record_line(&self, bytes: &[u8], position: u64) -> usize {
-        let from = usize::try_from(position)
-            .unwrap_or(usize::MAX)
-            .min(bytes.len());
-        let skipped = bytes[from..]
+    /// The byte offset where 1-based `line` starts.
+    pub(crate) fn start_of(&self, line: usize) -> usize {
+        self.0[line.clamp(1, self.0.len()) - 1]
+    }
+}
+
+/// Most problems a loader describes (inventory and spec alike); past it they are only counted,
+/// so a wrong file of a million bad rows costs a short message and bounded memory, not a
+/// gigabyte of text.
+pub const MAX_LISTED_PROBLEMS: usize = 100;
+
+/// The line that closes a capped list of problems.
+pub(crate) fn more_problems(n: usize) -> String {
+    format!("… and {n} more problem{}", if n == 1 { "" } else { "s" })
+}
+
+/// One record as the csv reader read it.
+#[derive(Default)]
+struct Record {
+    /// Byte offset of its first byte in the input.
+    start: usize,
+    /// The fields' texts (quotes removed, `""` read as `"`), one after the other.
+    text: Vec<u8>,
+    /// Per field: its raw bytes in the input (quotes included, the delimiter or line end after
+    /// it not), and the end of its text in `text`.
+    fields: Vec<(std::ops::Range<usize>, usize)>,
+}
+
+impl Record {
+    fn cells(&self) -> Vec<&[u8]> {
+        let mut from = 0;
+        self.fields
             .iter()
-            .take_while(|&&b| b == b'\n' || b == b'\r')
-            .count();
-        self.line_of(from + skipped)
+            .map(|(_, end)| {
+                let cell = &self.text[from..*end];
+                from = *end;
+                cell
+            })
+            .collect()
     }
 }
 
-/// What the pre-scan of the raw bytes found.
-enum Scan {
-    /// No comment lines: the input can be read as it is.
-    Clean,
-    /// The input with the text of every comment line removed (its line break kept).
-    Uncommented(Vec<u8>),
-    /// A quoted field opened at this byte offset is never closed.
-    UnterminatedQuote(usize),
+/// The records of an inventory, read by the csv crate's own tokenizer: `csv-core`, the engine
+/// inside `csv::Reader`, with its defaults (RFC 4180 quoting with `""` inside quotes; records
+/// end at LF, CR or CRLF; empty lines skipped). It is driven one field at a time because
+/// `read_field` reports how many input bytes each field took, which makes every cell's raw
+/// byte range exact — what [`crate::stock::edit`] needs to change a `qty` cell in place with
+/// no tokenizer of its own. (`csv::Reader` gives a record's start only, and `ByteRecord`
+/// ranges are offsets in the unquoted text, not in the input.)
+///
+/// Comment lines (`#` first on a line between records) are skipped here before the reader
+/// sees them: csv-core ends a comment only at LF, so a CR-only file would be one long comment.
+struct Records<'a> {
+    bytes: &'a [u8],
+    at: usize,
+    reader: csv_core::Reader,
 }
 
-/// Walks the bytes with the same rules as the csv reader (RFC 4180 quoting with `""` inside
-/// quotes; `#` at the start of a record opens a comment) for two reasons:
-/// - a quoted field that is never closed makes the csv crate read to the end of the input
-///   without complaint, silently swallowing the rest of the file;
-/// - the csv crate (1.4) leaves comment lines out of a record's `Position` (byte and line), so
-///   line numbers after a comment would be wrong. Removing the comment text, but not its line
-///   break, leaves an empty line, which the reader skips and does count.
-fn scan(bytes: &[u8]) -> Scan {
-    #[derive(Clone, Copy)]
-    enum State {
-        RecordStart,
-        FieldStart,
-        Unquoted,
-        Quoted(usize),
-        QuoteInQuoted(usize),
-        Comment,
+impl<'a> Records<'a> {
+    fn new(bytes: &'a [u8], from: usize) -> Records<'a> {
+        Records {
+            bytes,
+            at: from,
+            reader: csv_core::Reader::new(),
+        }
     }
-    let mut state = State::RecordStart;
-    let mut comments: Vec<(usize, usize)> = Vec::new(); // [start, end) byte ranges
-    for (i, &b) in bytes.iter().enumerate() {
-        let newline = b == b'\n' || b == b'\r';
-        state = match state {
-            State::RecordStart if b == b'#' => {
-                comments.push((i, bytes.len()));
-                State::Comment
+
+    /// Reads the next record into `record`; `Ok(false)` at the end of the input. An error is
+    /// the byte offset of a quoted field that is never closed: the reader would otherwise take
+    /// the rest of the file into it without complaint.
+    fn next(&mut self, record: &mut Record) -> Result<bool, usize> {
+        let bytes = self.bytes;
+        loop {
+            while self.at < bytes.len() && matches!(bytes[self.at], b'\n' | b'\r') {
+                self.at += 1;
             }
-            State::RecordStart | State::FieldStart if b == b'"' => State::Quoted(i),
-            State::RecordStart | State::FieldStart | State::Unquoted if newline => {
-                State::RecordStart
+            if bytes.get(self.at) != Some(&b'#') {
+                break;
             }
-            State::RecordStart | State::FieldStart | State::Unquoted if b == b',' => {
-                State::FieldStart
+            while self.at < bytes.len() && !matches!(bytes[self.at], b'\n' | b'\r') {
+                self.at += 1;
             }
-            State::RecordStart | State::FieldStart | State::Unquoted => State::Unquoted,
-            State::Quoted(start) if b == b'"' => State::QuoteInQuoted(start),
-            State::Quoted(start) => State::Quoted(start),
-            State::QuoteInQuoted(start) if b == b'"' => State::Quoted(start),
-            State::QuoteInQuoted(_) if newline => State::RecordStart,
-            State::QuoteInQuoted(_) if b == b',' => State::FieldStart,
-            State::QuoteInQuoted(_) => State::Unquoted,
-            State::Comment if newline => {
-                if let Some(last) = comments.last_mut() {
-                    last.1 = i;
+        }
+        if self.at >= bytes.len() {
+            return Ok(false);
+        }
+        record.start = self.at;
+        record.text.clear();
+        record.fields.clear();
+        let mut out = [0u8; 256];
+        loop {
+            let field_start = self.at;
+            let record_end = loop {
+                let input = &bytes[self.at..];
+                if input.is_empty() {
+                    // The input ends inside this field. Whether a quote is still open is the
+                    // reader's to say: offered a delimiter, an open quote takes it as text and
+                    // asks for more, a finished field ends at it.
+                    let (probe, _, _) = self.reader.read_field(b",", &mut out);
+                    if probe == ReadFieldResult::InputEmpty {
+                        return Err(field_start);
+                    }
+                    break true;
                 }
-                State::RecordStart
+                let (result, nin, nout) = self.reader.read_field(input, &mut out);
+                self.at += nin;
+                record.text.extend_from_slice(&out[..nout]);
+                match result {
+                    ReadFieldResult::InputEmpty | ReadFieldResult::OutputFull => continue,
+                    ReadFieldResult::Field { record_end } => break record_end,
+                    ReadFieldResult::End => break true,
+                }
+            };
+            // The reader has taken the delimiter or the line end after the field; a field's raw
+            // bytes never end in a line break (inside quotes they end at the closing quote).
+            let mut end = self.at;
+            if record_end {
+                while end > field_start && matches!(bytes[end - 1], b'\n' | b'\r') {
+                    end -= 1;
+                }
+            } else {
+                end -= 1;
             }
-            State::Comment => State::Comment,
-        };
+            record.fields.push((field_start..end, record.text.len()));
+            if record_end {
+                return Ok(true);
+            }
+        }
     }
-    if let State::Quoted(start) = state {
-        return Scan::UnterminatedQuote(start);
+}
+
+/// Where the digits of a loaded `qty` cell are: the cell as written (`12`, ` 12 `, `+12`) or
+/// inside quotes (`"12"`). Another spelling the reader also takes as 12 (`"1"2`) is left
+/// alone rather than guessed at. `text` is the cell's text, already read as a quantity.
+fn qty_digits(bytes: &[u8], raw: std::ops::Range<usize>, text: &[u8]) -> QtyDigits {
+    let written = &bytes[raw.clone()];
+    let inner = if written == text {
+        raw.start
+    } else if written.len() == text.len() + 2
+        && written.first() == Some(&b'"')
+        && written.last() == Some(&b'"')
+        && &written[1..written.len() - 1] == text
+    {
+        raw.start + 1
+    } else {
+        return Err("the quoted cell goes on after its closing quote");
+    };
+    let first = text.iter().position(u8::is_ascii_digit);
+    let last = text.iter().rposition(u8::is_ascii_digit);
+    match (first, last) {
+        (Some(first), Some(last)) => Ok(inner + first..inner + last + 1),
+        _ => Err("no digits in the cell"),
     }
-    if comments.is_empty() {
-        return Scan::Clean;
+}
+
+/// Problems found in the rows: the first [`MAX_LISTED_PROBLEMS`] described, the rest counted
+/// without building their messages.
+#[derive(Default)]
+struct Problems {
+    listed: Vec<RowError>,
+    more: usize,
+}
+
+impl Problems {
+    fn add(&mut self, error: impl FnOnce() -> RowError) {
+        if self.listed.len() < MAX_LISTED_PROBLEMS {
+            self.listed.push(error());
+        } else {
+            self.more += 1;
+        }
     }
-    let mut kept = Vec::with_capacity(bytes.len());
-    let mut from = 0;
-    for (start, end) in comments {
-        kept.extend_from_slice(&bytes[from..start]);
-        from = end;
+
+    fn is_empty(&self) -> bool {
+        self.listed.is_empty()
     }
-    kept.extend_from_slice(&bytes[from..]);
-    Scan::Uncommented(kept)
 }
 
 const BOM: &[u8] = b"\xEF\xBB\xBF";
 
 /// Parses the bytes of an inventory file: what [`Inventory::from_reader`] does once the bytes
 /// are read. Public so that a caller holding the bytes already (to hash them, or to edit them
-/// with [`crate::stock::edit`]) parses exactly what it holds.
+/// with [`crate::stock::edit`]) parses exactly what it holds; [`Inventory::qty_digits`] are
+/// offsets in these bytes.
 pub fn parse_bytes(bytes: &[u8]) -> Result<Inventory, InventoryError> {
     if bytes.len() > MAX_INVENTORY_BYTES {
         return Err(InventoryError::TooLarge { file_line: None });
     }
-    if let Some(offset) = bytes
-        .iter()
-        .enumerate()
-        .filter(|(_, &b)| b == b'\n')
-        .map(|(i, _)| i)
-        .nth(MAX_INVENTORY_LINES - 1)
-    {
-        // Line MAX+1 exists when anything follows the MAX-th line break.
-        if offset + 1 < bytes.len() {
-            return Err(InventoryError::TooLarge {
-                file_line: Some(MAX_INVENTORY_LINES + 1),
-            });
+    // Count the lines before indexing them, so a file of nothing but line breaks does not
+    // build a large index first. Line MAX+1 exists when anything follows the MAX-th break.
+    let mut breaks = 0;
+    for (i, &b) in bytes.iter().enumerate() {
+        if b == b'\n' || (b == b'\r' && bytes.get(i + 1) != Some(&b'\n')) {
+            breaks += 1;
+            if breaks == MAX_INVENTORY_LINES && i + 1 < bytes.len() {
+                return Err(InventoryError::TooLarge {
+                    file_line: Some(MAX_INVENTORY_LINES + 1),
+                });
+            }
         }
     }
-    let bytes = bytes.strip_prefix(BOM).unwrap_or(bytes);
-    let uncommented;
-    let bytes = match scan(bytes) {
-        Scan::Clean => bytes,
-        Scan::Uncommented(kept) => {
-            uncommented = kept;
-            &uncommented[..]
-        }
-        Scan::UnterminatedQuote(offset) => {
-            return Err(InventoryError::Csv {
-                file_line: LineIndex::new(bytes).line_of(offset),
-                message: "a quoted cell opened here is never closed (missing `\"`)".to_string(),
-            });
-        }
-    };
-    // Same line breaks as the input, so offsets in `bytes` map to the file's line numbers.
     let lines = LineIndex::new(bytes);
-
-    // `comment` is kept although `scan` already removed the comments: it is the reader's own
-    // definition of the same rule, should the two ever disagree.
-    let mut reader = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .flexible(true)
-        .comment(Some(b'#'))
-        .from_reader(bytes);
+    let from = if bytes.starts_with(BOM) { BOM.len() } else { 0 };
+    let mut records = Records::new(bytes, from);
+    let mut record = Record::default();
 
     let mut layout: Option<Layout> = None;
     let mut header_line = 1;
-    let mut errors = Vec::new();
+    let mut problems = Problems::default();
     let mut inventory = Inventory::default();
     let mut row = 0;
 
-    for result in reader.byte_records() {
-        let record = result.map_err(|error| InventoryError::Csv {
-            file_line: error
-                .position()
-                .map_or(1, |p| lines.record_line(bytes, p.byte())),
-            message: error.to_string(),
-        })?;
-        let file_line = record
-            .position()
-            .map_or(1, |p| lines.record_line(bytes, p.byte()));
-        let cells: Vec<&[u8]> = record.iter().collect();
+    loop {
+        match records.next(&mut record) {
+            Ok(true) => {}
+            Ok(false) => break,
+            Err(offset) => {
+                return Err(InventoryError::Csv {
+                    file_line: lines.line_of(offset),
+                    message: "a quoted cell opened here is never closed (missing `\"`)".to_string(),
+                });
+            }
+        }
+        let file_line = lines.line_of(record.start);
+        let cells = record.cells();
         if is_blank_or_comment(&cells) {
             continue;
         }
         match &layout {
             None => {
                 header_line = file_line;
-                layout = Some(read_header(&cells, file_line, &mut errors)?);
+                layout = Some(read_header(&cells, file_line, &mut problems)?);
             }
             Some(layout) => {
                 row += 1;
-                if let Some(line) = read_row(layout, &cells, row, file_line, &mut errors) {
+                let line = read_row(layout, &cells, row, file_line, &mut problems);
+                // Once anything is wrong the load fails: keep no lines, so a bad file of a
+                // million rows costs no more memory than a bad file of one.
+                if let (Some(line), true) = (line, problems.is_empty()) {
+                    let qty = layout.position(Column::Qty).unwrap_or(0);
+                    let (raw, _) = record.fields[qty].clone();
+                    inventory
+                        .qty_digits
+                        .push(qty_digits(bytes, raw, cells[qty]));
                     inventory.lines.push(line);
                 }
             }
@@ -606,8 +723,11 @@ pub fn parse_bytes(bytes: &[u8]) -> Result<Inventory, InventoryError> {
     if layout.is_none() {
         return Err(InventoryError::NoHeader { file_line: 1 });
     }
-    if !errors.is_empty() {
-        return Err(InventoryError::Rows(errors));
+    if !problems.is_empty() {
+        return Err(InventoryError::Rows {
+            errors: problems.listed,
+            more: problems.more,
+        });
     }
     if row == 0 {
         return Err(InventoryError::Empty { header_line });
@@ -625,7 +745,7 @@ fn is_blank_or_comment(cells: &[&[u8]]) -> bool {
 fn read_header(
     cells: &[&[u8]],
     file_line: usize,
-    errors: &mut Vec<RowError>,
+    problems: &mut Problems,
 ) -> Result<Layout, InventoryError> {
     let header: Vec<String> = cells
         .iter()
@@ -638,7 +758,7 @@ fn read_header(
         };
         match index[column as usize] {
             None => index[column as usize] = Some(i),
-            Some(first) => errors.push(RowError {
+            Some(first) => problems.add(|| RowError {
                 file_line,
                 column: column.name().to_string(),
                 found: name.clone(),
@@ -670,14 +790,14 @@ struct RowReader<'a> {
     layout: &'a Layout,
     cells: &'a [&'a [u8]],
     file_line: usize,
-    errors: &'a mut Vec<RowError>,
+    problems: &'a mut Problems,
     ok: bool,
 }
 
 impl<'a> RowReader<'a> {
     fn fail(&mut self, column: Column, found: &str, expected: impl Into<String>) {
         self.ok = false;
-        self.errors.push(RowError {
+        self.problems.add(|| RowError {
             file_line: self.file_line,
             column: column.name().to_string(),
             found: found.to_string(),
@@ -765,14 +885,14 @@ fn read_row(
     cells: &[&[u8]],
     row: usize,
     file_line: usize,
-    errors: &mut Vec<RowError>,
+    problems: &mut Problems,
 ) -> Option<Line> {
     let width = layout.header.len();
     let mut r = RowReader {
         layout,
         cells,
         file_line,
-        errors,
+        problems,
         ok: true,
     };
 
@@ -781,7 +901,7 @@ fn read_row(
     if cells.len() < width {
         r.ok = false;
         let column = &layout.header[cells.len()];
-        r.errors.push(RowError {
+        r.problems.add(|| RowError {
             file_line,
             column: column.clone(),
             found: format!("a row of {} cell(s)", cells.len()),
@@ -791,7 +911,7 @@ fn read_row(
     for (i, extra) in cells.iter().enumerate().skip(width) {
         if !extra.trim_ascii().is_empty() {
             r.ok = false;
-            r.errors.push(RowError {
+            r.problems.add(|| RowError {
                 file_line,
                 column: format!("#{}", i + 1),
                 found: String::from_utf8_lossy(extra).trim().to_string(),
@@ -980,7 +1100,7 @@ mod tests {
 
     fn row_errors(text: &str) -> Vec<RowError> {
         match Inventory::parse_str(text) {
-            Err(InventoryError::Rows(errors)) => errors,
+            Err(InventoryError::Rows { errors, .. }) => errors,
             other => panic!("expected row errors for {text:?}, got {other:?}"),
         }
     }
@@ -1316,7 +1436,7 @@ mod tests {
         let mut bytes = b"kind,value,tolerance,qty,location,extra\nr,1k,1%,1,A".to_vec();
         bytes.extend_from_slice(b"\xE9,ok\nr,1k,1%,1,B,\xFF\n");
         match Inventory::from_reader(&bytes[..]) {
-            Err(InventoryError::Rows(errors)) => {
+            Err(InventoryError::Rows { errors, .. }) => {
                 assert_eq!(places(&errors), [(2, "location")]);
                 assert_eq!(errors[0].found, "A\u{FFFD}");
             }
@@ -1370,6 +1490,62 @@ mod tests {
         assert!(errors[1].expected.contains("4k7"), "{}", errors[1]);
         assert_eq!(errors[2].found, "-3");
         assert!(errors[3].expected.contains("negative"), "{}", errors[3]);
+    }
+
+    #[test]
+    fn cr_only_line_ends_put_each_row_on_its_own_line() {
+        // Classic Mac line ends (CR alone): the csv reader ends records at CR, and so do the
+        // line numbers (they were all "line 1").
+        let text =
+            "# old Mac export\rkind,value,tolerance,qty\rr,1k,1%,1\rr,1k,x,1\r\rc,4k7,10%,3\r";
+        let errors = row_errors(text);
+        assert_eq!(places(&errors), [(4, "tolerance"), (6, "value")]);
+        let inv = load("kind,value,tolerance,qty\rr,1k,1%,1\r\n# c\rc,1n,5%,2");
+        let at: Vec<(usize, usize)> = inv.lines.iter().map(|l| (l.row, l.file_line)).collect();
+        assert_eq!(at, [(1, 2), (2, 4)], "CR, CRLF and CR again");
+    }
+
+    #[test]
+    fn problems_past_the_cap_are_counted_not_listed() {
+        // 150 rows with two bad cells each: 100 described, 200 counted.
+        let text = format!("{HEADER}{}", "x,1k,1%,y\n".repeat(150));
+        match Inventory::parse_str(&text) {
+            Err(e @ InventoryError::Rows { .. }) => {
+                let InventoryError::Rows { errors, more } = &e else {
+                    unreachable!()
+                };
+                assert_eq!((errors.len(), *more), (MAX_LISTED_PROBLEMS, 200));
+                assert_eq!(places(&errors[98..]), [(51, "kind"), (51, "qty")]);
+                let m = e.to_string();
+                assert!(m.starts_with("300 problems in the inventory:"), "{m}");
+                assert!(m.ends_with("\n  … and 200 more problems"), "{m}");
+                assert_eq!(m.lines().count(), 1 + MAX_LISTED_PROBLEMS + 1);
+            }
+            other => panic!("{other:?}"),
+        }
+        let one_more = format!("{HEADER}{}", "x,1k,1%,1\n".repeat(101));
+        let m = Inventory::parse_str(&one_more).unwrap_err().to_string();
+        assert!(m.ends_with("… and 1 more problem"), "{m}");
+    }
+
+    #[test]
+    fn qty_digits_are_located_in_the_bytes_read() {
+        // BOM, CRLF, a quoted cell with a comma and doubled quotes before the qty, padding.
+        let text = "\u{feff}kind,note,value,tolerance,qty\r\n\
+                    r,\"a, \"\"b\"\"\",1k,1%,12\r\n\
+                    r,,2k,1%,\" +7 \"\r\n\
+                    # moved\r\n\
+                    r,,3k,1%, 0\n\
+                    r,,4k,1%,\"1\"2\n";
+        let inv = load(text);
+        let digits: Vec<Option<&str>> = (1..=4)
+            .map(|row| inv.qty_digits(row).unwrap().ok().map(|r| &text[r]))
+            .collect();
+        assert_eq!(digits, [Some("12"), Some("7"), Some("0"), None]);
+        // `"1"2` reads as 12 (csv: text after the closing quote is kept) but is not edited.
+        assert_eq!(inv.lines[3].qty, 12);
+        assert_eq!(inv.qty_digits(0), None);
+        assert_eq!(inv.qty_digits(5), None);
     }
 
     #[test]
@@ -1434,7 +1610,10 @@ mod tests {
             e.to_string(),
             "line 7, column `value`: found \"10 uF\", expected a resistance"
         );
-        let all = InventoryError::Rows(vec![e.clone(), RowError { file_line: 9, ..e }]);
+        let all = InventoryError::Rows {
+            errors: vec![e.clone(), RowError { file_line: 9, ..e }],
+            more: 0,
+        };
         let text = all.to_string();
         let lines: Vec<&str> = text.lines().collect();
         assert_eq!(lines.len(), 3);
@@ -1701,6 +1880,51 @@ mod tests {
                     prop_assert!(expected.is_empty(), "{}", error);
                     prop_assert_eq!(error, InventoryError::Empty { header_line: 1 });
                 }
+            }
+        }
+
+        /// Reading field by field gives the records `csv::Reader` gives (the same engine), and
+        /// each field's recorded raw bytes, read on their own, give that field's text back.
+        #[test]
+        fn records_are_the_csv_readers_and_their_spans_exact(body in "[ab ,\"\r\n]{0,60}") {
+            let bytes = body.as_bytes();
+            let mut records = Records::new(bytes, 0);
+            let mut record = Record::default();
+            let mut ours = Vec::new();
+            let mut spans = Vec::new();
+            loop {
+                match records.next(&mut record) {
+                    Ok(true) => {}
+                    Ok(false) => break,
+                    // An open quote at the end: refused here, swallowed by csv::Reader.
+                    Err(_) => return Ok(()),
+                }
+                let cells: Vec<Vec<u8>> = record.cells().iter().map(|c| c.to_vec()).collect();
+                for ((raw, _), text) in record.fields.iter().zip(&cells) {
+                    spans.push((raw.clone(), text.clone()));
+                }
+                ours.push(cells);
+            }
+            let theirs: Vec<Vec<Vec<u8>>> = csv::ReaderBuilder::new()
+                .has_headers(false)
+                .flexible(true)
+                .from_reader(bytes)
+                .byte_records()
+                .map(|r| r.unwrap().iter().map(<[u8]>::to_vec).collect())
+                .collect();
+            prop_assert_eq!(&ours, &theirs);
+            for (raw, text) in spans {
+                let alone = &bytes[raw];
+                if alone.is_empty() {
+                    prop_assert!(text.is_empty());
+                    continue;
+                }
+                let mut reader = csv::ReaderBuilder::new()
+                    .has_headers(false)
+                    .from_reader(alone);
+                let again = reader.byte_records().next().unwrap().unwrap();
+                prop_assert_eq!(again.len(), 1);
+                prop_assert_eq!(&again[0], &text[..]);
             }
         }
 
