@@ -211,6 +211,14 @@ fn modules_form_a_one_way_graph() {
         panic!("the top-level modules form a cycle: {}", c.join(" → "));
     }
     for (folder, g) in &folders {
+        // mod.rs declares, re-exports and registers; what its files share lives in a file.
+        for (file, uses) in g {
+            assert!(
+                file == "mod" || !uses.contains("mod"),
+                "src/{folder}/{file}.rs uses an item of src/{folder}/mod.rs; move the item to a \
+                 file of its own ({uses:?})"
+            );
+        }
         if let Some(c) = cycle(g) {
             panic!("the files of src/{folder}/ form a cycle: {}", c.join(" → "));
         }

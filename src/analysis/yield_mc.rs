@@ -22,7 +22,8 @@
 //! Speed: the response is monotone below and above the passband, so "corner ≤ limit" is decided
 //! by one loss evaluation at the limit ("loss there ≤ 3.0103 dB"), not a bisection per sample.
 
-use super::{response, Bound, CAP_DERATING, RESISTOR_DERATING};
+use super::check::{Bound, CAP_DERATING, RESISTOR_DERATING};
+use super::response;
 use crate::build::{Arrangement, Build, Part, Piece};
 use crate::circuit::{common, Circuit, DcErrors, OpAmp};
 use crate::spec::Spec;

@@ -1,7 +1,7 @@
 //! Reading the files a run names: the spec and inventories, bounded in size, with the file's
 //! name in every error. `pick`, `check`, `stock` and `take` all load through here.
 
-use super::Failure;
+use super::failure::Failure;
 use anyhow::{anyhow, Context};
 use std::fs::File;
 use std::io::Read;

@@ -1,7 +1,10 @@
 //! Command-line front end: clap arguments → a validated request → the library → output.
-//! All file reading, printing, progress bars and exit codes live here.
+//! All file reading, printing, progress bars and exit codes live here. This file only
+//! declares and dispatches; the files depend on each other one way (failure → args, files,
+//! output, progress → run → take).
 
 mod args;
+mod failure;
 mod files;
 mod output;
 mod progress;
@@ -9,36 +12,9 @@ mod run;
 mod take;
 
 pub use args::Arguments;
+use failure::{EXIT_BAD_INPUT, EXIT_OK};
 
 use clap::Parser;
-
-/// Exit codes (README, "Exit codes").
-pub const EXIT_OK: i32 = 0;
-pub const EXIT_NO_BUILD: i32 = 1;
-pub const EXIT_BAD_INPUT: i32 = 2;
-
-/// An error that ends the run with an exit code. Messages are complete sentences naming what
-/// to change.
-#[derive(Debug)]
-pub struct Failure {
-    pub code: i32,
-    pub error: anyhow::Error,
-}
-
-impl Failure {
-    pub fn input(error: impl Into<anyhow::Error>) -> Failure {
-        Failure {
-            code: EXIT_BAD_INPUT,
-            error: error.into(),
-        }
-    }
-}
-
-impl<E: Into<anyhow::Error>> From<E> for Failure {
-    fn from(e: E) -> Failure {
-        Failure::input(e)
-    }
-}
 
 pub fn main() -> i32 {
     let args = match Arguments::try_parse() {
@@ -53,7 +29,11 @@ pub fn main() -> i32 {
             };
         }
     };
-    match run::run(args) {
+    let result = match args.command {
+        args::Command::Take(t) => take::take(&t),
+        command => run::run(command),
+    };
+    match result {
         Ok(code) => code,
         Err(f) => {
             eprintln!("error: {:#}", f.error);

@@ -3,7 +3,7 @@
 //! meets the spec, which were not written.
 
 use super::args::Output;
-use super::Failure;
+use super::failure::Failure;
 use anyhow::Context;
 use std::io::Write;
 use std::path::PathBuf;

@@ -1,10 +1,10 @@
 //! What each subcommand does: read files, call the library (`stockfit::pick`), print, write.
 
-use super::args::{Arguments, Command, Output};
+use super::args::{Command, Output};
+use super::failure::{Failure, EXIT_NO_BUILD, EXIT_OK};
 use super::files::{load_inventory, load_spec};
 use super::output::{self, Builds};
 use super::progress::Bar;
-use super::{Failure, EXIT_NO_BUILD, EXIT_OK};
 use anyhow::{anyhow, Context};
 use std::io::IsTerminal;
 use std::io::Write;
@@ -33,8 +33,9 @@ macro_rules! say_raw {
 /// The built-in example for `stockfit demo`.
 pub const DEMO_SPEC: &str = include_str!("../../examples/hydrophone-preamp-9v.toml");
 
-pub fn run(args: Arguments) -> Result<i32, Failure> {
-    match args.command {
+/// Every subcommand but `take`.
+pub fn run(command: Command) -> Result<i32, Failure> {
+    match command {
         Command::Pick {
             spec,
             stock,
@@ -64,7 +65,7 @@ pub fn run(args: Arguments) -> Result<i32, Failure> {
         }
         Command::Series { name, from, to } => series(&name, &from, &to),
         Command::Stock { file } => stock_summary(&file),
-        Command::Take(args) => super::take::take(&args),
+        Command::Take(_) => unreachable!("`take` is dispatched to take.rs"),
     }
 }
 

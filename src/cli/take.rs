@@ -3,9 +3,9 @@
 //! always either the old list or the new one, never a partial write.
 
 use super::args::TakeArgs;
+use super::failure::{Failure, EXIT_BAD_INPUT, EXIT_NO_BUILD, EXIT_OK};
 use super::files::{load_spec, read_bounded};
 use super::run::{in_spec, split_entries};
-use super::{Failure, EXIT_BAD_INPUT, EXIT_NO_BUILD, EXIT_OK};
 use anyhow::{anyhow, Context};
 use std::fs::{self, File, OpenOptions};
 use std::io::{self, Write};

@@ -1,7 +1,7 @@
 //! The capacitance goal: points per decade of capacitance (log10 of C in pF) of each
 //! capacitor piece — one decade smaller is one unit cheaper and smaller (common practice).
 
-use super::{Scope, Term};
+use super::term::{Scope, Term};
 use crate::build::Piece;
 use crate::spec::Spec;
 use crate::vocab::{Goal, PartKind};

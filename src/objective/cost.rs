@@ -1,7 +1,7 @@
 //! The cost goal: points per unit of currency of the pieces taken from stock, where the
 //! inventory gives a `unit_cost`.
 
-use super::{Scope, Term};
+use super::term::{Scope, Term};
 use crate::build::Piece;
 use crate::spec::Spec;
 use crate::vocab::{Goal, PartKind};

@@ -1,6 +1,6 @@
 //! The gain-error goal: points per 1 % of nominal gain error, |G − G_t|/|G_t|.
 
-use super::{Figures, Scope, Term};
+use super::term::{Figures, Scope, Term};
 use crate::interval::Iv;
 use crate::spec::Spec;
 use crate::vocab::Goal;

@@ -1,7 +1,7 @@
 //! The stock-line goal: points per distinct line (an inventory row, or a series value) the
 //! build takes parts from — fewer reels and drawers to fetch (common practice).
 
-use super::{Scope, Term};
+use super::term::{Scope, Term};
 use crate::spec::Spec;
 use crate::vocab::Goal;
 

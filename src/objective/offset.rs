@@ -2,7 +2,7 @@
 //! (`Figures::offset`; for the single-supply stages the bias point off its target plus the
 //! bias and offset currents through the input resistances, `circuit::common::offset_error`).
 
-use super::{Figures, Scope, Term};
+use super::term::{Figures, Scope, Term};
 use crate::interval::Iv;
 use crate::spec::Spec;
 use crate::vocab::Goal;

@@ -1,6 +1,6 @@
 //! The part-count goal: points per piece (a pair of pieces is two).
 
-use super::{Scope, Term};
+use super::term::{Scope, Term};
 use crate::build::Piece;
 use crate::spec::Spec;
 use crate::vocab::{Goal, PartKind};

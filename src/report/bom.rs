@@ -8,8 +8,8 @@
 //! quote, as the OWASP "CSV Injection" guidance advises, so that a note typed into an inventory
 //! cannot run as a formula when the BOM is opened in a spreadsheet.
 
+use super::common::RenderError;
 use super::designators;
-use super::RenderError;
 use crate::build::{Build, LineKey, Piece};
 use crate::circuit::Circuit;
 use crate::stock::inventory::Line;

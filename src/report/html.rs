@@ -6,7 +6,8 @@
 //! Every text that comes from the user's files (inventory notes and locations, dielectric
 //! names) is HTML-escaped (`report::escape`).
 
-use super::{bom, escape, plot, schematic, table, RenderError};
+use super::common::{escape, RenderError};
+use super::{bom, plot, schematic, table};
 use crate::analysis::{Bound, Check};
 use crate::circuit::Circuit;
 use crate::search::Ranked;

@@ -1,6 +1,10 @@
 //! Reports: the terminal table, JSON, the SPICE netlist, the frequency-response plot, the
 //! schematic, the BOM and the one-page HTML report. Each returns a string; the binary writes it.
+//!
+//! This file only declares and re-exports; what the reports share is in `common.rs`.
+
 pub mod bom;
+pub mod common;
 pub mod designators;
 pub mod html;
 pub mod json;
@@ -9,41 +13,4 @@ pub mod schematic;
 pub mod spice;
 pub mod table;
 
-/// A report that could not be drawn or written out. The string-building reports never fail;
-/// these wrap the libraries behind the plot and the CSV, whose writers into memory report
-/// errors they do not expect to have.
-#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
-pub enum RenderError {
-    #[error("could not draw the frequency-response plot: {0}")]
-    Plot(String),
-    #[error("could not write the BOM as CSV: {0}")]
-    Csv(String),
-}
-
-/// Text for HTML and SVG: the five XML character escapes, so that text from a user's files
-/// (inventory notes, locations) is shown as text and never read as markup.
-pub fn escape(text: &str) -> String {
-    let mut out = String::with_capacity(text.len());
-    for c in text.chars() {
-        match c {
-            '&' => out.push_str("&amp;"),
-            '<' => out.push_str("&lt;"),
-            '>' => out.push_str("&gt;"),
-            '"' => out.push_str("&quot;"),
-            '\'' => out.push_str("&#39;"),
-            c => out.push(c),
-        }
-    }
-    out
-}
-
-#[cfg(test)]
-mod tests {
-    #[test]
-    fn escape_markup() {
-        assert_eq!(
-            super::escape("<a href=\"x\">&'</a>"),
-            "&lt;a href=&quot;x&quot;&gt;&amp;&#39;&lt;/a&gt;"
-        );
-    }
-}
+pub use common::{escape, RenderError};

@@ -6,7 +6,7 @@
 //! analysis judges; the envelope is the pointwise min and max over the corners of the tolerance
 //! box (`circuit::common::vertices`, the extreme-value rule of the analysis).
 
-use super::RenderError;
+use super::common::RenderError;
 use crate::analysis::Evaluation;
 use crate::build::{Build, Part};
 use crate::circuit::{common, Circuit, OpAmp};

@@ -9,8 +9,8 @@
 //! netlist and the BOM (`report::designators`). Hand-written SVG: plain lines, rectangles and
 //! `<text>`, no fonts or scripts, so that it renders the same in a browser and in an image tool.
 
+use super::common::escape;
 use super::designators::{self, OPAMP};
-use super::escape;
 use crate::analysis::Evaluation;
 use crate::build::{Arrangement, Build, Part};
 use crate::circuit::layout::{Layout, Placed, Side, P};

@@ -1,7 +1,7 @@
 //! Brute force: every combination of every slot's candidates, each judged by the exact
 //! analysis. The truth the fast search is tested against, on small stocks only.
 
-use super::{slot_candidates, Outcome, Ranked, Request, SearchError, Stats, TopN};
+use super::request::{slot_candidates, Outcome, Ranked, Request, SearchError, Stats, TopN};
 use crate::analysis;
 use crate::build::{Build, Part};
 use std::convert::Infallible;

@@ -6,7 +6,8 @@
 //! monotone in each limit). The nearest build — the best one with every requirement dropped,
 //! judged against the real spec — shows what else fails.
 
-use super::{search, Ranked, Request, SearchError};
+use super::dfs::search;
+use super::request::{Ranked, Request, SearchError};
 use crate::analysis::{self, Check};
 use crate::build::{Build, Part};
 use crate::spec::Spec;

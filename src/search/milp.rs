@@ -20,7 +20,9 @@
 //! the model than in the exact analysis; a property test (`tests/milp.rs`) compares the top N
 //! with the walk search.
 
-use super::{slot_candidates, Outcome, Progress, Ranked, Request, SearchError, Stats, TopN};
+use super::request::{
+    slot_candidates, Outcome, Progress, Ranked, Request, SearchError, Stats, TopN,
+};
 use crate::analysis;
 use crate::build::{Build, LineKey, Part, SlotValue};
 use crate::circuit::LogModel;

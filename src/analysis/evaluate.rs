@@ -1,0 +1,594 @@
+//! Exact analysis of one build: frequency response, DC point and offsets, worst case, the
+//! checks, and the score the search ranks by (the objective's terms).
+//!
+//! Worst case follows the usual extreme-value rule: every part is put at each end of its
+//! tolerance (all 2^n corners of the tolerance box) and each figure takes its worst corner;
+//! the op-amp's bias current, offset current and offset voltage take both signs.
+
+use super::check::{Bound, Check, CAP_DERATING, RESISTOR_DERATING};
+use super::{budget, noise, response, yield_mc};
+use crate::build::{Build, Part};
+use crate::circuit::{common, Circuit, DcErrors, OpAmp};
+use crate::spec::Spec;
+use crate::stock::Stock;
+use crate::value::Unit;
+use crate::vocab::PartKind;
+use serde::Serialize;
+
+/// One coupling network's corner, nominal and worst.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct NetworkReport {
+    pub name: String,
+    pub cap_slot: String,
+    pub resistance: f64,
+    pub corner_hz: f64,
+    pub corner_worst_hz: f64,
+}
+
+/// DC across one capacitor.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CapReport {
+    pub slot: String,
+    pub volts: f64,
+    pub volts_min: f64,
+    pub volts_max: f64,
+    /// Node the + lead goes to (for a polarised part), by the nominal bias.
+    pub positive_side: String,
+    pub negative_side: String,
+    pub polarized: bool,
+    pub rating: Option<f64>,
+    /// Smallest rating that meets the derating: |V|max / 0.8.
+    pub rating_needed: f64,
+}
+
+/// Power in one resistor.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PowerReport {
+    pub slot: String,
+    pub watts: f64,
+    pub rating: Option<f64>,
+}
+
+/// The figures of one build. Nominal unless the name says otherwise.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Metrics {
+    pub gain: f64,
+    /// |gain − target| / |target|.
+    pub gain_error: f64,
+    /// Worst-case range of the mid-band gain (signed).
+    pub gain_min: f64,
+    pub gain_max: f64,
+    pub input_resistance: f64,
+    pub input_resistance_worst: f64,
+    /// Exact −3 dB low corner of the whole response.
+    pub low_corner_hz: Option<f64>,
+    pub low_corner_worst_hz: Option<f64>,
+    pub band_low_loss_db: f64,
+    pub band_low_loss_worst_db: f64,
+    /// Exact −3 dB high corner (finite GBW), `None` with an ideal amplifier.
+    pub high_corner_hz: Option<f64>,
+    pub high_corner_worst_hz: Option<f64>,
+    /// GBW / noise gain, the single-pole estimate.
+    pub high_corner_estimate_hz: Option<f64>,
+    pub band_high_loss_db: f64,
+    pub band_high_loss_worst_db: f64,
+    pub noise_gain: f64,
+    /// Nominal DC output: divider and nominal bias current, no offset voltage.
+    pub output_dc_v: f64,
+    pub output_dc_min_v: f64,
+    pub output_dc_max_v: f64,
+    /// Nominal output DC error the `offset` goal counts.
+    pub offset_error_v: f64,
+    /// Worst-case output peak the headroom allows around the bias point.
+    pub swing_peak_v: f64,
+    /// Worst-case input peak: swing / |gain|max.
+    pub input_range_peak_v: f64,
+    pub divider_current_a: f64,
+    /// Highest divider current over the tolerance corners.
+    pub divider_current_worst_a: f64,
+    pub part_count: usize,
+    pub bom_lines: usize,
+    pub cost: Option<f64>,
+    pub networks: Vec<NetworkReport>,
+}
+
+/// Everything known about one build.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Evaluation {
+    pub metrics: Metrics,
+    pub checks: Vec<Check>,
+    pub caps: Vec<CapReport>,
+    pub power: Vec<PowerReport>,
+    /// The ranking objective (lower is better).
+    pub score: f64,
+    pub pass: bool,
+    /// Monte Carlo yield, for the builds that are reported (see [`complete`]).
+    #[serde(rename = "yield", skip_serializing_if = "Option::is_none")]
+    pub yield_report: Option<yield_mc::YieldReport>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub noise: Option<noise::NoiseReport>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub dc_budget: Option<budget::DcBudget>,
+}
+
+/// Add what is too slow for every candidate but wanted for a reported build: noise over the
+/// band, the output DC budget by cause, and (with options) the Monte Carlo yield.
+pub fn complete(
+    spec: &Spec,
+    stage: &dyn Circuit,
+    build: &Build,
+    evaluation: &mut Evaluation,
+    yield_options: Option<&yield_mc::YieldOptions>,
+) {
+    let a = &spec.amplifier;
+    let inputs = noise::NoiseInputs::new(
+        a.noise_voltage.unwrap_or(0.0),
+        a.noise_current.unwrap_or(0.0),
+    );
+    evaluation.noise = Some(noise::noise(&inputs, stage, spec, &build.values()));
+    evaluation.dc_budget = Some(budget::dc_budget(spec, stage, build));
+    evaluation.yield_report = yield_options
+        .filter(|o| o.samples > 0)
+        .map(|o| yield_mc::monte_carlo(spec, stage, build, o));
+}
+
+/// Generic per-slot share of the objective: pieces, capacitance and cost.
+pub fn slot_points(spec: &Spec, part: &Part) -> f64 {
+    pieces_points(
+        spec,
+        part.kind,
+        &part.pieces[0],
+        part.pieces.get(1),
+        part.locked,
+    )
+}
+
+/// [`slot_points`] of a realisation given by its pieces (one, or two), so that the search can
+/// score a realisation without building its [`Part`]: the objective's part terms
+/// (`objective::part_points`), one function for both, so the figures agree to the last bit.
+pub fn pieces_points(
+    spec: &Spec,
+    kind: PartKind,
+    a: &crate::build::Piece,
+    b: Option<&crate::build::Piece>,
+    locked: bool,
+) -> f64 {
+    crate::objective::part_points(spec, kind, a, b, locked)
+}
+
+/// The ranking objective of a build (README, "Goals"): every term of `objective::TERMS`.
+pub fn score(spec: &Spec, stage: &dyn Circuit, build: &Build) -> f64 {
+    let v = build.values();
+    crate::objective::circuit_points(spec, &stage.figures(spec, &v))
+        + build
+            .parts
+            .iter()
+            .map(|p| slot_points(spec, p))
+            .sum::<f64>()
+        + crate::objective::line_points(spec, build.bom_lines())
+}
+
+fn fold_range(it: impl Iterator<Item = f64>) -> (f64, f64) {
+    it.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), x| {
+        (lo.min(x), hi.max(x))
+    })
+}
+
+/// Analyse a build exactly. `stock`, when given, adds the quantity check.
+pub fn evaluate(
+    spec: &Spec,
+    stage: &dyn Circuit,
+    build: &Build,
+    stock: Option<&Stock>,
+) -> Evaluation {
+    let slots = stage.slots();
+    let parts: Vec<&Part> = build.parts.iter().collect();
+    let v = build.values();
+    let opamp = OpAmp::of(spec);
+    let vertices = common::vertices(spec, &parts);
+    let (f_lo, f_hi) = spec.band;
+
+    // Frequency-domain figures at nominal and over every corner.
+    let gain = stage.mid_gain(spec, &v);
+    let (gain_min, gain_max) = fold_range(vertices.iter().map(|x| stage.mid_gain(spec, x)));
+    let gain_mag_max = gain_min.abs().max(gain_max.abs());
+    let rin = stage.input_resistance(spec, &v);
+    let rin_worst = vertices
+        .iter()
+        .map(|x| stage.input_resistance(spec, x))
+        .fold(f64::INFINITY, f64::min);
+    let low = response::low_corner(stage, spec, &v, &opamp);
+    let high = response::high_corner(stage, spec, &v, &opamp);
+    let low_worst = response::worst_low_corner(stage, spec, &vertices, &opamp, low);
+    let high_worst = if opamp.gbw.is_some() {
+        response::worst_high_corner(stage, spec, &vertices, &opamp, high)
+    } else {
+        None
+    };
+    let loss_at = |x: &[f64], f: f64| response::loss_db(stage, spec, x, &opamp, f);
+    let low_loss = loss_at(&v, f_lo);
+    let low_loss_worst = vertices
+        .iter()
+        .map(|x| loss_at(x, f_lo))
+        .fold(f64::NEG_INFINITY, f64::max);
+    let high_loss = loss_at(&v, f_hi);
+    let high_loss_worst = vertices
+        .iter()
+        .map(|x| loss_at(x, f_hi))
+        .fold(f64::NEG_INFINITY, f64::max);
+    let noise_gain = stage.noise_gain(spec, &v);
+
+    let networks: Vec<NetworkReport> = stage
+        .networks(spec, &v)
+        .iter()
+        .enumerate()
+        .map(|(i, n)| NetworkReport {
+            name: n.name.to_string(),
+            cap_slot: slots[n.cap_slot].name.to_string(),
+            resistance: n.resistance,
+            corner_hz: n.corner(),
+            corner_worst_hz: vertices
+                .iter()
+                .map(|x| stage.networks(spec, x)[i].corner())
+                .fold(f64::NEG_INFINITY, f64::max),
+        })
+        .collect();
+
+    // DC: nominal, and every tolerance corner with every sign of the op-amp errors.
+    let nominal_errors = DcErrors::nominal(spec);
+    let dc = stage.dc(spec, &v, &nominal_errors);
+    let error_corners = if spec.worst_case() {
+        DcErrors::corners(spec)
+    } else {
+        vec![nominal_errors]
+    };
+    // Capacitors are open at DC: only the resistors' tolerances move the DC point.
+    let dc_vertices = common::vertices_where(spec, &parts, |p| p.kind == PartKind::Resistor);
+    let dc_points: Vec<_> = dc_vertices
+        .iter()
+        .flat_map(|x| error_corners.iter().map(move |e| (x, stage.dc(spec, x, e))))
+        .collect();
+    let (dc_min, dc_max) = fold_range(dc_points.iter().map(|(_, p)| p.v_out));
+    let swing = common::swing(spec, dc_min, dc_max);
+    let input_range = swing / gain_mag_max;
+
+    // Capacitor DC, nominal and over the corners.
+    let nominal_bias = stage.cap_bias(spec, &v, &dc);
+    let caps: Vec<CapReport> = nominal_bias
+        .iter()
+        .enumerate()
+        .map(|(i, b)| {
+            let (lo, hi) = fold_range(
+                dc_points
+                    .iter()
+                    .map(|(x, p)| stage.cap_bias(spec, x, p)[i].volts),
+            );
+            let part = &build.parts[b.slot];
+            let (pos, neg) = if b.volts >= 0.0 {
+                (b.a_node, b.b_node)
+            } else {
+                (b.b_node, b.a_node)
+            };
+            CapReport {
+                slot: slots[b.slot].name.to_string(),
+                volts: b.volts,
+                volts_min: lo,
+                volts_max: hi,
+                positive_side: pos.to_string(),
+                negative_side: neg.to_string(),
+                polarized: part.polarized(),
+                rating: part.voltage_rating(),
+                rating_needed: lo.abs().max(hi.abs()) / CAP_DERATING,
+            }
+        })
+        .collect();
+
+    let out_peak = spec.required_output_peak().unwrap_or(swing.max(0.0));
+    let power: Vec<PowerReport> = stage
+        .resistor_power(spec, &v, &dc, out_peak)
+        .into_iter()
+        .map(|(slot, watts)| PowerReport {
+            slot: slots[slot].name.to_string(),
+            watts,
+            rating: power_rating(&build.parts[slot]),
+        })
+        .collect();
+
+    let metrics = Metrics {
+        gain,
+        gain_error: crate::objective::gain::error(spec, gain),
+        gain_min,
+        gain_max,
+        input_resistance: rin,
+        input_resistance_worst: rin_worst,
+        low_corner_hz: low,
+        low_corner_worst_hz: low_worst,
+        band_low_loss_db: low_loss,
+        band_low_loss_worst_db: low_loss_worst,
+        high_corner_hz: high,
+        high_corner_worst_hz: high_worst,
+        high_corner_estimate_hz: spec.amplifier.gbw.map(|g| g / noise_gain),
+        band_high_loss_db: high_loss,
+        band_high_loss_worst_db: high_loss_worst,
+        noise_gain,
+        output_dc_v: dc.v_out,
+        output_dc_min_v: dc_min,
+        output_dc_max_v: dc_max,
+        offset_error_v: stage.offset_error(spec, &v),
+        swing_peak_v: swing,
+        input_range_peak_v: input_range,
+        divider_current_a: dc.divider_current,
+        divider_current_worst_a: dc_points
+            .iter()
+            .map(|(_, p)| p.divider_current)
+            .fold(0.0, f64::max),
+        part_count: build.piece_count(),
+        bom_lines: build.bom_lines(),
+        cost: build.cost(),
+        networks,
+    };
+    let checks = checks(spec, &metrics, &caps, &power, stock.map(|s| s.fits(&parts)));
+    let pass = checks.iter().all(|c| c.pass);
+    Evaluation {
+        score: score(spec, stage, build),
+        metrics,
+        checks,
+        caps,
+        power,
+        pass,
+        yield_report: None,
+        noise: None,
+        dc_budget: None,
+    }
+}
+
+/// Power rating of a realisation: the weakest piece scaled by its share (series pieces carry
+/// the same current, P_i = P·R_i/R; parallel pieces the same voltage, P_i = P·R/R_i).
+fn power_rating(part: &Part) -> Option<f64> {
+    let ratings: Option<Vec<f64>> = part.pieces.iter().map(|p| p.power).collect();
+    let ratings = ratings?;
+    let share = |r: f64| match part.arrangement {
+        crate::build::Arrangement::Single => 1.0,
+        crate::build::Arrangement::Series => r / part.value,
+        crate::build::Arrangement::Parallel => part.value / r,
+    };
+    part.pieces
+        .iter()
+        .zip(ratings)
+        .map(|(p, rating)| rating / share(p.value))
+        .reduce(f64::min)
+}
+
+fn checks(
+    spec: &Spec,
+    m: &Metrics,
+    caps: &[CapReport],
+    power: &[PowerReport],
+    fits: Option<bool>,
+) -> Vec<Check> {
+    let worst = if spec.worst_case() {
+        "worst-case"
+    } else {
+        "nominal"
+    };
+    let mut out = Vec::new();
+    if let Some(min) = spec.input_resistance_min {
+        out.push(Check::new(
+            "input_resistance",
+            format!("{worst} input resistance"),
+            m.input_resistance_worst,
+            Bound::Min,
+            min,
+            Unit::Ohm,
+        ));
+    }
+    if let Some(t) = spec.gain_tolerance {
+        let target = spec.gain.abs();
+        let (lo, hi) = (
+            m.gain_min.abs().min(m.gain_max.abs()),
+            m.gain_min.abs().max(m.gain_max.abs()),
+        );
+        out.push(Check::new(
+            "gain_low",
+            format!("{worst} lowest |gain|"),
+            lo,
+            Bound::Min,
+            target * (1.0 - t),
+            Unit::Percent,
+        ));
+        out.push(Check::new(
+            "gain_high",
+            format!("{worst} highest |gain|"),
+            hi,
+            Bound::Max,
+            target * (1.0 + t),
+            Unit::Percent,
+        ));
+    }
+    if let Some(max) = spec.corner_low_max {
+        for n in &m.networks {
+            out.push(Check::new(
+                &format!("corner_{}", n.cap_slot),
+                format!("{worst} corner of the {} network ({})", n.name, n.cap_slot),
+                n.corner_worst_hz,
+                Bound::Max,
+                max,
+                Unit::Hertz,
+            ));
+        }
+    }
+    if let Some(max) = spec.band_loss_max {
+        out.push(Check::new(
+            "band_low_loss",
+            format!("{worst} loss at the band's low edge"),
+            m.band_low_loss_worst_db,
+            Bound::Max,
+            max,
+            Unit::Decibel,
+        ));
+        if spec.amplifier.gbw.is_some() {
+            out.push(Check::new(
+                "band_high_loss",
+                format!("{worst} loss at the band's high edge (GBW)"),
+                m.band_high_loss_worst_db,
+                Bound::Max,
+                max,
+                Unit::Decibel,
+            ));
+        }
+    } else if spec.amplifier.gbw.is_some() {
+        // Without a loss budget the band must at least lie inside the −3 dB corners.
+        out.push(Check::new(
+            "high_corner",
+            format!("{worst} high corner"),
+            m.high_corner_worst_hz.unwrap_or(f64::INFINITY),
+            Bound::Min,
+            spec.band.1,
+            Unit::Hertz,
+        ));
+    }
+    if spec.band_loss_max.is_none() && spec.corner_low_max.is_none() {
+        out.push(Check::new(
+            "low_corner",
+            format!("{worst} low corner"),
+            m.low_corner_worst_hz.unwrap_or(f64::NAN),
+            Bound::Max,
+            spec.band.0,
+            Unit::Hertz,
+        ));
+    }
+    match (spec.output_peak, spec.input_peak) {
+        (_, Some(inp)) => out.push(Check::new(
+            "input_range",
+            format!("{worst} input peak before clipping"),
+            m.input_range_peak_v,
+            Bound::Min,
+            inp,
+            Unit::Volt,
+        )),
+        (Some(outp), None) => out.push(Check::new(
+            "output_swing",
+            format!("{worst} output peak before clipping"),
+            m.swing_peak_v,
+            Bound::Min,
+            outp,
+            Unit::Volt,
+        )),
+        (None, None) => out.push(Check::new(
+            "output_swing",
+            format!("{worst} output peak before clipping"),
+            m.swing_peak_v,
+            Bound::Min,
+            0.0,
+            Unit::Volt,
+        )),
+    }
+    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
+        // Full-power bandwidth SR / (2π V_peak) must reach the band's top (any op-amp text).
+        out.push(Check::new(
+            "slew_rate",
+            "full-power bandwidth at the required peak".into(),
+            sr / (2.0 * std::f64::consts::PI * peak),
+            Bound::Min,
+            spec.band.1,
+            Unit::Hertz,
+        ));
+    }
+    for c in caps {
+        if let Some(rating) = c.rating {
+            out.push(Check::new(
+                &format!("rating_{}", c.slot),
+                format!("{} voltage rating vs {worst} DC / 0.8", c.slot),
+                rating,
+                Bound::Min,
+                c.rating_needed,
+                Unit::Volt,
+            ));
+        }
+        if c.polarized {
+            // A polarised part needs one sign of DC across it at every corner.
+            let least = if c.volts >= 0.0 {
+                c.volts_min
+            } else {
+                -c.volts_max
+            };
+            out.push(Check::new(
+                &format!("polarity_{}", c.slot),
+                format!("{} forward bias, + to {}", c.slot, c.positive_side),
+                least,
+                Bound::Min,
+                0.0,
+                Unit::Volt,
+            ));
+        }
+    }
+    for p in power {
+        if let Some(rating) = p.rating {
+            out.push(Check::new(
+                &format!("power_{}", p.slot),
+                format!("{} power vs 50 % of its rating", p.slot),
+                p.watts,
+                Bound::Max,
+                rating * RESISTOR_DERATING,
+                Unit::Watt,
+            ));
+        }
+    }
+    if let Some(max) = spec.bias_current_max {
+        out.push(Check::new(
+            "divider_current",
+            format!("{worst} bias divider current"),
+            m.divider_current_worst_a,
+            Bound::Max,
+            max,
+            Unit::Ampere,
+        ));
+    }
+    if let Some(fits) = fits {
+        out.push(Check::new(
+            "quantity",
+            "pieces on hand for every line".into(),
+            if fits { 1.0 } else { 0.0 },
+            Bound::Min,
+            1.0,
+            Unit::Percent,
+        ));
+    }
+    out
+}
+
+#[cfg(test)]
+mod divider_current_tests {
+    use super::*;
+    use crate::build::Piece;
+
+    #[test]
+    fn divider_current_is_checked_against_its_limit() {
+        // Ohm's law (common practice): 9 V across 10 k + 10 k draws 450 µA; across
+        // 1 M + 1 M, 4.5 µA. With 1 % parts the worst case is 9 V / (2 · 9.9 kΩ).
+        let spec = Spec::from_toml(
+            "[stage]\nkind = \"inverting\"\nsupply = 9\ngain = -10\nload = 10000\nband = [20, 20000]\nbias_current_max = \"100 uA\"\n",
+        )
+        .unwrap();
+        let stage = crate::circuit::circuit_for(spec.stage);
+        let r = |v: f64| Part::single(PartKind::Resistor, Piece::plain(v, 0.01));
+        let c = |v: f64| Part::single(PartKind::Capacitor, Piece::plain(v, 0.1));
+        let judge = |div: f64| {
+            let build = Build {
+                parts: vec![r(10e3), r(100e3), r(div), r(div), c(10e-6), c(10e-6)],
+            };
+            let e = evaluate(&spec, stage, &build, None);
+            let check = e
+                .checks
+                .iter()
+                .find(|c| c.name == "divider_current")
+                .cloned()
+                .unwrap();
+            (e.metrics.divider_current_worst_a, check.pass)
+        };
+        let (i, pass) = judge(10e3);
+        assert!((i - 9.0 / 19.8e3).abs() < 1e-12);
+        assert!(!pass);
+        assert!(judge(1e6).1);
+    }
+}

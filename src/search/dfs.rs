@@ -1,0 +1,608 @@
+//! The walk engine's search: a depth-first branch and bound over the plan's groups, one slot
+//! at a time, each slot's candidates read lazily in order of a lower bound of what they add,
+//! every complete build judged by the exact analysis.
+//!
+//! The objective is a sum of shares: each slot's own points (pieces, capacitance, cost), the
+//! stock lines each slot adds to the build, and each group's circuit terms (gain error,
+//! offset) once the group is complete. A slot's walk (`walk.rs`) starts at the value the plan
+//! asks for given the parts chosen so far (`SearchPlan::walk`) and goes outward; a node is cut
+//! once `score so far + its bound + a bound of the slots still open` reaches the N-th best
+//! build found, and the walk stops at the first candidate whose bound does. Plan filters are
+//! relaxations, and every build that reaches the end is judged by `analysis::evaluate`: the
+//! result is the exact top N (`tests/exact.rs` compares it with brute force).
+
+use super::generic;
+use super::request::{
+    kind_index, no_candidates, too_many, Outcome, Progress, Ranked, Request, SearchError, Stats,
+    TopN,
+};
+use super::table::{Real, Table};
+use super::walk::Walk;
+use crate::analysis;
+use crate::build::{Build, LineKey, Part, SlotValue};
+use crate::circuit::{SearchPlan, WalkPlan};
+use crate::vocab::{Combine, PartKind};
+
+/// Rounds of the rising cut before the last, uncut one.
+const ROUNDS: usize = 8;
+/// The first round's cut above the root's bound, in points (half a stock line at the default
+/// weights); it doubles each round.
+const FIRST_GAP: f64 = 0.05;
+
+/// One step of the depth-first search: one slot of one group.
+#[derive(Debug, Clone, Copy)]
+struct Level {
+    slot: usize,
+    group: usize,
+    /// Position in the group.
+    k: usize,
+    /// The group is complete after this slot: its share is known.
+    last: bool,
+    /// The slot's group has this slot alone (a look-ahead bound from its plan is cheap).
+    alone: bool,
+}
+
+/// A line in the build: pieces of it in all, pieces of it taken from stock (locked parts
+/// take none), and its piece in the kind's table when it has one.
+#[derive(Debug, Clone, Copy)]
+struct LineUse {
+    key: LineKey,
+    kind: usize,
+    all: u32,
+    stock: u32,
+    piece: Option<u32>,
+}
+
+struct Dfs<'a> {
+    req: &'a Request<'a>,
+    /// The plan the walks follow: the circuit's own or the generic one.
+    plan: &'a dyn SearchPlan,
+    tables: [Option<&'a Table>; 2],
+    levels: Vec<Level>,
+    locked: Vec<Option<&'a Part>>,
+    /// What the stage sees: locked parts from the start, chosen parts as they are chosen.
+    vals: Vec<Option<SlotValue>>,
+    chosen: Vec<Option<Real>>,
+    lines: Vec<LineUse>,
+    /// Per kind: lines in the build, and the table pieces of those lines.
+    kind_lines: [u32; 2],
+    used: [Vec<u32>; 2],
+    /// Per level: least slot points of the levels from here on (0 for locked slots, which
+    /// are counted up front).
+    rest_static: Vec<f64>,
+    /// Per level: which kinds the unlocked levels from here on have (bit per kind).
+    rest_kinds: Vec<u8>,
+    top: TopN,
+    /// The current round's cut: nodes whose bound reaches it wait for a later round.
+    cut: f64,
+    /// Some node was cut by `cut` alone (not by the N-th best build): the round did not see
+    /// everything.
+    cut_hit: bool,
+    stats: Stats,
+    progress: &'a mut dyn FnMut(Progress),
+    /// The search over the whole stock (not the single-piece seed): it reports progress.
+    whole: bool,
+    /// Per level: where `Walk::floor` last found each fresh run's start.
+    hints: Vec<Vec<usize>>,
+}
+
+/// Run the exact search. `progress` is called now and then with how far the first walk is.
+pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
+    let spec = req.spec;
+    let stage = req.stage;
+    let slots = stage.slots();
+    let n = slots.len();
+    let mut locked: Vec<Option<&Part>> = vec![None; n];
+    for (slot, part) in req.locks {
+        if *slot < n {
+            locked[*slot] = Some(part);
+        }
+    }
+    // A table per kind that an unlocked slot needs; the first empty one (in slot order, as
+    // `slot_candidates` reports it) is an error.
+    let mut owned: [Option<Table>; 2] = [None, None];
+    for (i, def) in slots.iter().enumerate() {
+        if locked[i].is_some() {
+            continue;
+        }
+        let k = kind_index(def.kind);
+        if owned[k].is_none() {
+            too_many(req, def.kind)?;
+        }
+        let table = owned[k].get_or_insert_with(|| Table::new(spec, req.stock, def.kind));
+        if table.reals.is_empty() {
+            return Err(no_candidates(req, i));
+        }
+    }
+    // The circuit's own plan, or the generic one over the candidates' ranges.
+    let generic;
+    let plan: &dyn SearchPlan = match req.own_plan() {
+        Some(p) => p,
+        None => {
+            let ranges = (0..n)
+                .map(|i| match locked[i] {
+                    Some(p) => generic::SlotRange::of([p.slot_value()]),
+                    None => owned[kind_index(slots[i].kind)].as_ref().and_then(|t| {
+                        generic::SlotRange::of(t.reals.iter().map(|r| t.slot_value(r)))
+                    }),
+                })
+                .collect::<Option<Vec<_>>>()
+                .ok_or_else(|| no_candidates(req, 0))?;
+            generic = generic::GenericPlan::new(stage, ranges);
+            &generic
+        }
+    };
+    let mut stats = Stats {
+        candidates: (0..n)
+            .map(|i| match locked[i] {
+                Some(_) => 1,
+                None => owned[kind_index(slots[i].kind)]
+                    .as_ref()
+                    .map_or(0, |t| t.reals.len()),
+            })
+            .collect(),
+        nodes_by_group: vec![0; plan.groups(spec).len()],
+        ..Stats::default()
+    };
+    let mut top = TopN::new(req.top);
+    // With two-piece realisations, first the single pieces alone: a much smaller search whose
+    // builds are builds of the whole stock too, so its N-th best bounds the whole search from
+    // its first node on (the exact top N is unchanged: the seed builds are judged exactly and
+    // compete with every other).
+    if req.stock.combine != Combine::Single {
+        let singles: [Option<Table>; 2] = [
+            owned[0].as_ref().map(|t| t.singles(spec)),
+            owned[1].as_ref().map(|t| t.singles(spec)),
+        ];
+        let seed = [singles[0].as_ref(), singles[1].as_ref()];
+        top = explore(
+            req,
+            plan,
+            &locked,
+            seed,
+            top,
+            &mut stats,
+            &mut |_| {},
+            false,
+        );
+    }
+    if !stats.truncated {
+        let tables = [owned[0].as_ref(), owned[1].as_ref()];
+        top = explore(req, plan, &locked, tables, top, &mut stats, progress, true);
+    }
+    Ok(Outcome {
+        stats,
+        builds: top.into_vec(),
+    })
+}
+
+/// One exact search over `tables`, continuing `top`. Without a full `top` to bound it, in
+/// rounds with a rising cut, so that the first builds found are already good ones and the
+/// N-th best soon bounds the search: a round with cut T sees every build scoring below T,
+/// so once it holds N builds below T (or no node waited for a later round) the result is
+/// the exact top N. The cut starts a little above the root's bound and its distance from it
+/// doubles each round; the last round has none.
+#[allow(clippy::too_many_arguments)]
+fn explore<'a>(
+    req: &'a Request<'a>,
+    plan: &'a dyn SearchPlan,
+    locked: &[Option<&'a Part>],
+    tables: [Option<&'a Table>; 2],
+    top: TopN,
+    stats: &mut Stats,
+    progress: &'a mut dyn FnMut(Progress),
+    whole: bool,
+) -> TopN {
+    let spec = req.spec;
+    let stage = req.stage;
+    let slots = stage.slots();
+    let n = slots.len();
+    let groups = plan.groups(spec);
+    let mut levels = Vec::new();
+    for (g, group) in groups.iter().enumerate() {
+        for (k, &slot) in group.iter().enumerate() {
+            levels.push(Level {
+                slot,
+                group: g,
+                k,
+                last: k + 1 == group.len(),
+                alone: group.len() == 1,
+            });
+        }
+    }
+    // Per level, the least points its slot can add whatever is chosen before it: a one-slot
+    // group's plan with only the locked parts known already excludes most of the stock (a
+    // coupling capacitor too small for the load, say).
+    let locked_vals: Vec<Option<SlotValue>> =
+        locked.iter().map(|p| p.map(Part::slot_value)).collect();
+    let mut rest_static = vec![0.0; levels.len() + 1];
+    let mut rest_kinds = vec![0u8; levels.len() + 1];
+    for l in (0..levels.len()).rev() {
+        let lv = levels[l];
+        let (pts, bits) = match locked[lv.slot] {
+            Some(_) => (0.0, 0),
+            None => {
+                let k = kind_index(slots[lv.slot].kind);
+                let table = tables[k].expect("a table for every unlocked slot's kind");
+                let mut pts = table.min_pts;
+                if lv.alone {
+                    let walk_plan = plan.walk(spec, lv.group, lv.k, &locked_vals);
+                    pts = pts.max(plan_floor(table, &walk_plan));
+                }
+                (pts, 1u8 << k)
+            }
+        };
+        rest_static[l] = rest_static[l + 1] + pts;
+        rest_kinds[l] = rest_kinds[l + 1] | bits;
+    }
+    let n_levels = levels.len();
+    let mut dfs = Dfs {
+        req,
+        plan,
+        tables,
+        levels,
+        locked: locked.to_vec(),
+        vals: locked_vals,
+        chosen: vec![None; n],
+        lines: Vec::new(),
+        kind_lines: [0; 2],
+        used: [Vec::new(), Vec::new()],
+        rest_static,
+        rest_kinds,
+        top,
+        cut: f64::INFINITY,
+        cut_hit: false,
+        stats: std::mem::take(stats),
+        progress,
+        whole,
+        hints: vec![Vec::new(); n_levels],
+    };
+    // Locked parts are on the board: their points and lines count from the start.
+    let mut acc = 0.0;
+    for part in locked.iter().flatten() {
+        acc += analysis::slot_points(spec, part);
+        for piece in &part.pieces {
+            if dfs.add_piece(part.kind, LineKey::of(part.kind, piece), false, None) {
+                acc += crate::objective::line_weight(spec);
+            }
+        }
+    }
+    let root = acc + dfs.rest_lb(0, None);
+    let rounds = if dfs.top.full() { 0 } else { ROUNDS };
+    for round in 0..=rounds {
+        dfs.cut = if round < rounds {
+            root + FIRST_GAP * 2f64.powi(round as i32)
+        } else {
+            f64::INFINITY
+        };
+        dfs.cut_hit = false;
+        dfs.descend(0, acc, None);
+        let done = dfs.top.full() && dfs.top.bound() < dfs.cut;
+        if done || !dfs.cut_hit || dfs.stats.truncated || !root.is_finite() {
+            break;
+        }
+    }
+    *stats = dfs.stats;
+    dfs.top
+}
+
+impl<'a> Dfs<'a> {
+    /// Search from `level` on with `acc` points so far; `plan` is this level's walk plan when
+    /// the screen before it (`screen_next`) has already made it.
+    fn descend(&mut self, level: usize, acc: f64, plan: Option<WalkPlan<'a>>) {
+        if level == self.levels.len() {
+            self.leaf(acc);
+            return;
+        }
+        let lv = self.levels[level];
+        if let Some(part) = self.locked[lv.slot] {
+            // Already counted; only the group's share is new.
+            let _ = part;
+            let share = if lv.last {
+                self.plan.group_partial(self.req.spec, lv.group, &self.vals)
+            } else {
+                Some(0.0)
+            };
+            if let Some(share) = share {
+                let score = acc + share;
+                if self.admits(score + self.rest_lb(level + 1, None)) {
+                    self.descend(level + 1, score, None);
+                }
+            }
+            return;
+        }
+        let spec = self.req.spec;
+        let stage = self.req.stage;
+        let kind = stage.slots()[lv.slot].kind;
+        let ki = kind_index(kind);
+        let table = self.tables[ki].expect("a table for every unlocked slot's kind");
+        // What the open slots after this one add at least, given the parts chosen so far (a
+        // candidate here only tightens it); the kind of this slot has a line once any
+        // candidate is taken. First the cheap static bound; the look-ahead of the open
+        // one-slot groups (which asks the stage) only once a candidate passes that.
+        let mut rest = self.rest_static[level + 1] + self.lines_lb(level + 1, Some(ki));
+        let plan = plan.unwrap_or_else(|| self.plan.walk(spec, lv.group, lv.k, &self.vals));
+        let mut walk = Walk::new(spec, table, plan, &self.used[ki], self.bound() - acc - rest);
+        let mut tight = false;
+        let lambda = crate::objective::line_weight(spec);
+        let first = self.whole
+            && self.levels[..level]
+                .iter()
+                .all(|l| self.locked[l.slot].is_some());
+        let mut read = 0usize;
+        loop {
+            if self.req.max_nodes.is_some_and(|m| self.stats.nodes >= m) {
+                self.stats.truncated = true;
+                break;
+            }
+            let Some(item) = walk.next_below(self.bound() - acc - rest) else {
+                if !walk.exhausted() {
+                    self.note_cut(f64::NEG_INFINITY);
+                }
+                break;
+            };
+            if !tight {
+                tight = true;
+                rest = rest.max(self.rest_lb(level + 1, Some(ki)));
+                if !self.admits(acc + item.key + rest) {
+                    break;
+                }
+            }
+            read += 1;
+            if first && read % 4096 == 0 {
+                (self.progress)(Progress::Walk {
+                    slot: lv.slot,
+                    done: read,
+                    total: table.reals.len(),
+                });
+            }
+            self.stats.nodes += 1;
+            self.stats.nodes_by_group[lv.group] += 1;
+            let real = item.real;
+            let (fits, new_lines) = self.take(ki, &real);
+            if fits {
+                self.vals[lv.slot] = Some(table.slot_value(&real));
+                self.chosen[lv.slot] = Some(real);
+                let share = if lv.last {
+                    self.plan.group_partial(spec, lv.group, &self.vals)
+                } else {
+                    walk.bound_of(&item)
+                };
+                if let Some(share) = share {
+                    let own = real.pts + lambda * new_lines as f64;
+                    // The share is exact once the group is complete; before, it only bounds.
+                    // `rest` stays a bound of the open slots with this part chosen (more
+                    // parts only tighten it); the next level's walk tightens it again.
+                    let score = acc + own + if lv.last { share } else { 0.0 };
+                    let lb = score + if lv.last { 0.0 } else { share };
+                    if self.admits(lb + rest) {
+                        if let Some(next) = self.screen_next(level, score) {
+                            self.descend(level + 1, score, next);
+                        }
+                    }
+                }
+                self.vals[lv.slot] = None;
+                self.chosen[lv.slot] = None;
+            }
+            self.give_back(ki, &real);
+        }
+        if first {
+            (self.progress)(Progress::Walk {
+                slot: lv.slot,
+                done: table.reals.len(),
+                total: table.reals.len(),
+            });
+        }
+    }
+
+    /// Before walking the next slot: whether its cheapest candidate (a bound from a few
+    /// bisections, `Walk::floor`) can still lead under the bound, with this slot chosen and
+    /// `score` so far. Most first slots of a pair on a large stock are dropped here, and most
+    /// complete gain pairs before the divider's walk, for much less than a walk costs.
+    /// `None` when nothing can follow; else the next slot's walk plan when one was made, for
+    /// its walk to use.
+    fn screen_next(&mut self, level: usize, score: f64) -> Option<Option<WalkPlan<'a>>> {
+        let Some(&next) = self.levels.get(level + 1) else {
+            return Some(None);
+        };
+        if self.locked[next.slot].is_some() {
+            return Some(None);
+        }
+        let ki = kind_index(self.req.stage.slots()[next.slot].kind);
+        let table = self.tables[ki].expect("table");
+        let plan = self
+            .plan
+            .walk(self.req.spec, next.group, next.k, &self.vals);
+        let rest = self.rest_static[level + 2] + self.lines_lb(level + 2, Some(ki));
+        let limit = self.bound() - score - rest;
+        let floor = Walk::floor(
+            table,
+            &plan,
+            &self.used[ki],
+            limit,
+            &mut self.hints[level + 1],
+        );
+        self.admits(score + floor + rest).then_some(Some(plan))
+    }
+
+    /// The score a node must stay under: the N-th best build so far, and this round's cut.
+    fn bound(&self) -> f64 {
+        self.top.bound().min(self.cut)
+    }
+
+    /// Whether a node with lower bound `lb` is worth visiting; notes when only the cut
+    /// stops it.
+    fn admits(&mut self, lb: f64) -> bool {
+        if lb < self.bound() {
+            return true;
+        }
+        self.note_cut(lb);
+        false
+    }
+
+    /// A node with bound `lb` was stopped: by the cut alone when `lb` is under the N-th
+    /// best (always assumed for a walk's end, `lb` = −∞).
+    fn note_cut(&mut self, lb: f64) {
+        if self.cut < self.top.bound() && lb < self.top.bound() {
+            self.cut_hit = true;
+        }
+    }
+
+    /// At least one new line for each kind the open levels need that has no line yet
+    /// (`except`: a kind about to get one).
+    fn lines_lb(&self, level: usize, except: Option<usize>) -> f64 {
+        let bits = self.rest_kinds[level];
+        let mut n = 0;
+        for k in 0..2 {
+            if bits >> k & 1 == 1 && self.kind_lines[k] == 0 && except != Some(k) {
+                n += 1;
+            }
+        }
+        crate::objective::line_points(self.req.spec, n)
+    }
+
+    /// Lower bound of what the levels from `level` on add: each open slot's least points, a
+    /// one-slot group's least points among the candidates its plan (given the parts chosen
+    /// so far) lets through, and the first line of each kind still without one.
+    fn rest_lb(&self, level: usize, except: Option<usize>) -> f64 {
+        let spec = self.req.spec;
+        let mut total = self.lines_lb(level, except);
+        for l in level..self.levels.len() {
+            let lv = self.levels[l];
+            if self.locked[lv.slot].is_some() {
+                continue;
+            }
+            let ki = kind_index(self.req.stage.slots()[lv.slot].kind);
+            let table = self.tables[ki].expect("table");
+            let mut lb = self.rest_static[l] - self.rest_static[l + 1];
+            if lv.alone {
+                let plan = self.plan.walk(spec, lv.group, lv.k, &self.vals);
+                lb = lb.max(plan_floor(table, &plan));
+            }
+            total += lb;
+        }
+        total
+    }
+
+    /// Add one piece of a line (`piece`: its index in the kind's table, looked up when not
+    /// given); true when the line is new to the build.
+    fn add_piece(
+        &mut self,
+        kind: PartKind,
+        key: LineKey,
+        from_stock: bool,
+        piece: Option<u32>,
+    ) -> bool {
+        let ki = kind_index(kind);
+        if let Some(l) = self.lines.iter_mut().find(|l| l.key == key) {
+            l.all += 1;
+            l.stock += u32::from(from_stock);
+            return false;
+        }
+        let piece = piece.or_else(|| self.tables[ki].and_then(|t| t.by_line.get(&key).copied()));
+        self.lines.push(LineUse {
+            key,
+            kind: ki,
+            all: 1,
+            stock: u32::from(from_stock),
+            piece,
+        });
+        self.kind_lines[ki] += 1;
+        if let Some(p) = piece {
+            self.used[ki].push(p);
+        }
+        true
+    }
+
+    fn remove_piece(&mut self, key: LineKey, from_stock: bool) {
+        if let Some(i) = self.lines.iter().position(|l| l.key == key) {
+            let l = &mut self.lines[i];
+            l.all -= 1;
+            l.stock -= u32::from(from_stock);
+            if l.all == 0 {
+                let l = self.lines.swap_remove(i);
+                self.kind_lines[l.kind] -= 1;
+                if let Some(p) = l.piece {
+                    if let Some(j) = self.used[l.kind].iter().position(|&q| q == p) {
+                        self.used[l.kind].remove(j);
+                    }
+                }
+            }
+        }
+    }
+
+    /// Take a realisation's pieces from stock; returns whether they fit the quantities on
+    /// hand and how many lines are new to the build.
+    fn take(&mut self, ki: usize, real: &Real) -> (bool, usize) {
+        let table = self.tables[ki].expect("table");
+        let mut fits = true;
+        let mut new_lines = 0;
+        for p in real.pieces() {
+            let row = &table.pieces[p as usize];
+            if self.add_piece(table.kind, row.line, true, Some(p)) {
+                new_lines += 1;
+            }
+            if let Some(q) = row.qty {
+                let taken = self
+                    .lines
+                    .iter()
+                    .find(|l| l.key == row.line)
+                    .map_or(0, |l| l.stock);
+                if taken > q {
+                    fits = false;
+                }
+            }
+        }
+        (fits, new_lines)
+    }
+
+    fn give_back(&mut self, ki: usize, real: &Real) {
+        let table = self.tables[ki].expect("table");
+        for p in real.pieces() {
+            self.remove_piece(table.pieces[p as usize].line, true);
+        }
+    }
+
+    fn leaf(&mut self, acc: f64) {
+        let slots = self.req.stage.slots();
+        let parts: Vec<Part> = (0..slots.len())
+            .map(|i| match (self.locked[i], &self.chosen[i]) {
+                (Some(p), _) => p.clone(),
+                (None, Some(r)) => self.tables[kind_index(slots[i].kind)]
+                    .expect("table")
+                    .part(r),
+                (None, None) => unreachable!("every slot assigned at a leaf"),
+            })
+            .collect();
+        let build = Build { parts };
+        self.stats.evaluated += 1;
+        let evaluation =
+            analysis::evaluate(self.req.spec, self.req.stage, &build, Some(self.req.stock));
+        debug_assert!(
+            (evaluation.score - acc).abs() <= 1e-9 * acc.abs().max(1.0),
+            "search shares {acc} != objective {}",
+            evaluation.score
+        );
+        if evaluation.pass {
+            self.top.offer(Ranked { build, evaluation });
+        }
+    }
+}
+
+/// Least slot points plus stage bound of any candidate a plan lets through: on each side of
+/// the target, the least points there plus the bound at the first value met (the bound only
+/// grows outward).
+fn plan_floor(table: &Table, plan: &WalkPlan) -> f64 {
+    let m = table.merged(plan.coord);
+    let p = m.start(plan.target);
+    let up = (p < m.len())
+        .then(|| (plan.bound)(m.coord[p], true).map(|b| m.up[p] + b))
+        .flatten();
+    let down = (p > 0)
+        .then(|| (plan.bound)(m.coord[p - 1], false).map(|b| m.down[p - 1] + b))
+        .flatten();
+    match (up, down) {
+        (Some(a), Some(b)) => a.min(b),
+        (a, b) => a.or(b).unwrap_or(f64::INFINITY),
+    }
+}

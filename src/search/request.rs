@@ -1,0 +1,342 @@
+//! What a search is asked and what it answers: the request (spec, circuit, stock, locks, how
+//! many builds, which plan), the ranked builds and the search's statistics, its errors, the
+//! engines, the candidates of every slot, the best-N list with its tie rule, and the Pareto
+//! front of a ranking.
+
+use crate::analysis::Evaluation;
+use crate::build::{Build, Part};
+use crate::circuit::{Circuit, SearchPlan};
+use crate::spec::Spec;
+use crate::stock::Stock;
+use crate::vocab::PartKind;
+use std::collections::HashMap;
+use std::sync::Arc;
+
+/// One ranked build.
+#[derive(Debug, Clone)]
+pub struct Ranked {
+    pub build: Build,
+    pub evaluation: Evaluation,
+}
+
+/// Search progress, for a bar in the binary.
+#[derive(Debug, Clone, Copy)]
+pub enum Progress {
+    /// The walk search: the slot at the top of the tree (index into the stage's slots), its
+    /// candidates read so far, and how many it has.
+    Walk {
+        slot: usize,
+        done: usize,
+        total: usize,
+    },
+    /// The MILP engine: models solved so far, and the N-th best score found (∞ until N).
+    Milp { solved: usize, best: f64 },
+}
+
+/// What a search did.
+#[derive(Debug, Clone, Default)]
+pub struct Stats {
+    pub candidates: Vec<usize>,
+    pub nodes: u64,
+    /// True when `max_nodes` stopped the search before it was complete.
+    pub truncated: bool,
+    /// Nodes per group, to see where a search spends its time.
+    pub nodes_by_group: Vec<u64>,
+    pub evaluated: u64,
+}
+
+#[derive(Debug, Clone)]
+pub struct Outcome {
+    pub builds: Vec<Ranked>,
+    pub stats: Stats,
+}
+
+#[derive(Debug, thiserror::Error, PartialEq)]
+pub enum SearchError {
+    #[error(
+        "the stock has no {kind} for slot `{slot}` within {range}; widen the range or add stock"
+    )]
+    NoCandidates {
+        slot: String,
+        kind: String,
+        range: String,
+    },
+    #[error(
+        "combine = \"{combine}\" makes more than {limit} {kind} realisations from the \
+         stock's {lines} {kind} lines (every two of them paired), more than the search takes; \
+         use combine = \"single\", narrow the {kind} range, or a stock with fewer lines"
+    )]
+    TooManyRealisations {
+        kind: String,
+        lines: usize,
+        combine: String,
+        limit: usize,
+    },
+    #[error("the MILP model would have {choices} choice variables, more than the MILP engine takes ({limit}); use `--engine walk`, narrow the ranges, or lock a slot")]
+    ModelTooLarge { choices: usize, limit: usize },
+    #[error("the MILP solver failed: {0}; `--engine walk` does not use it")]
+    Solver(String),
+}
+
+/// Which exact search finds the top N: the walk search of this module (the default, fast at
+/// any stock size) or the MILP engine (`milp`, good_lp with microlp), which must agree.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Engine {
+    #[default]
+    Walk,
+    Milp,
+}
+
+impl Engine {
+    pub const ALL: [Engine; 2] = [Engine::Walk, Engine::Milp];
+
+    pub fn name(self) -> &'static str {
+        match self {
+            Engine::Walk => "walk",
+            Engine::Milp => "milp",
+        }
+    }
+
+    pub fn parse(s: &str) -> Option<Engine> {
+        Engine::ALL
+            .into_iter()
+            .find(|e| e.name().eq_ignore_ascii_case(s.trim()))
+    }
+}
+
+/// A request: what to search and how many builds to keep.
+pub struct Request<'a> {
+    pub spec: &'a Spec,
+    pub stage: &'a dyn Circuit,
+    pub stock: &'a Stock,
+    /// Parts fixed by the user, by slot index.
+    pub locks: &'a [(usize, Part)],
+    pub top: usize,
+    /// Stop after this many search nodes (the result is then not proven); `None`: no limit.
+    pub max_nodes: Option<u64>,
+    /// Which search plan the walk engine follows.
+    pub plan: PlanChoice,
+}
+
+/// Which search plan the walk engine follows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum PlanChoice {
+    /// The circuit's own hand-tuned plan where it has one, else the generic plan.
+    #[default]
+    Best,
+    /// The generic plan (`generic.rs`), which needs only the circuit's equations.
+    Generic,
+}
+
+impl Request<'_> {
+    /// The circuit's own plan when this request may use it.
+    pub fn own_plan(&self) -> Option<&dyn SearchPlan> {
+        match self.plan {
+            PlanChoice::Best => self.stage.plan(),
+            PlanChoice::Generic => None,
+        }
+    }
+}
+
+/// The candidates of every slot: the stock's realisations (one shared list per kind), or the
+/// locked part alone.
+pub fn slot_candidates(req: &Request) -> Result<Vec<Arc<Vec<Part>>>, SearchError> {
+    let mut by_kind: HashMap<PartKind, Arc<Vec<Part>>> = HashMap::new();
+    req.stage
+        .slots()
+        .iter()
+        .enumerate()
+        .map(|(i, slot)| {
+            if let Some((_, part)) = req.locks.iter().find(|(s, _)| *s == i) {
+                return Ok(Arc::new(vec![part.clone()]));
+            }
+            if !by_kind.contains_key(&slot.kind) {
+                too_many(req, slot.kind)?;
+            }
+            let parts = by_kind
+                .entry(slot.kind)
+                .or_insert_with(|| Arc::new(req.stock.candidates(slot.kind)))
+                .clone();
+            if parts.is_empty() {
+                return Err(no_candidates(req, i));
+            }
+            Ok(parts)
+        })
+        .collect()
+}
+
+pub(crate) fn parts_unit(kind: PartKind) -> crate::value::Unit {
+    match kind {
+        PartKind::Resistor => crate::value::Unit::Ohm,
+        PartKind::Capacitor => crate::value::Unit::Farad,
+    }
+}
+
+/// The best `top` builds, kept sorted; builds that look identical (same values, tolerances and
+/// arrangement per slot, e.g. two inventory lines of one value) count once, the better kept.
+pub(crate) struct TopN {
+    cap: usize,
+    items: Vec<(f64, Vec<u64>, Ranked)>,
+}
+
+impl TopN {
+    pub fn new(cap: usize) -> TopN {
+        TopN {
+            cap: cap.max(1),
+            items: Vec::new(),
+        }
+    }
+
+    /// Score a new build must beat to enter.
+    pub fn bound(&self) -> f64 {
+        if self.items.len() < self.cap {
+            f64::INFINITY
+        } else {
+            self.items.last().map_or(f64::INFINITY, |i| i.0)
+        }
+    }
+
+    /// True when `cap` builds are held.
+    pub fn full(&self) -> bool {
+        self.items.len() >= self.cap
+    }
+
+    pub fn offer(&mut self, ranked: Ranked) {
+        let score = ranked.evaluation.score;
+        let key = look_key(&ranked.build);
+        if let Some(pos) = self.items.iter().position(|i| i.1 == key) {
+            if self.items[pos].0 <= score {
+                return;
+            }
+            self.items.remove(pos);
+        }
+        if self.items.len() >= self.cap && score >= self.bound() {
+            return;
+        }
+        // Equal scores: the tighter parts first (what a person would pick between twins).
+        let spread: f64 = ranked.build.parts.iter().map(Part::tolerance).sum();
+        let at = self.items.partition_point(|i| {
+            i.0 < score
+                || (i.0 == score
+                    && i.2.build.parts.iter().map(Part::tolerance).sum::<f64>() <= spread)
+        });
+        self.items.insert(at, (score, key, ranked));
+        self.items.truncate(self.cap);
+    }
+
+    pub fn into_vec(self) -> Vec<Ranked> {
+        self.items.into_iter().map(|i| i.2).collect()
+    }
+}
+
+/// What a person sees of a build: arrangement, value and tolerance of every piece.
+fn look_key(build: &Build) -> Vec<u64> {
+    let mut key = Vec::new();
+    for part in &build.parts {
+        key.push(part.arrangement as u64);
+        for p in &part.pieces {
+            key.push(p.value.to_bits());
+            key.push(p.tolerance.to_bits());
+        }
+    }
+    key
+}
+
+pub(crate) fn kind_index(kind: PartKind) -> usize {
+    match kind {
+        PartKind::Resistor => 0,
+        PartKind::Capacitor => 1,
+    }
+}
+
+/// The error for a stock that makes more realisations of `kind` than a table takes.
+pub(crate) fn too_many(req: &Request, kind: PartKind) -> Result<(), SearchError> {
+    let limit = super::table::MAX_REALISATIONS;
+    match super::table::more_realisations_than(req.stock, kind, limit) {
+        None => Ok(()),
+        Some(_) => Err(SearchError::TooManyRealisations {
+            kind: format!("{kind:?}").to_lowercase(),
+            lines: req.stock.pieces(kind).len(),
+            combine: format!("{:?}", req.stock.combine).to_lowercase(),
+            limit,
+        }),
+    }
+}
+
+pub(crate) fn no_candidates(req: &Request, slot: usize) -> SearchError {
+    let def = req.stage.slots()[slot];
+    let (lo, hi) = req.stock.range(def.kind);
+    let unit = parts_unit(def.kind);
+    SearchError::NoCandidates {
+        slot: def.name.to_string(),
+        kind: format!("{:?}", def.kind).to_lowercase(),
+        range: format!(
+            "{} … {}",
+            crate::value::format(lo, unit),
+            crate::value::format(hi, unit)
+        ),
+    }
+}
+
+/// Which builds are Pareto-optimal over (gain error, part count, cost): no other build is at
+/// least as good in all three and better in one. Unknown cost counts as zero.
+pub fn pareto(builds: &[Ranked]) -> Vec<bool> {
+    let key = |r: &Ranked| {
+        let m = &r.evaluation.metrics;
+        (m.gain_error, m.part_count as f64, m.cost.unwrap_or(0.0))
+    };
+    builds
+        .iter()
+        .map(|a| {
+            let ka = key(a);
+            !builds.iter().any(|b| {
+                let kb = key(b);
+                kb.0 <= ka.0
+                    && kb.1 <= ka.1
+                    && kb.2 <= ka.2
+                    && (kb.0 < ka.0 || kb.1 < ka.1 || kb.2 < ka.2)
+            })
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod pareto_tests {
+    use super::*;
+    use crate::spec::Spec;
+
+    #[test]
+    fn dominated_builds_are_not_pareto() {
+        // Hand example (common practice): a build with more error and more parts than another
+        // is dominated; a trade-off (less error, more parts) is not.
+        let spec = Spec::from_toml(
+            "[stage]\nkind = \"inverting\"\nsupply = 9\ngain = -10\nload = 10000\nband = [20, 20000]\n",
+        )
+        .unwrap();
+        let stage = crate::circuit::circuit_for(spec.stage);
+        let r = |v: f64| Part::single(PartKind::Resistor, crate::build::Piece::plain(v, 0.01));
+        let c = |v: f64| Part::single(PartKind::Capacitor, crate::build::Piece::plain(v, 0.1));
+        let mk = |rin: f64, rfb: f64, pair: bool| {
+            let mut parts = vec![r(rin), r(rfb), r(100e3), r(100e3), c(10e-6), c(10e-6)];
+            if pair {
+                parts[1] = Part::pair(
+                    PartKind::Resistor,
+                    crate::build::Arrangement::Series,
+                    crate::build::Piece::plain(rfb / 2.0, 0.01),
+                    crate::build::Piece::plain(rfb / 2.0, 0.01),
+                );
+            }
+            let build = Build { parts };
+            let evaluation = crate::analysis::evaluate(&spec, stage, &build, None);
+            Ranked { build, evaluation }
+        };
+        let builds = vec![
+            mk(10e3, 100e3, false),
+            mk(10e3, 99e3, true),
+            mk(10e3, 98e3, false),
+        ];
+        assert_eq!(pareto(&builds), vec![true, false, false]);
+        let trade = vec![mk(10e3, 98e3, false), mk(10e3, 100e3, true)];
+        assert_eq!(pareto(&trade), vec![true, true]);
+    }
+}
