@@ -174,6 +174,7 @@ impl Prepared {
             // No node cap: the benches time the proven search.
             max_nodes: None,
             plan: stockfit::search::PlanChoice::Best,
+            stop: stockfit::search::Stop::NEVER,
         }
     }
 

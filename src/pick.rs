@@ -33,7 +33,7 @@ use crate::analysis::{self, yield_mc::YieldOptions};
 use crate::build::{Build, Part};
 use crate::circuit::{self, Circuit};
 use crate::error::{Error, SlotError};
-use crate::search::{self, diagnose, Engine, PlanChoice, Progress, Ranked, Request, Stats};
+use crate::search::{self, diagnose, Engine, PlanChoice, Progress, Ranked, Request, Stats, Stop};
 use crate::series::Series;
 use crate::spec::{self, Lock, SourceSpec, Spec, SpecError, SpecErrors};
 use crate::stock::inventory::{Inventory, MAX_LISTED_PROBLEMS};
@@ -269,6 +269,9 @@ pub struct Options {
     pub plan: PlanChoice,
     /// Monte Carlo yield of every reported build, when given.
     pub yield_options: Option<YieldOptions>,
+    /// When to stop before the search is proven complete (a time limit, Ctrl-C); the
+    /// builds are then the best found, marked as not proven.
+    pub stop: Stop,
 }
 
 impl Default for Options {
@@ -278,6 +281,7 @@ impl Default for Options {
             engine: Engine::Walk,
             plan: PlanChoice::Best,
             yield_options: None,
+            stop: Stop::NEVER,
         }
     }
 }
@@ -289,6 +293,9 @@ pub struct Picked {
     pub builds: Vec<Ranked>,
     /// What the search did.
     pub stats: Stats,
+    /// The search ran to its exact end: the builds are the best there are. False when a
+    /// time limit or an interrupt stopped it (they are the best found so far).
+    pub proven: bool,
     /// Why no build meets the spec, when none does.
     pub diagnosis: Option<diagnose::Diagnosis>,
 }
@@ -311,6 +318,7 @@ pub fn pick(
         top: options.top.max(1),
         max_nodes: None,
         plan: options.plan,
+        stop: options.stop.clone(),
     };
     let mut outcome = search::run(&req, options.engine, progress)?;
     for r in &mut outcome.builds {
@@ -322,6 +330,7 @@ pub fn pick(
             options.yield_options.as_ref(),
         );
     }
+    let proven = !outcome.stats.truncated;
     let diagnosis = if outcome.builds.is_empty() {
         Some(diagnose::diagnose(&req)?)
     } else {
@@ -330,6 +339,7 @@ pub fn pick(
     Ok(Picked {
         builds: outcome.builds,
         stats: outcome.stats,
+        proven,
         diagnosis,
     })
 }

@@ -46,7 +46,7 @@ fn the_library_gives_the_binarys_builds() {
     // The lock is kept: r_in is the 47 kΩ on the board, not a part from the drawer.
     let r_in = &picked.builds[0].build.parts[0];
     assert!(r_in.locked && r_in.value == 47e3, "{r_in:?}");
-    let library = json::builds(&spec, circuit, &picked.builds);
+    let library = json::builds(&spec, circuit, &picked.builds, picked.proven);
 
     let out = assert_cmd::Command::cargo_bin("stockfit")
         .unwrap()

@@ -55,6 +55,16 @@ fn parse_build(text: &str) -> Result<usize, String> {
     }
 }
 
+/// `--time-limit`: a positive number of seconds, at most a day.
+fn parse_seconds(text: &str) -> Result<f64, String> {
+    match text.trim().parse::<f64>() {
+        Ok(s) if s > 0.0 && s <= 86_400.0 => Ok(s),
+        _ => Err(format!(
+            "expected a number of seconds above 0 and at most 86400, found {text:?}"
+        )),
+    }
+}
+
 /// `--yield`: 0 (no yield) to [`MAX_YIELD`] samples.
 fn parse_yield(text: &str) -> Result<usize, String> {
     let n: usize = text
@@ -117,6 +127,10 @@ pub struct Output {
     /// Seed of the Monte Carlo draws (the same seed gives the same yield).
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
+    /// Stop the search after SECONDS and report the best builds found so far, marked as not
+    /// proven best (Ctrl-C does the same). Without it the search runs to its exact end.
+    #[arg(long, value_name = "SECONDS", value_parser = parse_seconds)]
+    pub time_limit: Option<f64>,
 }
 
 /// `stockfit take`: the pick's options, the inventory to take from, and the build to take.

@@ -105,6 +105,8 @@ pub struct Builds<'a> {
     pub ranked: &'a [Ranked],
     pub stock: &'a Stock,
     pub stock_text: &'a str,
+    /// The search ran to its exact end.
+    pub proven: bool,
 }
 
 /// Write every requested output of a run with builds.
@@ -114,7 +116,7 @@ pub fn write_builds(output: &Output, b: &Builds) -> Result<(), Failure> {
     };
     for (kind, target) in requested(output) {
         let text = match kind {
-            Kind::Json => json::builds(b.spec, b.circuit, b.ranked),
+            Kind::Json => json::builds(b.spec, b.circuit, b.ranked, b.proven),
             Kind::Spice => spice::netlist(b.spec, b.circuit, &best.build),
             Kind::Plot => plot::svg(b.spec, b.circuit, &best.build, &best.evaluation)?,
             Kind::Schematic => schematic::svg(b.spec, b.circuit, &best.build, &best.evaluation),

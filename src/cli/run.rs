@@ -9,13 +9,14 @@ use anyhow::{anyhow, Context};
 use std::io::IsTerminal;
 use std::io::Write;
 use std::path::Path;
+use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Arc;
-use std::time::Instant;
+use std::time::{Duration, Instant};
 use stockfit::analysis::yield_mc::YieldOptions;
 use stockfit::circuit;
 use stockfit::pick::{self, Options, Resolved, SlotEntry, StockOverride};
 use stockfit::report::table;
-use stockfit::search::{self, Ranked};
+use stockfit::search::{self, Ranked, Stop};
 use stockfit::series::Series;
 use stockfit::spec::Spec;
 use stockfit::value::{self, Unit};
@@ -126,6 +127,27 @@ pub(super) fn in_spec(path: &Path, e: stockfit::Error) -> Failure {
     }
 }
 
+/// When the search gives up before it is proven complete: at `--time-limit`, or at the first
+/// Ctrl-C (a second one ends the program at once, exit 130 as a shell reports SIGINT).
+fn stop_for(output: &Output) -> Stop {
+    let flag = Arc::new(AtomicBool::new(false));
+    let set = flag.clone();
+    let installed = ctrlc::set_handler(move || {
+        if set.swap(true, Ordering::SeqCst) {
+            std::process::exit(130);
+        }
+        eprintln!(
+            "\ninterrupted: stopping the search; the builds found so far follow (not proven best)"
+        );
+    });
+    Stop {
+        deadline: output
+            .time_limit
+            .map(|s| Instant::now() + Duration::from_secs_f64(s)),
+        interrupt: installed.is_ok().then_some(flag),
+    }
+}
+
 fn yield_options(spec: &Spec, output: &Output) -> YieldOptions {
     YieldOptions {
         samples: output.yield_samples,
@@ -157,6 +179,7 @@ fn pick(
         top,
         engine: output.engine.engine(),
         yield_options: Some(yield_options(spec, output)),
+        stop: stop_for(output),
         ..Options::default()
     };
     let started = Instant::now();
@@ -209,6 +232,13 @@ fn pick(
             table::fit_width(&table::heading(spec, circuit, &description), table::WIDTH)
         );
         say!();
+        if !picked.proven {
+            say_raw!(
+                "{}",
+                table::fit_width(&table::unproven(style), table::WIDTH)
+            );
+            say!();
+        }
         say_raw!("{}", table::builds(spec, circuit, &picked.builds, style));
         say!();
         say!("Best build (#1)");
@@ -222,6 +252,7 @@ fn pick(
             ranked: &picked.builds,
             stock: &stock,
             stock_text: &description,
+            proven: picked.proven,
         },
     )?;
     Ok(EXIT_OK)
@@ -263,6 +294,7 @@ fn check(
             ranked: std::slice::from_ref(&ranked),
             stock: &stock,
             stock_text: &description,
+            proven: true,
         },
     )?;
     Ok(if pass { EXIT_OK } else { EXIT_NO_BUILD })

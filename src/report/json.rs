@@ -54,12 +54,15 @@ struct Document<'a> {
     stage: &'static str,
     target_gain: f64,
     bias_target_v: f64,
+    /// False when the search stopped early (a time limit, an interrupt): the builds are the
+    /// best found, not proven the best.
+    proven_best: bool,
     builds: Vec<BuildJson<'a>>,
     cautions: &'static [&'static str],
 }
 
-/// The builds as a pretty-printed JSON document.
-pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked]) -> String {
+/// The builds as a pretty-printed JSON document; `proven`: the search ran to its exact end.
+pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], proven: bool) -> String {
     let slots = stage.slots();
     let front = crate::search::pareto(ranked);
     let builds = ranked
@@ -108,6 +111,7 @@ pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked]) -> String {
         stage: stage.kind().name(),
         target_gain: spec.gain,
         bias_target_v: spec.bias_target(),
+        proven_best: proven,
         builds,
         cautions: crate::report::table::CAUTIONS,
     };
@@ -131,7 +135,7 @@ pub fn diagnosis(
     d: &crate::search::diagnose::Diagnosis,
 ) -> String {
     let nearest = d.nearest.as_ref().and_then(|n| {
-        let text = builds(spec, stage, std::slice::from_ref(n));
+        let text = builds(spec, stage, std::slice::from_ref(n), true);
         serde_json::from_str::<serde_json::Value>(&text)
             .ok()
             .and_then(|v| v["builds"].get(0).cloned())

@@ -126,6 +126,18 @@ fn table_label(part: &crate::build::Part) -> String {
     label
 }
 
+/// The note above a ranking that is not proven best: the search stopped early (a time limit
+/// or Ctrl-C), so these are the best builds found so far — each passes every check, but a
+/// better one may exist.
+pub fn unproven(style: Style) -> String {
+    let mark = if style.color { "\x1b[33m!\x1b[0m" } else { "!" };
+    format!(
+        "{mark} Not proven best: the search stopped early (--time-limit or Ctrl-C). These are the \
+         best builds found so far; each passes every check, but a better one may exist. Run \
+         without a limit for the exact ranking.\n"
+    )
+}
+
 /// The ranked builds: a parts table, then a figures table.
 pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style) -> String {
     let mut out = String::new();

@@ -27,6 +27,7 @@ pub fn brute_force(req: &Request) -> Result<Outcome, SearchError> {
             nodes: evaluated,
             nodes_by_group: Vec::new(),
             truncated: false,
+            stopped: false,
             evaluated,
         },
     })

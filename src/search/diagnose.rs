@@ -165,6 +165,7 @@ fn best_under(req: &Request, spec: &Spec) -> Result<Option<Ranked>, SearchError>
         spec,
         top: 1,
         max_nodes: Some(DIAGNOSIS_NODES),
+        stop: req.stop.clone(),
         ..*req
     };
     Ok(search(&r, &mut |_| {})?.builds.into_iter().next())
@@ -573,6 +574,7 @@ pub fn diagnose(req: &Request) -> Result<Diagnosis, SearchError> {
         spec: &open,
         top: 1,
         max_nodes: Some(DIAGNOSIS_NODES),
+        stop: req.stop.clone(),
         ..*req
     };
     let nearest = search(&r, &mut |_| {})?
@@ -623,6 +625,7 @@ mod tests {
             top: 1,
             max_nodes: None,
             plan: crate::search::PlanChoice::Best,
+            stop: crate::search::Stop::NEVER,
         };
         assert!(
             search(&req, &mut |_| {}).unwrap().builds.is_empty(),

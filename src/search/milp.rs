@@ -121,6 +121,11 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
     let mut top = TopN::new(req.top);
     let mut excluded: Vec<Vec<usize>> = Vec::new();
     loop {
+        if req.stop.now() {
+            stats.truncated = true;
+            stats.stopped = true;
+            break;
+        }
         if excluded.len() >= MAX_SOLVES || req.max_nodes.is_some_and(|m| stats.nodes >= m) {
             stats.truncated = true;
             break;

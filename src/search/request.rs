@@ -38,8 +38,11 @@ pub enum Progress {
 pub struct Stats {
     pub candidates: Vec<usize>,
     pub nodes: u64,
-    /// True when `max_nodes` stopped the search before it was complete.
+    /// True when the search stopped before it was complete (`max_nodes`, or its [`Stop`]):
+    /// its builds are the best found, not proven the best.
     pub truncated: bool,
+    /// True when the [`Stop`] (a time limit or an interrupt) ended it.
+    pub stopped: bool,
     /// Nodes per group, to see where a search spends its time.
     pub nodes_by_group: Vec<u64>,
     pub evaluated: u64,
@@ -116,6 +119,41 @@ pub struct Request<'a> {
     pub max_nodes: Option<u64>,
     /// Which search plan the walk engine follows.
     pub plan: PlanChoice,
+    /// When to give up before the search is complete (never by default).
+    pub stop: Stop,
+}
+
+/// When a search stops before it is proven complete: a deadline, an interrupt (Ctrl-C sets
+/// the flag), or neither — then the search runs to its exact end.
+#[derive(Debug, Clone, Default)]
+pub struct Stop {
+    /// Stop at this instant.
+    pub deadline: Option<std::time::Instant>,
+    /// Stop once this flag is set.
+    pub interrupt: Option<Arc<std::sync::atomic::AtomicBool>>,
+}
+
+impl Stop {
+    /// Never stop.
+    pub const NEVER: Stop = Stop {
+        deadline: None,
+        interrupt: None,
+    };
+
+    /// True when the search must stop now.
+    pub fn now(&self) -> bool {
+        self.interrupt
+            .as_ref()
+            .is_some_and(|f| f.load(std::sync::atomic::Ordering::Relaxed))
+            || self
+                .deadline
+                .is_some_and(|d| std::time::Instant::now() >= d)
+    }
+
+    /// True when it may stop at all (a deadline or an interrupt flag is set).
+    pub fn armed(&self) -> bool {
+        self.deadline.is_some() || self.interrupt.is_some()
+    }
 }
 
 /// Which search plan the walk engine follows.

@@ -172,6 +172,7 @@ impl Prepared {
             top,
             max_nodes: None,
             plan,
+            stop: stockfit::search::Stop::NEVER,
         }
     }
 }
