@@ -4,6 +4,8 @@
 //! builds → reports. Nothing in this library does I/O: readers take `impl Read` or `&str`, and
 //! reports return strings; the binary (`src/main.rs`, `src/cli/`) reads files and prints.
 
+#![warn(missing_docs)]
+
 pub mod analysis;
 pub mod build;
 pub mod circuit;

@@ -105,7 +105,7 @@ impl WalkPlan<'static> {
 }
 
 /// A number per candidate, summed over some slots: Σᵢ fᵢ(part in slot sᵢ). The MILP engine
-/// turns it into Σ_c x[s][c]·f(c) over its choice variables.
+/// turns it into Σ_c x\[s\]\[c\]·f(c) over its choice variables.
 pub type SlotFn<'s> = Box<dyn Fn(&SlotValue) -> f64 + 's>;
 
 /// A sum over slots of a number per candidate (see [`SlotFn`]).

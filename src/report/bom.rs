@@ -3,7 +3,7 @@
 //! slots, value, tolerance, quantity, rating, polarity and dielectric, the inventory's location
 //! and note, unit and line cost, and a total row.
 //!
-//! As CSV ([`csv`]) it follows RFC 4180 (quoted where needed, CRLF line ends), and every cell
+//! As CSV ([`csv()`]) it follows RFC 4180 (quoted where needed, CRLF line ends), and every cell
 //! that begins with `=`, `+`, `-`, `@`, a tab or a carriage return is prefixed with a single
 //! quote, as the OWASP "CSV Injection" guidance advises, so that a note typed into an inventory
 //! cannot run as a formula when the BOM is opened in a spreadsheet.
