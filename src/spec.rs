@@ -188,7 +188,7 @@ pub struct Spec {
     pub band_loss_max: Option<f64>,
     /// Highest worst-case corner 1/(2πRC) allowed for each coupling network, Hz.
     pub corner_low_max: Option<f64>,
-    /// Headroom the output needs to the (low, high) rail.
+    /// Headroom the output needs to the (low, high) rail, V.
     pub headroom: (f64, f64),
     /// DC level of the source, V (may be negative).
     pub source_dc: f64,

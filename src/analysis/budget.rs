@@ -8,7 +8,7 @@
 //! bounds the output's deviation from nominal at every corner `analysis::evaluate` visits
 //! (triangle inequality), and equals it when one corner is the worst for every cause.
 //!
-//! Everything goes through `Stage::dc` and `DcErrors`, so a new stage needs nothing here.
+//! Everything goes through `Circuit::dc` and `DcErrors`, so a new stage needs nothing here.
 //! The budget is always worst-case, whatever the spec's `tolerance_mode`: it says what each
 //! cause *can* do.
 

@@ -2,7 +2,7 @@
 //! nominal curve with the worst-case envelope over every tolerance corner, the band shaded, the
 //! −3 dB corners and the losses at the band's edges marked. Drawn with `plotters` into a string.
 //!
-//! The curves come from the stage's own transfer function (`Stage::response`), the same one the
+//! The curves come from the stage's own transfer function (`Circuit::response`), the same one the
 //! analysis judges; the envelope is the pointwise min and max over the corners of the tolerance
 //! box (`circuit::common::vertices`, the extreme-value rule of the analysis).
 

@@ -1,4 +1,4 @@
-//! SPICE netlist of one build: the stage's slots wired as the stage says (`Stage::spice_elements`),
+//! SPICE netlist of one build: the stage's slots wired as the stage says (`Drawing::spice_elements`),
 //! plus the source, supply, load and a behavioural op-amp with the analysis's own model, as a
 //! plain circuit (comment title line, elements, one subcircuit, `.end`, no `.control`) that
 //! ngspice reads on its own or through `.include` from a deck that adds the analyses.
