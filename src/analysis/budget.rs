@@ -36,6 +36,7 @@ pub struct DcBudget {
     /// Output DC with nominal parts and an error-free op-amp (the divider's voltage in our
     /// stages), V: the point the items deviate from.
     pub nominal_v: f64,
+    /// One item per cause, each the largest output shift it alone can make.
     pub items: Vec<BudgetItem>,
     /// Sum of the items: a bound on |V_out − nominal_v| over every tolerance and error corner.
     pub total_v: f64,
