@@ -30,14 +30,23 @@ use std::fmt::Write;
 
 /// Node names (see the module table).
 pub mod node {
+    /// Ground, `0`.
     pub const GROUND: &str = "0";
+    /// The single supply, `vcc`.
     pub const SUPPLY: &str = "vcc";
+    /// The source EMF, `in`.
     pub const IN: &str = "in";
+    /// Far side of the source resistance, `in_rs` (only when it is not 0).
     pub const IN_RS: &str = "in_rs";
+    /// The op-amp's + pin, `inp`.
     pub const PLUS: &str = "inp";
+    /// The + pin after the offset source, `inp_vos` (what the amplifier sees).
     pub const PLUS_VOS: &str = "inp_vos";
+    /// The op-amp's − pin, `inn`.
     pub const MINUS: &str = "inn";
+    /// The op-amp's output, `amp_out`.
     pub const AMP_OUT: &str = "amp_out";
+    /// The load side of the output coupling, `out`.
     pub const OUT: &str = "out";
     /// Every fixed name; a stage's internal nodes must be none of these.
     pub const FIXED: &[&str] = &[
