@@ -6,8 +6,9 @@
 //! slot of the stage and proves at worst case that the build meets every requirement. The
 //! search is exact over the real stock: every value on hand (and, if allowed, every series or
 //! parallel pair) is in reach and no shortcut drops one, so the builds it ranks first are the
-//! best the stock allows by the spec's goals, not the nearest a rounding found. The analysis is exact at worst case: every part at each end of its
-//! tolerance, the op-amp's bias current, offset current and offset voltage at both signs.
+//! best the stock allows by the spec's goals, not the nearest a rounding found. The analysis is
+//! exact at worst case: every part at each end of its tolerance, the op-amp's bias current,
+//! offset current and offset voltage at both signs.
 //!
 //! The main entry point is [`pick::pick`]: a parsed spec, the stock resolved from its sources
 //! ([`pick::resolve_stock`]) and the locked slots ([`pick::resolve_locks`]) in; the ranked

@@ -35,7 +35,8 @@ pub struct Line {
     pub row: usize,
     /// 1-based line number in the file (a header on the first line is line 1), for messages.
     pub file_line: usize,
-    /// Resistor or capacitor, from the `kind` cell (`r`, `res`, `resistor`, `c`, `cap`, `capacitor`).
+    /// Resistor or capacitor, from the `kind` cell (`r`, `res`, `resistor`, `c`, `cap`,
+    /// `capacitor`, any case).
     pub kind: PartKind,
     /// SI: ohm for a resistor, farad for a capacitor. Always finite and > 0.
     pub value: f64,
