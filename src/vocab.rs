@@ -108,7 +108,7 @@ pub enum StageKind {
 }
 
 impl StageKind {
-    /// Both kinds, in the order the spec reference lists them.
+    /// Every stage kind.
     pub const ALL: [StageKind; 2] = [StageKind::Inverting, StageKind::NonInverting];
 
     /// The spec's name of the stage (`"inverting"`, `"non-inverting"`).
