@@ -23,10 +23,13 @@ pub struct Piece {
     /// Resistor power rating, where the inventory gives one.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub power: Option<f64>,
+    /// Polarised capacitor (an electrolytic or tantalum): must see a positive DC voltage.
     #[serde(skip_serializing_if = "std::ops::Not::not")]
     pub polarized: bool,
+    /// Capacitor dielectric as the inventory writes it (`C0G`, `X7R`, …), where given.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub dielectric: Option<String>,
+    /// Price of one piece in the inventory's currency, where given.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub unit_cost: Option<f64>,
 }
@@ -46,10 +49,12 @@ impl Piece {
         }
     }
 
+    /// Lowest value inside the tolerance: value · (1 − tolerance).
     pub fn min(&self) -> f64 {
         self.value * (1.0 - self.tolerance)
     }
 
+    /// Highest value inside the tolerance: value · (1 + tolerance).
     pub fn max(&self) -> f64 {
         self.value * (1.0 + self.tolerance)
     }
@@ -59,24 +64,31 @@ impl Piece {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Arrangement {
+    /// One piece.
     Single,
+    /// Two pieces in series.
     Series,
+    /// Two pieces in parallel.
     Parallel,
 }
 
 /// The realisation of one slot.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Part {
+    /// Resistor or capacitor.
     #[serde(skip)]
     pub kind: PartKind,
+    /// How the pieces are connected.
     pub arrangement: Arrangement,
     /// Nominal value in SI base units.
     pub value: f64,
     /// Lowest and highest value the pieces' tolerances allow.
     #[serde(skip)]
     pub min: f64,
+    /// Highest value the pieces' tolerances allow (see `min`).
     #[serde(skip)]
     pub max: f64,
+    /// The physical pieces: one, or two for a series or parallel pair.
     pub pieces: Vec<Piece>,
     /// Fixed by the user (`--lock`, `[lock]`, `--set`): already on the board, not taken from stock.
     #[serde(skip_serializing_if = "std::ops::Not::not")]
@@ -111,8 +123,11 @@ pub fn voltage_rating(
 /// stage its candidates without building a [`Part`] for each.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct SlotValue {
+    /// Nominal value in SI base units (Ω or F).
     pub value: f64,
+    /// Lowest value the tolerances allow.
     pub min: f64,
+    /// Highest value the tolerances allow.
     pub max: f64,
     /// Capacitor voltage rating, `None` when unknown (or a resistor).
     pub rating: Option<f64>,
@@ -144,6 +159,7 @@ pub fn combine(kind: PartKind, arrangement: Arrangement, a: f64, b: f64) -> f64 
 }
 
 impl Part {
+    /// One piece alone; extremes from its tolerance.
     pub fn single(kind: PartKind, piece: Piece) -> Part {
         Part {
             kind,
@@ -180,6 +196,7 @@ impl Part {
         part
     }
 
+    /// The unit of its values: Ω or F.
     pub fn unit(&self) -> Unit {
         match self.kind {
             PartKind::Resistor => Unit::Ohm,
@@ -201,6 +218,7 @@ impl Part {
         ((self.max - self.value) / self.value).max((self.value - self.min) / self.value)
     }
 
+    /// Number of physical pieces (1 or 2).
     pub fn piece_count(&self) -> usize {
         self.pieces.len()
     }
@@ -214,6 +232,7 @@ impl Part {
         self.pieces.iter().map(|p| p.unit_cost).sum()
     }
 
+    /// True when any piece is polarised.
     pub fn polarized(&self) -> bool {
         self.pieces.iter().any(|p| p.polarized)
     }
@@ -261,14 +280,17 @@ impl Part {
 /// The parts of one build, in the stage's slot order.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Build {
+    /// One part per slot, in the stage's slot order.
     pub parts: Vec<Part>,
 }
 
 impl Build {
+    /// Nominal value of each part, in slot order (SI base units).
     pub fn values(&self) -> Vec<f64> {
         self.parts.iter().map(|p| p.value).collect()
     }
 
+    /// Number of physical pieces over all parts.
     pub fn piece_count(&self) -> usize {
         self.parts.iter().map(Part::piece_count).sum()
     }
@@ -286,6 +308,7 @@ impl Build {
         keys.len()
     }
 
+    /// Cost of every piece (locked parts count 0); `None` when any piece's cost is unknown.
     pub fn cost(&self) -> Option<f64> {
         self.parts.iter().map(Part::cost).sum()
     }
@@ -294,12 +317,15 @@ impl Build {
 /// Identity of a stock line, for counting distinct lines and quantities.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
 pub enum LineKey {
+    /// An inventory line: kind and row (as in [`Piece::line`]).
     Row(PartKind, usize),
-    /// A series value or lock: value in steps of [`quantum`] and tolerance in ppm.
+    /// A series value or lock: value in steps of 1 µΩ (resistors) or 1 aF
+    /// (capacitors) and tolerance in ppm.
     Value(PartKind, i64, i64),
 }
 
 impl LineKey {
+    /// The stock line a piece is taken from.
     pub fn of(kind: PartKind, piece: &Piece) -> LineKey {
         match piece.line {
             Some(row) => LineKey::Row(kind, row),

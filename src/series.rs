@@ -15,12 +15,19 @@ use std::sync::OnceLock;
 /// One of the IEC 60063 preferred-number series.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize)]
 pub enum Series {
+    /// 3 values per decade (IEC 60063 table).
     E3,
+    /// 6 values per decade (IEC 60063 table).
     E6,
+    /// 12 values per decade (IEC 60063 table).
     E12,
+    /// 24 values per decade (IEC 60063 table).
     E24,
+    /// 48 values per decade (IEC 60063 formula, three digits).
     E48,
+    /// 96 values per decade (IEC 60063 formula, three digits).
     E96,
+    /// 192 values per decade (IEC 60063 formula, three digits; 9.20 by exception).
     E192,
 }
 

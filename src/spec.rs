@@ -32,6 +32,7 @@ pub enum ToleranceMode {
 /// Where the parts of one kind come from.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub enum SourceSpec {
+    /// Every value of an IEC 60063 series, at the stock's tolerance for that kind.
     Series(Series),
     /// An inventory CSV, path as written (relative to the spec file's folder).
     File(String),
@@ -96,14 +97,19 @@ impl Default for Goals {
 /// The parts source and the limits on what to take from it.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct StockSpec {
+    /// Where resistors come from (`resistors` key; default E24).
     pub resistors: SourceSpec,
+    /// Where capacitors come from (`capacitors` key; default E6).
     pub capacitors: SourceSpec,
+    /// Lowest and highest value of any resistor slot, Ω (a pair's combined value too).
     pub resistor_range: (f64, f64),
+    /// Lowest and highest value of any capacitor slot, F (a pair's combined value too).
     pub capacitor_range: (f64, f64),
     /// Tolerance of series resistors (inventories carry their own).
     pub resistor_tolerance: f64,
     /// Tolerance of series capacitors.
     pub capacitor_tolerance: f64,
+    /// How a slot may be realised (one piece, or a series or parallel pair).
     pub combine: Combine,
     /// How Monte Carlo draws a part inside its tolerance.
     pub distribution: crate::vocab::Distribution,
@@ -163,27 +169,46 @@ impl Lock {
 /// A validated requirement.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Spec {
+    /// Which stage to design.
     pub stage: StageKind,
+    /// The single supply voltage, V (> 0).
     pub supply: f64,
+    /// Mid-band gain from the source EMF to the load, V/V: negative for inverting, ≥ 1 for
+    /// non-inverting.
     pub gain: f64,
+    /// How far |gain| may stray from the asked |gain|, as a fraction (< 1).
     pub gain_tolerance: Option<f64>,
+    /// Least worst-case input resistance the stage may show to the source, Ω.
     pub input_resistance_min: Option<f64>,
+    /// Load resistance after the output coupling capacitor, to ground, Ω.
     pub load: f64,
+    /// Pass band (low, high), Hz.
     pub band: (f64, f64),
+    /// Most loss at each band edge against the ideal mid-band gain, dB (a positive number).
     pub band_loss_max: Option<f64>,
+    /// Highest worst-case corner 1/(2πRC) allowed for each coupling network, Hz.
     pub corner_low_max: Option<f64>,
-    /// Headroom the output needs to the (low, high) rail.
+    /// Headroom the output needs to the (low, high) rail, V.
     pub headroom: (f64, f64),
+    /// DC level of the source, V (may be negative).
     pub source_dc: f64,
+    /// The source's own resistance, in series with the input, Ω (≥ 0).
     pub source_resistance: f64,
+    /// Peak input signal that must pass without clipping at worst case, V.
     pub input_peak: Option<f64>,
+    /// Peak output signal the stage must reach without clipping at worst case, V.
     pub output_peak: Option<f64>,
+    /// Whether requirements are judged at worst case or at nominal values.
     pub tolerance_mode: ToleranceMode,
     /// Most current the bias divider may draw from the supply (battery life), A.
     pub bias_current_max: Option<f64>,
+    /// The op-amp's datasheet figures.
     pub amplifier: Amplifier,
+    /// Where the parts come from and what may be taken.
     pub stock: StockSpec,
+    /// Weights of the ranking terms.
     pub goals: Goals,
+    /// Slots fixed to a value: one per `[lock]` entry, sorted by slot name.
     pub locks: Vec<Lock>,
 }
 
@@ -199,6 +224,7 @@ impl Spec {
             .or(self.input_peak.map(|v| v * self.gain.abs()))
     }
 
+    /// True when requirements are judged at worst case ([`ToleranceMode::Worst`]).
     pub fn worst_case(&self) -> bool {
         self.tolerance_mode == ToleranceMode::Worst
     }
@@ -211,6 +237,7 @@ pub struct SpecError {
     pub key: String,
     /// 1-based line in the spec text, where it can be found.
     pub line: Option<usize>,
+    /// What is wrong and what was expected.
     pub message: String,
 }
 

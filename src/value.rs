@@ -2,7 +2,7 @@
 //!
 //! [`parse`] reads a number with an optional SI prefix and unit symbol, or an IEC 60062 RKM code
 //! ("4k7", "R47", "3u3"), checks that it is the kind of quantity the caller asked for, and
-//! returns it in SI base units. [`format`] and [`format_sig`] print a value back in engineering
+//! returns it in SI base units. [`format()`] and [`format_sig`] print a value back in engineering
 //! form ("4.7 kΩ", "100 nF").
 //!
 //! Numbers never go through float multiplication: the digits, the exponent, the SI prefix and
@@ -33,16 +33,27 @@ use std::fmt::Write as _;
 /// fraction and [`Unit::Decibel`] the dB number itself.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize)]
 pub enum Unit {
+    /// Resistance, Ω.
     Ohm,
+    /// Capacitance, F.
     Farad,
+    /// Voltage, V.
     Volt,
+    /// Current, A.
     Ampere,
+    /// Frequency, Hz.
     Hertz,
+    /// Slew rate, V/s (printed in V/µs).
     VoltPerSecond,
+    /// Power, W.
     Watt,
+    /// Tolerance or ratio, as a fraction (0.01 = 1 %); a bare number is read as percent.
     Percent,
+    /// Level in dB (the dB number itself).
     Decibel,
+    /// Voltage noise density, V/√Hz.
     VoltPerRootHz,
+    /// Current noise density, A/√Hz.
     AmpPerRootHz,
 }
 
@@ -695,7 +706,7 @@ pub fn format(value: f64, unit: Unit) -> String {
     format_sig(value, unit, 3)
 }
 
-/// [`format`] with `digits` significant digits (1 … 17; trailing zeros trimmed), e.g.
+/// [`format()`] with `digits` significant digits (1 … 17; trailing zeros trimmed), e.g.
 /// `format_sig(12345.6, Unit::Ohm, 4)` → "12.35 kΩ".
 ///
 /// Resistance, capacitance, voltage, current, frequency, power and noise densities take an SI

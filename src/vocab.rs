@@ -13,7 +13,9 @@ use std::fmt;
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum PartKind {
+    /// A resistor; values in Ω.
     Resistor,
+    /// A capacitor; values in F.
     Capacitor,
 }
 
@@ -99,13 +101,17 @@ pub fn implausible(kind: PartKind, value: f64) -> Option<String> {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum StageKind {
+    /// Inverting amplifier: gain −R_f/R_in, input through R_in to the virtual ground.
     Inverting,
+    /// Non-inverting amplifier: gain 1 + R_f/R_g, input on the op-amp's + input.
     NonInverting,
 }
 
 impl StageKind {
+    /// Every stage kind.
     pub const ALL: [StageKind; 2] = [StageKind::Inverting, StageKind::NonInverting];
 
+    /// The spec's name of the stage (`"inverting"`, `"non-inverting"`).
     pub fn name(self) -> &'static str {
         match self {
             StageKind::Inverting => "inverting",
@@ -113,6 +119,7 @@ impl StageKind {
         }
     }
 
+    /// Reads a stage name, case-insensitive and trimmed, `_` taken as `-`; `None` if unknown.
     pub fn parse(text: &str) -> Option<StageKind> {
         let t = text.trim().to_ascii_lowercase().replace('_', "-");
         StageKind::ALL.into_iter().find(|k| k.name() == t)
@@ -123,13 +130,19 @@ impl StageKind {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Combine {
+    /// One piece per slot.
     Single,
+    /// One piece, or two pieces in series.
     Series,
+    /// One piece, or two pieces in parallel.
     Parallel,
+    /// One piece, or two pieces in series or in parallel.
     Both,
 }
 
 impl Combine {
+    /// Reads the spec's `combine` word (`single`, `series`, `parallel`, `both`; case-insensitive,
+    /// trimmed); `None` if unknown.
     pub fn parse(text: &str) -> Option<Combine> {
         match text.trim().to_ascii_lowercase().as_str() {
             "single" => Some(Combine::Single),

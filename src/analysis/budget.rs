@@ -8,7 +8,7 @@
 //! bounds the output's deviation from nominal at every corner `analysis::evaluate` visits
 //! (triangle inequality), and equals it when one corner is the worst for every cause.
 //!
-//! Everything goes through `Stage::dc` and `DcErrors`, so a new stage needs nothing here.
+//! Everything goes through `Circuit::dc` and `DcErrors`, so a new stage needs nothing here.
 //! The budget is always worst-case, whatever the spec's `tolerance_mode`: it says what each
 //! cause *can* do.
 
@@ -36,6 +36,7 @@ pub struct DcBudget {
     /// Output DC with nominal parts and an error-free op-amp (the divider's voltage in our
     /// stages), V: the point the items deviate from.
     pub nominal_v: f64,
+    /// One item per cause, each the largest output shift it alone can make.
     pub items: Vec<BudgetItem>,
     /// Sum of the items: a bound on |V_out − nominal_v| over every tolerance and error corner.
     pub total_v: f64,

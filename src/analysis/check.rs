@@ -26,11 +26,17 @@ pub struct Check {
     pub name: String,
     /// What it means, for people.
     pub label: String,
+    /// The figure judged, in the check's unit.
     pub value: f64,
+    /// The requirement's limit, in the same unit.
     pub limit: f64,
+    /// Which side of the limit passes.
     pub bound: Bound,
+    /// How the value is shown: its unit, where [`Unit::Percent`] marks a gain ratio (names
+    /// `gain_…`) or a yes/no check (1 yes, 0 no).
     #[serde(skip)]
     pub unit: Unit,
+    /// True when the value is on the passing side of the limit (within 1e-12 relative).
     pub pass: bool,
     /// How far inside the limit (positive) or outside (negative), in the check's unit.
     pub margin: f64,

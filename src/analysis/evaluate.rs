@@ -18,24 +18,36 @@ use serde::Serialize;
 /// One coupling network's corner, nominal and worst.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct NetworkReport {
+    /// The network's name (`"input"`, `"gain leg"`, `"output"`).
     pub name: String,
+    /// Name of its capacitor's slot.
     pub cap_slot: String,
+    /// Nominal resistance the capacitor works against, Ω.
     pub resistance: f64,
+    /// Nominal corner 1/(2πRC), Hz (first-order high-pass, any circuit-theory text).
     pub corner_hz: f64,
+    /// Highest corner over the tolerance corners, Hz.
     pub corner_worst_hz: f64,
 }
 
 /// DC across one capacitor.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct CapReport {
+    /// Name of the capacitor's slot.
     pub slot: String,
+    /// Nominal DC across it, V: V(a) − V(b) of the ends the circuit names (`CapBias`).
     pub volts: f64,
+    /// Lowest DC across it over the resistor tolerances and op-amp error signs, V.
     pub volts_min: f64,
+    /// Highest DC across it over the same corners, V.
     pub volts_max: f64,
     /// Node the + lead goes to (for a polarised part), by the nominal bias.
     pub positive_side: String,
+    /// Node the − lead goes to.
     pub negative_side: String,
+    /// True when any of its pieces is polarised.
     pub polarized: bool,
+    /// Voltage the realisation can stand, V; `None` when a piece has no rating.
     pub rating: Option<f64>,
     /// Smallest rating that meets the derating: |V|max / 0.8.
     pub rating_needed: f64,
@@ -44,38 +56,56 @@ pub struct CapReport {
 /// Power in one resistor.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct PowerReport {
+    /// Name of the resistor's slot.
     pub slot: String,
+    /// Power dissipated at the nominal DC point with a sine of the required output peak (or,
+    /// without one, the worst-case swing), W.
     pub watts: f64,
+    /// Power the realisation can take, W (the weakest piece by its share); `None` when a piece
+    /// has no rating.
     pub rating: Option<f64>,
 }
 
 /// The figures of one build. Nominal unless the name says otherwise.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Metrics {
+    /// Mid-band gain from the source EMF to the load with an ideal op-amp, V/V (signed).
     pub gain: f64,
     /// |gain − target| / |target|.
     pub gain_error: f64,
     /// Worst-case range of the mid-band gain (signed).
     pub gain_min: f64,
+    /// Highest of the worst-case range (signed), V/V.
     pub gain_max: f64,
+    /// Input resistance the source sees at mid-band, Ω.
     pub input_resistance: f64,
+    /// Lowest input resistance over the tolerance corners, Ω.
     pub input_resistance_worst: f64,
     /// Exact −3 dB low corner of the whole response.
     pub low_corner_hz: Option<f64>,
+    /// Highest low corner over the tolerance corners, Hz; `None` when some corner has no passband.
     pub low_corner_worst_hz: Option<f64>,
+    /// Loss at the band's low edge against the ideal mid-band gain, dB.
     pub band_low_loss_db: f64,
+    /// Highest loss at the band's low edge over the tolerance corners, dB.
     pub band_low_loss_worst_db: f64,
     /// Exact −3 dB high corner (finite GBW), `None` with an ideal amplifier.
     pub high_corner_hz: Option<f64>,
+    /// Lowest high corner over the tolerance corners, Hz.
     pub high_corner_worst_hz: Option<f64>,
     /// GBW / noise gain, the single-pole estimate.
     pub high_corner_estimate_hz: Option<f64>,
+    /// Loss at the band's high edge against the ideal mid-band gain, dB.
     pub band_high_loss_db: f64,
+    /// Highest loss at the band's high edge over the tolerance corners, dB.
     pub band_high_loss_worst_db: f64,
+    /// Noise gain 1/β at mid-band, V/V (sets the bandwidth with a finite GBW).
     pub noise_gain: f64,
     /// Nominal DC output: divider and nominal bias current, no offset voltage.
     pub output_dc_v: f64,
+    /// Lowest DC output over the resistor tolerances and op-amp error signs, V.
     pub output_dc_min_v: f64,
+    /// Highest DC output over the same corners, V.
     pub output_dc_max_v: f64,
     /// Nominal output DC error the `offset` goal counts.
     pub offset_error_v: f64,
@@ -83,30 +113,42 @@ pub struct Metrics {
     pub swing_peak_v: f64,
     /// Worst-case input peak: swing / |gain|max.
     pub input_range_peak_v: f64,
+    /// Nominal current down the bias divider, A.
     pub divider_current_a: f64,
     /// Highest divider current over the tolerance corners.
     pub divider_current_worst_a: f64,
+    /// Number of physical pieces.
     pub part_count: usize,
+    /// Distinct stock lines the build takes from (see [`Build::bom_lines`]).
     pub bom_lines: usize,
+    /// Cost of the pieces, in the inventory's currency; `None` when a cost is unknown.
     pub cost: Option<f64>,
+    /// Each coupling network's corner.
     pub networks: Vec<NetworkReport>,
 }
 
 /// Everything known about one build.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Evaluation {
+    /// The build's figures.
     pub metrics: Metrics,
+    /// Every requirement judged, pass or fail.
     pub checks: Vec<Check>,
+    /// DC across each capacitor.
     pub caps: Vec<CapReport>,
+    /// Power in each resistor.
     pub power: Vec<PowerReport>,
     /// The ranking objective (lower is better).
     pub score: f64,
+    /// True when every check passes.
     pub pass: bool,
     /// Monte Carlo yield, for the builds that are reported (see [`complete`]).
     #[serde(rename = "yield", skip_serializing_if = "Option::is_none")]
     pub yield_report: Option<yield_mc::YieldReport>,
+    /// Output noise over the band, for the builds that are reported (see [`complete`]).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub noise: Option<noise::NoiseReport>,
+    /// Output DC error by cause, for the builds that are reported (see [`complete`]).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub dc_budget: Option<budget::DcBudget>,
 }

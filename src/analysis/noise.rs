@@ -82,6 +82,7 @@ pub struct SourceNoise {
 /// Noise of one build over the spec's band.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct NoiseReport {
+    /// Temperature the resistors' thermal noise is figured at, K.
     pub temperature_k: f64,
     /// The band's geometric centre, where the densities are given.
     pub mid_frequency_hz: f64,
@@ -89,6 +90,7 @@ pub struct NoiseReport {
     pub output_rms_v: f64,
     /// Output RMS ÷ |mid-band gain|: the noise referred to the source EMF.
     pub input_rms_v: f64,
+    /// Density at the load at the band's geometric centre, V/√Hz.
     pub output_density_mid: f64,
     /// Output density ÷ |response| at the centre.
     pub input_density_mid: f64,

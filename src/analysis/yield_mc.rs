@@ -41,6 +41,7 @@ pub struct YieldOptions {
     pub samples: usize,
     /// Seed of the generator: the same seed gives the same report.
     pub seed: u64,
+    /// How each piece's value spreads inside its tolerance.
     pub distribution: Distribution,
 }
 
@@ -61,8 +62,11 @@ impl Default for YieldOptions {
 /// Fractions (0..1) of the sampled builds that pass.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct YieldReport {
+    /// Number of simulated builds.
     pub samples: usize,
+    /// Seed of the generator.
     pub seed: u64,
+    /// How each piece's value was drawn.
     pub distribution: Distribution,
     /// Builds that pass every check.
     pub overall: f64,

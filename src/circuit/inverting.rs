@@ -26,13 +26,20 @@ use crate::vocab::PartKind;
 use crate::vocab::StageKind;
 use num_complex::Complex64;
 
+/// The single-supply inverting stage (six slots; see the module docs).
 pub struct Inverting;
 
+/// Slot index of `r_in`, the input resistor.
 pub const R_IN: usize = 0;
+/// Slot index of `r_fb`, the feedback resistor.
 pub const R_FB: usize = 1;
+/// Slot index of `r_bias_hi`, the bias divider's resistor from the supply to the + input.
 pub const R_BIAS_HI: usize = 2;
+/// Slot index of `r_bias_lo`, the bias divider's resistor from the + input to ground.
 pub const R_BIAS_LO: usize = 3;
+/// Slot index of `c_in`, the input coupling capacitor.
 pub const C_IN: usize = 4;
+/// Slot index of `c_out`, the output coupling capacitor.
 pub const C_OUT: usize = 5;
 
 const SLOTS: &[SlotDef] = &[
@@ -573,11 +580,14 @@ impl SearchPlan for Inverting {
 }
 
 impl Inverting {
+    /// Loss of coupling network `network` (index into [`Circuit::networks`]) at `f` Hz, dB: a
+    /// first-order high-pass, 10·log10(1 + (f_c/f)²) (any circuit-theory text).
     pub fn network_loss_db(&self, spec: &Spec, v: &[f64], network: usize, f: f64) -> f64 {
         let n = self.networks(spec, v)[network];
         common::high_pass_loss_db(n.resistance, n.capacitance, f)
     }
 
+    /// The bias divider's open-circuit voltage V·R_lo/(R_hi + R_lo), V (voltage divider).
     pub fn divider_voltage(&self, spec: &Spec, v: &[f64]) -> f64 {
         spec.supply * v[R_BIAS_LO] / (v[R_BIAS_HI] + v[R_BIAS_LO])
     }

@@ -1,7 +1,7 @@
 //! Schematic layout of a stage: where each slot's symbol sits and how the wires run, as plain
-//! data in drawing coordinates. Each stage module gives its own (`Stage::schematic_layout`), so
+//! data in drawing coordinates. Each stage module gives its own (`Drawing::schematic_layout`), so
 //! a new stage brings its drawing; `report::schematic` draws it, and a test there checks that
-//! the drawing's connections are exactly the stage's netlist (`Stage::spice_elements`).
+//! the drawing's connections are exactly the stage's netlist (`Drawing::spice_elements`).
 //!
 //! Coordinates are SVG pixels, x to the right and y down, on a 10 px grid by habit. The fixed
 //! parts of every stage (op-amp, source, load, supply and ground symbols) have fixed shapes;
@@ -15,9 +15,13 @@ pub struct P(pub i32, pub i32);
 /// Where a part's label goes, seen from the middle of its span.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Side {
+    /// Above the span.
     Above,
+    /// Below the span.
     Below,
+    /// Left of the span.
     Left,
+    /// Right of the span.
     Right,
 }
 
@@ -25,11 +29,15 @@ pub enum Side {
 /// [`MIN_SPAN`] long so that a two-piece realisation fits as two symbols).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct Placed {
+    /// Index of the slot.
     pub slot: usize,
+    /// One end of the symbol.
     pub from: P,
+    /// The other end of the symbol.
     pub to: P,
+    /// Where the part's label goes.
     pub label: Side,
-    /// For a capacitor: the name `Stage::cap_bias` gives the node at `from` (its `a_node` or
+    /// For a capacitor: the name `Circuit::cap_bias` gives the node at `from` (its `a_node` or
     /// `b_node`, e.g. "source side"), so that the drawing can put a polarised part's "+" at the
     /// end the analysis found positive. `None` for a resistor.
     pub from_side: Option<&'static str>,
@@ -69,10 +77,15 @@ pub const MIN_SPAN: i32 = 100;
 /// edge and the ground pin its lower edge, 50 px right of the inputs.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct OpAmpPins {
+    /// End of the upper input pin.
     pub upper: P,
+    /// End of the lower input pin (40 px below the upper).
     pub lower: P,
+    /// End of the output pin (130 px right, at mid-height).
     pub out: P,
+    /// End of the supply pin (50 px right, 40 px above the upper input).
     pub supply: P,
+    /// End of the ground pin (50 px right, 80 px below the upper input).
     pub ground: P,
 }
 
@@ -88,6 +101,7 @@ pub const fn opamp_pins(at: P) -> OpAmpPins {
 }
 
 impl Layout {
+    /// Where this layout's op-amp pins end.
     pub fn pins(&self) -> OpAmpPins {
         opamp_pins(self.opamp)
     }

@@ -27,14 +27,22 @@ use crate::vocab::StageKind;
 use num_complex::Complex64;
 use std::f64::consts::PI;
 
+/// The single-supply non-inverting stage (seven slots; see the module docs).
 pub struct NonInverting;
 
+/// Slot index of `c_in`, the input coupling capacitor.
 pub const C_IN: usize = 0;
+/// Slot index of `r_bias_hi`, the bias divider's resistor from the supply to the + input.
 pub const R_BIAS_HI: usize = 1;
+/// Slot index of `r_bias_lo`, the bias divider's resistor from the + input to ground.
 pub const R_BIAS_LO: usize = 2;
+/// Slot index of `r_fb`, the feedback resistor.
 pub const R_FB: usize = 3;
+/// Slot index of `r_g`, the gain resistor (− input to ground through `c_g`).
 pub const R_G: usize = 4;
+/// Slot index of `c_g`, the gain-leg capacitor.
 pub const C_G: usize = 5;
+/// Slot index of `c_out`, the output coupling capacitor.
 pub const C_OUT: usize = 6;
 
 const SLOTS: &[SlotDef] = &[
@@ -914,6 +922,9 @@ impl SearchPlan for NonInverting {
 }
 
 impl NonInverting {
+    /// Loss of coupling network `network` (index into [`Circuit::networks`]) at `f` Hz, dB: the
+    /// gain leg (1) as |G_mid/G(f)| with G(f) = 1 + R_fb/(R_g + 1/(jωC_g)); the others as a
+    /// first-order high-pass, 10·log10(1 + (f_c/f)²) (any circuit-theory text).
     pub fn network_loss_db(&self, spec: &Spec, v: &[f64], network: usize, f: f64) -> f64 {
         if network == 1 {
             return gain_leg_loss_db(v[R_FB], v[R_G], v[C_G], f);
@@ -922,6 +933,7 @@ impl NonInverting {
         common::high_pass_loss_db(n.resistance, n.capacitance, f)
     }
 
+    /// The bias divider's open-circuit voltage V·R_lo/(R_hi + R_lo), V (voltage divider).
     pub fn divider_voltage(&self, spec: &Spec, v: &[f64]) -> f64 {
         spec.supply * v[R_BIAS_LO] / (v[R_BIAS_HI] + v[R_BIAS_LO])
     }

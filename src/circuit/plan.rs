@@ -13,7 +13,9 @@ pub type Group = &'static [usize];
 /// tolerance (what a "large enough" requirement needs at worst case).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
 pub enum Coord {
+    /// The nominal value.
     Value,
+    /// The low end of the tolerance band (`SlotValue::min`).
     Low,
 }
 
@@ -28,6 +30,7 @@ impl Coord {
         }
     }
 
+    /// This coordinate of a candidate, in Ω or F.
     pub fn of(self, v: &SlotValue) -> f64 {
         match self {
             Coord::Value => v.value,
@@ -53,8 +56,11 @@ pub type BoundFn<'s> = Box<dyn Fn(f64, bool) -> Option<f64> + 's>;
 ///
 /// [`unimodal_sum`] turns a sum of terms each with one minimum into such a bound.
 pub struct WalkPlan<'s> {
+    /// Which figure of a candidate the walk orders by.
     pub coord: Coord,
+    /// Where the walk starts, in the units of `coord` (Ω or F).
     pub target: f64,
+    /// Lower bound of the group's share for a candidate (see the contract above).
     pub bound: BoundFn<'s>,
     /// Every candidate whose coordinate is outside `[window.0, window.1]` fails a requirement
     /// (whichever side of the target it is on), so the search can drop it without asking
@@ -105,12 +111,13 @@ impl WalkPlan<'static> {
 }
 
 /// A number per candidate, summed over some slots: Σᵢ fᵢ(part in slot sᵢ). The MILP engine
-/// turns it into Σ_c x[s][c]·f(c) over its choice variables.
+/// turns it into Σ_c x\[s\]\[c\]·f(c) over its choice variables.
 pub type SlotFn<'s> = Box<dyn Fn(&SlotValue) -> f64 + 's>;
 
 /// A sum over slots of a number per candidate (see [`SlotFn`]).
 #[derive(Default)]
 pub struct SlotSum<'s> {
+    /// The terms: a slot index and its number per candidate.
     pub terms: Vec<(usize, SlotFn<'s>)>,
 }
 
@@ -131,21 +138,30 @@ impl<'s> SlotSum<'s> {
 pub struct LogRow<'s> {
     /// What it stands for, for messages and tests.
     pub name: &'static str,
+    /// The left-hand side.
     pub sum: SlotSum<'s>,
+    /// True for `sum ≥ limit`, false for `sum ≤ limit`.
     pub at_least: bool,
+    /// The right-hand side.
     pub limit: f64,
 }
 
 /// An objective term `above·max(sum − target, 0) + below·max(target − sum, 0)` (points).
 pub struct AbsTerm<'s> {
+    /// What it stands for, for messages and tests.
     pub name: &'static str,
+    /// The quantity measured (a sum of logarithms of slot values).
     pub sum: SlotSum<'s>,
+    /// Where the term is zero.
     pub target: f64,
+    /// Points per unit of `sum` above `target`.
     pub above: f64,
+    /// Points per unit of `sum` below `target`.
     pub below: f64,
 }
 
 impl AbsTerm<'_> {
+    /// The term's points for a build's parts by slot.
     pub fn eval(&self, parts: &[SlotValue]) -> f64 {
         let d = self.sum.eval(parts) - self.target;
         if d >= 0.0 {
@@ -156,10 +172,12 @@ impl AbsTerm<'_> {
     }
 }
 
-/// What of a stage is linear in the logarithms of its values (see `Stage::log_model`).
+/// What of a stage is linear in the logarithms of its values (see `SearchPlan::log_model`).
 #[derive(Default)]
 pub struct LogModel<'s> {
+    /// Requirements as linear rows.
     pub rows: Vec<LogRow<'s>>,
+    /// Objective terms, each piecewise linear in its sum.
     pub terms: Vec<AbsTerm<'s>>,
     /// Further objective points, linear over the candidates.
     pub points: SlotSum<'s>,
@@ -193,7 +211,9 @@ pub fn relative_error_term<'s>(
 /// A term of a walk bound: a function with a single minimum at `mode` (nonincreasing below
 /// it, nondecreasing above). `mode` may be ±∞ for a monotone term.
 pub struct Term<'a> {
+    /// Where the term is least.
     pub mode: f64,
+    /// The term as a function of the walked coordinate.
     pub f: &'a dyn Fn(f64) -> f64,
 }
 

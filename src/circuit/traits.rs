@@ -19,7 +19,9 @@ use num_complex::Complex64;
 /// The equations of a circuit. Every method takes the slot values in the circuit's slot
 /// order (SI base units); nothing here knows about stock, search or reports.
 pub trait Circuit: Send + Sync {
+    /// Which kind of stage this circuit is.
     fn kind(&self) -> StageKind;
+    /// The circuit's slots, in slot order (the order of every `v` below).
     fn slots(&self) -> &'static [SlotDef];
     /// One line describing the circuit, for reports.
     fn topology(&self) -> &'static str;
@@ -77,7 +79,8 @@ pub trait Circuit: Send + Sync {
 /// How a circuit is drawn: between which netlist nodes each slot sits and where its symbol
 /// goes on the schematic.
 pub trait Drawing: Send + Sync {
-    /// sits, every slot once, in slot order. The source, supply, op-amp (its pins are
+    /// Between which netlist nodes each slot's part sits, every slot once, in slot order. The
+    /// source, supply, op-amp (its pins are
     /// `PlusInput`, `MinusInput`, `AmpOut`) and load are the same for every stage and are
     /// added by the writer; the stage only wires its slots, so its netlist cannot drift from
     /// its equations without the ngspice test (tests/ngspice.rs) noticing.

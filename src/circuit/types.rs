@@ -10,7 +10,9 @@ use num_complex::Complex64;
 /// `--lock`, `--set`).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct SlotDef {
+    /// The slot's name (`r_in`, `c_out`, …).
     pub name: &'static str,
+    /// Resistor or capacitor.
     pub kind: PartKind,
     /// What the part does, for reports.
     pub role: &'static str,
@@ -20,12 +22,16 @@ pub struct SlotDef {
 /// `vos` is added to the differential input (the amplifier drives V− to V+ + vos).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct DcErrors {
+    /// Current into the + input, A.
     pub ib_plus: f64,
+    /// Current into the − input, A.
     pub ib_minus: f64,
+    /// Input offset voltage, V.
     pub vos: f64,
 }
 
 impl DcErrors {
+    /// An ideal op-amp: no bias currents, no offset.
     pub const NONE: DcErrors = DcErrors {
         ib_plus: 0.0,
         ib_minus: 0.0,
@@ -68,8 +74,11 @@ impl DcErrors {
 /// The DC operating point, capacitors open.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct DcPoint {
+    /// Voltage at the + input, V.
     pub v_plus: f64,
+    /// Voltage at the − input, V.
     pub v_minus: f64,
+    /// Voltage at the op-amp's output, V.
     pub v_out: f64,
     /// Current down the bias divider.
     pub divider_current: f64,
@@ -79,9 +88,13 @@ pub struct DcPoint {
 /// corner 1/(2πRC).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Network {
+    /// Which network, for reports (`"input"`, `"output"`, …).
     pub name: &'static str,
+    /// Index of its capacitor's slot.
     pub cap_slot: usize,
+    /// The resistance the capacitor works against, Ω.
     pub resistance: f64,
+    /// The capacitance, F.
     pub capacitance: f64,
 }
 
@@ -95,9 +108,14 @@ impl Network {
 /// DC across a capacitor: `volts` is V(`a_node`) − V(`b_node`).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct CapBias {
+    /// Index of the capacitor's slot.
     pub slot: usize,
+    /// V(`a_node`) − V(`b_node`), V.
     pub volts: f64,
+    /// The end taken as positive, in words (`"op-amp side"`); a polarised part's + goes here
+    /// when `volts` ≥ 0.
     pub a_node: &'static str,
+    /// The other end, in words (`"load side"`).
     pub b_node: &'static str,
 }
 
@@ -105,6 +123,7 @@ pub struct CapBias {
 /// `None` GBW means ideal (infinite gain).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct OpAmp {
+    /// Gain-bandwidth product, Hz; `None` for an ideal amplifier.
     pub gbw: Option<f64>,
 }
 
@@ -113,6 +132,7 @@ pub struct OpAmp {
 pub const OPEN_LOOP_GAIN: f64 = 1e6;
 
 impl OpAmp {
+    /// The amplifier the spec describes.
     pub fn of(spec: &Spec) -> OpAmp {
         OpAmp {
             gbw: spec.amplifier.gbw,
@@ -167,8 +187,11 @@ pub enum Node {
 /// `a`–`b`); the netlist writer does that, numbering and value formatting.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct SpiceElement {
+    /// Index of the slot.
     pub slot: usize,
+    /// One end of the part.
     pub a: Node,
+    /// The other end of the part.
     pub b: Node,
 }
 
@@ -187,10 +210,15 @@ pub enum NoisePlace {
 /// ground), Z_p (+ to AC ground) — the output coupling H_out, and the resistors that make
 /// noise, by name, value and place.
 pub struct NoiseCircuit {
+    /// Z_f: feedback impedance, output to − input, Ω.
     pub z_f: Complex64,
+    /// Z_s: shunt impedance, − input to AC ground, Ω.
     pub z_s: Complex64,
+    /// Z_p: impedance from the + input to AC ground, Ω.
     pub z_p: Complex64,
+    /// H_out: transfer of the output coupling from the op-amp's output to the load.
     pub h_out: Complex64,
+    /// The resistors that make noise: name (a slot, or `source_resistance`), value in Ω, place.
     pub resistors: Vec<(&'static str, f64, NoisePlace)>,
 }
 

@@ -3,7 +3,7 @@
 //! slots, value, tolerance, quantity, rating, polarity and dielectric, the inventory's location
 //! and note, unit and line cost, and a total row.
 //!
-//! As CSV ([`csv`]) it follows RFC 4180 (quoted where needed, CRLF line ends), and every cell
+//! As CSV ([`csv()`]) it follows RFC 4180 (quoted where needed, CRLF line ends), and every cell
 //! that begins with `=`, `+`, `-`, `@`, a tab or a carriage return is prefixed with a single
 //! quote, as the OWASP "CSV Injection" guidance advises, so that a note typed into an inventory
 //! cannot run as a formula when the BOM is opened in a spreadsheet.
@@ -20,6 +20,7 @@ use crate::vocab::PartKind;
 /// One line to fetch.
 #[derive(Debug, Clone, PartialEq)]
 pub struct BomRow {
+    /// Resistor or capacitor.
     pub kind: PartKind,
     /// R1, R3 … in designator order.
     pub designators: Vec<String>,
@@ -27,18 +28,25 @@ pub struct BomRow {
     pub slots: Vec<String>,
     /// SI base units.
     pub value: f64,
+    /// Tolerance as a fraction (0.01 = 1 %).
     pub tolerance: f64,
+    /// Pieces to fetch.
     pub quantity: usize,
     /// Pieces on hand on this inventory line; `None` for a series value.
     pub on_hand: Option<u32>,
     /// Voltage rating of a capacitor, power rating of a resistor.
     pub rating: Option<f64>,
+    /// True for a polarised capacitor (mind the + marking).
     pub polarized: bool,
+    /// Capacitor dielectric as the inventory writes it, where given.
     pub dielectric: Option<String>,
     /// 1-based data row of the inventory CSV.
     pub inventory_row: Option<usize>,
+    /// Where the pieces are kept, from the inventory.
     pub location: Option<String>,
+    /// The inventory's note for the line.
     pub note: Option<String>,
+    /// Price of one piece in the inventory's currency, where given.
     pub unit_cost: Option<f64>,
     /// `unit_cost × quantity`; 0 for a locked part (already on the board).
     pub line_cost: Option<f64>,
@@ -56,8 +64,8 @@ fn line_of(stock: Option<&Stock>, kind: PartKind, row: usize) -> Option<&Line> {
 
 /// What makes two pieces one line to fetch: the same inventory row, or (for a series value or
 /// a lock) the same kind, value and tolerance. Values compare by their 12 significant digits,
-/// which tells every IEC 60063 value apart at any decade (`LineKey`'s fixed point does not
-/// reach above about 9 nF for capacitors).
+/// which tells every IEC 60063 value apart at any decade; unlike `LineKey`, a locked part never
+/// shares a row with pieces to fetch.
 #[derive(Debug, Clone, PartialEq, Eq)]
 enum Key {
     Row(PartKind, usize),

@@ -6,8 +6,10 @@
 /// errors they do not expect to have.
 #[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
 pub enum RenderError {
+    /// The plotting library could not draw the plot.
     #[error("could not draw the frequency-response plot: {0}")]
     Plot(String),
+    /// The CSV writer failed.
     #[error("could not write the BOM as CSV: {0}")]
     Csv(String),
 }

@@ -1,7 +1,7 @@
 //! Reference designators (R1…, C1…, U1) of a build's pieces: one numbering for the SPICE
 //! netlist, the schematic, the BOM and the HTML report, so that they all name a piece alike.
 //!
-//! Pieces are numbered per letter in the order of `Stage::spice_elements` (every slot once, in
+//! Pieces are numbered per letter in the order of `Drawing::spice_elements` (every slot once, in
 //! slot order), piece by piece within a slot: the usual practice of numbering by kind
 //! (common practice; IEEE 315 / IEC 81346 letter codes R and C, from memory).
 

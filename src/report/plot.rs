@@ -2,7 +2,7 @@
 //! nominal curve with the worst-case envelope over every tolerance corner, the band shaded, the
 //! −3 dB corners and the losses at the band's edges marked. Drawn with `plotters` into a string.
 //!
-//! The curves come from the stage's own transfer function (`Stage::response`), the same one the
+//! The curves come from the stage's own transfer function (`Circuit::response`), the same one the
 //! analysis judges; the envelope is the pointwise min and max over the corners of the tolerance
 //! box (`circuit::common::vertices`, the extreme-value rule of the analysis).
 
@@ -19,6 +19,7 @@ use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 /// Size of the drawing in pixels.
 pub const WIDTH: u32 = 960;
+/// Height of the drawing in pixels.
 pub const HEIGHT: u32 = 720;
 /// Frequencies per decade of the sweep: smooth at the plot's resolution (the corners it marks
 /// come from the analysis, not from the samples).
@@ -39,12 +40,19 @@ const INK: RGBColor = RGBColor(40, 40, 40);
 /// degrees (unwrapped outward from the band's centre).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Sweep {
+    /// Frequencies of the samples, Hz, log-spaced, ascending.
     pub freq: Vec<f64>,
+    /// Nominal magnitude of the response from the source EMF to the load, dB (20·log10 |H|).
     pub gain_db: Vec<f64>,
+    /// Lowest magnitude over the tolerance corners, dB.
     pub gain_db_min: Vec<f64>,
+    /// Highest magnitude over the tolerance corners, dB.
     pub gain_db_max: Vec<f64>,
+    /// Nominal phase, degrees.
     pub phase_deg: Vec<f64>,
+    /// Lowest phase over the tolerance corners, degrees.
     pub phase_deg_min: Vec<f64>,
+    /// Highest phase over the tolerance corners, degrees.
     pub phase_deg_max: Vec<f64>,
     /// Tolerance corners the envelope covers (1 in nominal mode).
     pub corners: usize,

@@ -1,4 +1,4 @@
-//! Schematic of one build as SVG: the stage drawn from its own layout (`Stage::schematic_layout`)
+//! Schematic of one build as SVG: the stage drawn from its own layout (`Drawing::schematic_layout`)
 //! with the chosen values, reference designators, supply, ground, source and load, and the "+"
 //! of every polarised capacitor on the side the DC analysis found positive.
 //!

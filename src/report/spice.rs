@@ -1,4 +1,4 @@
-//! SPICE netlist of one build: the stage's slots wired as the stage says (`Stage::spice_elements`),
+//! SPICE netlist of one build: the stage's slots wired as the stage says (`Drawing::spice_elements`),
 //! plus the source, supply, load and a behavioural op-amp with the analysis's own model, as a
 //! plain circuit (comment title line, elements, one subcircuit, `.end`, no `.control`) that
 //! ngspice reads on its own or through `.include` from a deck that adds the analyses.
@@ -30,14 +30,23 @@ use std::fmt::Write;
 
 /// Node names (see the module table).
 pub mod node {
+    /// Ground, `0`.
     pub const GROUND: &str = "0";
+    /// The single supply, `vcc`.
     pub const SUPPLY: &str = "vcc";
+    /// The source EMF, `in`.
     pub const IN: &str = "in";
+    /// Far side of the source resistance, `in_rs` (only when it is not 0).
     pub const IN_RS: &str = "in_rs";
+    /// The op-amp's + pin, `inp`.
     pub const PLUS: &str = "inp";
+    /// The + pin after the offset source, `inp_vos` (what the amplifier sees).
     pub const PLUS_VOS: &str = "inp_vos";
+    /// The op-amp's − pin, `inn`.
     pub const MINUS: &str = "inn";
+    /// The op-amp's output, `amp_out`.
     pub const AMP_OUT: &str = "amp_out";
+    /// The load side of the output coupling, `out`.
     pub const OUT: &str = "out";
     /// Every fixed name; a stage's internal nodes must be none of these.
     pub const FIXED: &[&str] = &[

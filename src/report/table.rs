@@ -12,6 +12,7 @@ use std::fmt::Write;
 /// Terminal styling: colour only when the binary says the terminal wants it.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct Style {
+    /// Colour the output with ANSI escapes.
     pub color: bool,
 }
 
@@ -566,6 +567,8 @@ fn detail_lines(spec: &Spec, stage: &dyn Circuit, ranked: &Ranked, style: Style)
     out
 }
 
+/// The cautions the reports show (polarised capacitors, ratings, mains), one `!` line each
+/// under a `Cautions` heading; they defer to the datasheets, local codes and licensed practice.
 pub fn cautions() -> String {
     let mut out = String::from("Cautions\n");
     for c in CAUTIONS {

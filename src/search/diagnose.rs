@@ -21,9 +21,11 @@ use crate::vocab::PartKind;
 pub struct Blocker {
     /// Spec key, e.g. `stage.input_resistance_min`.
     pub key: String,
+    /// The limit the spec asks for, in `unit`.
     pub limit: f64,
     /// The tightest limit the stock meets (with every other requirement kept).
     pub reachable: f64,
+    /// The unit of `limit`, `reachable` and `reached`.
     #[serde(skip)]
     pub unit: Unit,
     /// The best value the stock reaches for this requirement (the build nearest to the limit,
@@ -32,6 +34,7 @@ pub struct Blocker {
     pub reached: Option<f64>,
     /// Slots whose part in that build is already the end of the stock's range.
     pub limits: Vec<PartLimit>,
+    /// One sentence for people: the limit, what the stock reaches, and a relaxation that works.
     pub message: String,
     /// Further lines for people: which part's range blocks and what it would need.
     pub notes: Vec<String>,
@@ -41,7 +44,9 @@ pub struct Blocker {
 /// the largest (or smallest) value of its kind the stock offers.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct PartLimit {
+    /// The slot's name.
     pub slot: String,
+    /// Resistor or capacitor.
     pub kind: PartKind,
     /// true: the largest value in stock; false: the smallest.
     pub largest: bool,
@@ -53,8 +58,10 @@ pub struct PartLimit {
     pub needed: Option<f64>,
 }
 
+/// Why no build meets the spec: the blocking requirements and the nearest build.
 #[derive(Debug, Clone)]
 pub struct Diagnosis {
+    /// Each requirement that, dropped alone, lets a build exist.
     pub blockers: Vec<Blocker>,
     /// True when dropping any single requirement is not enough.
     pub several: bool,

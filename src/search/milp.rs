@@ -7,7 +7,7 @@
 //! choice that uses the line, so the objective counts distinct lines), the inventory's
 //! quantities as rows over the choices that take pieces of a line, and the stage's
 //! requirements and objective terms that are linear in the logarithms of the values
-//! (`Stage::log_model`: gain window, input resistance, coupling corners, divider ratio window
+//! (`SearchPlan::log_model`: gain window, input resistance, coupling corners, divider ratio window
 //! as rows; gain error and offset as lower-bounding terms). The objective — slot points,
 //! lines, those terms — never exceeds the exact score of a build that passes.
 //!

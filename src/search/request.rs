@@ -15,7 +15,9 @@ use std::sync::Arc;
 /// One ranked build.
 #[derive(Debug, Clone)]
 pub struct Ranked {
+    /// The parts, in the circuit's slot order.
     pub build: Build,
+    /// Its exact analysis and score.
     pub evaluation: Evaluation,
 }
 
@@ -25,58 +27,89 @@ pub enum Progress {
     /// The walk search: the slot at the top of the tree (index into the stage's slots), its
     /// candidates read so far, and how many it has.
     Walk {
+        /// Index of the slot at the top of the tree.
         slot: usize,
+        /// Its candidates read so far.
         done: usize,
+        /// Its candidates in all.
         total: usize,
     },
     /// The MILP engine: models solved so far, and the N-th best score found (∞ until N).
-    Milp { solved: usize, best: f64 },
+    Milp {
+        /// Models solved so far.
+        solved: usize,
+        /// The N-th best score found, ∞ until N builds are found.
+        best: f64,
+    },
 }
 
 /// What a search did.
 #[derive(Debug, Clone, Default)]
 pub struct Stats {
+    /// Candidates per slot, in slot order (1 for a locked slot).
     pub candidates: Vec<usize>,
+    /// Search nodes visited (the walk engine) or MILP models solved (the MILP engine).
     pub nodes: u64,
-    /// True when the search stopped before it was complete (`max_nodes`, or its [`Stop`]):
-    /// its builds are the best found, not proven the best.
+    /// True when the search stopped before it was complete (`max_nodes`, the MILP engine's
+    /// cap on solves, or its [`Stop`]): its builds are the best found, not proven the best.
     pub truncated: bool,
     /// True when the [`Stop`] (a time limit or an interrupt) ended it.
     pub stopped: bool,
     /// Nodes per group, to see where a search spends its time.
     pub nodes_by_group: Vec<u64>,
+    /// Complete builds judged by the exact analysis.
     pub evaluated: u64,
 }
 
+/// What a search answers: the best builds, best first, and what it did.
 #[derive(Debug, Clone)]
 pub struct Outcome {
+    /// The best builds that pass, best (lowest score) first; empty when none passes.
     pub builds: Vec<Ranked>,
+    /// What the search did.
     pub stats: Stats,
 }
 
+/// Why a search could not run.
 #[derive(Debug, thiserror::Error, PartialEq)]
 pub enum SearchError {
+    /// A slot has no candidate in the stock's range.
     #[error(
         "the stock has no {kind} for slot `{slot}` within {range}; widen the range or add stock"
     )]
     NoCandidates {
+        /// The slot's name.
         slot: String,
+        /// Its part kind, in words.
         kind: String,
+        /// The allowed range, as printed.
         range: String,
     },
+    /// Pairs of every two lines would make more realisations than the search takes.
     #[error(
         "combine = \"{combine}\" makes more than {limit} {kind} realisations from the \
          stock's {lines} {kind} lines (every two of them paired), more than the search takes; \
          use combine = \"single\", narrow the {kind} range, or a stock with fewer lines"
     )]
     TooManyRealisations {
+        /// The part kind, in words.
         kind: String,
+        /// Lines of that kind in the stock.
         lines: usize,
+        /// The spec's `combine` setting.
         combine: String,
+        /// Most realisations per kind the search takes.
         limit: usize,
     },
     #[error("the MILP model would have {choices} choice variables, more than the MILP engine takes ({limit}); use `--engine walk`, narrow the ranges, or lock a slot")]
-    ModelTooLarge { choices: usize, limit: usize },
+    /// The MILP model would be larger than the MILP engine takes.
+    ModelTooLarge {
+        /// Choice variables the model would have.
+        choices: usize,
+        /// Most choice variables the engine takes.
+        limit: usize,
+    },
+    /// The MILP solver returned an error.
     #[error("the MILP solver failed: {0}; `--engine walk` does not use it")]
     Solver(String),
 }
@@ -85,14 +118,18 @@ pub enum SearchError {
 /// any stock size) or the MILP engine (`milp`, good_lp with microlp), which must agree.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum Engine {
+    /// The walk search (branch and bound over the plan's groups).
     #[default]
     Walk,
+    /// The MILP engine (good_lp with microlp), every answer re-checked by the exact analysis.
     Milp,
 }
 
 impl Engine {
+    /// Both engines.
     pub const ALL: [Engine; 2] = [Engine::Walk, Engine::Milp];
 
+    /// The engine's name on the command line (`"walk"`, `"milp"`).
     pub fn name(self) -> &'static str {
         match self {
             Engine::Walk => "walk",
@@ -100,6 +137,7 @@ impl Engine {
         }
     }
 
+    /// Reads an engine name, case-insensitive and trimmed; `None` if unknown.
     pub fn parse(s: &str) -> Option<Engine> {
         Engine::ALL
             .into_iter()
@@ -109,11 +147,15 @@ impl Engine {
 
 /// A request: what to search and how many builds to keep.
 pub struct Request<'a> {
+    /// The requirement.
     pub spec: &'a Spec,
+    /// The circuit of the spec's stage.
     pub stage: &'a dyn Circuit,
+    /// What may be taken.
     pub stock: &'a Stock,
     /// Parts fixed by the user, by slot index.
     pub locks: &'a [(usize, Part)],
+    /// How many builds to keep (at least 1).
     pub top: usize,
     /// Stop after this many search nodes (the result is then not proven); `None`: no limit.
     pub max_nodes: Option<u64>,

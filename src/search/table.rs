@@ -28,6 +28,7 @@ pub const NONE: u32 = u32::MAX;
 /// node needs them, `Table::slot_value`), since there can be a few hundred thousand.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Real {
+    /// Nominal value, Ω or F.
     pub value: f64,
     /// The low end of its tolerance (`Part::min`).
     pub min: f64,
@@ -35,11 +36,14 @@ pub struct Real {
     pub pts: f64,
     /// Pieces by index into [`Table::pieces`]; `a ≤ b` (value order), `b == NONE` for one.
     pub a: u32,
+    /// Second piece by index, [`NONE`] for a single piece.
     pub b: u32,
+    /// How the pieces are connected.
     pub arr: Arrangement,
 }
 
 impl Real {
+    /// The realisation's value at this coordinate (nominal, or the low end of its tolerance).
     pub fn coord(&self, coord: Coord) -> f64 {
         match coord {
             Coord::Value => self.value,
@@ -70,9 +74,11 @@ impl Real {
 pub struct Sorted {
     /// Realisation (or piece) indices, ascending by `coord`.
     pub ids: Vec<u32>,
+    /// Each position's coordinate, ascending.
     pub coord: Vec<f64>,
     /// `up[i]` = least key of positions ≥ i; `down[i]` = least key of positions ≤ i.
     pub up: Vec<f64>,
+    /// See `up`.
     pub down: Vec<f64>,
 }
 
@@ -238,10 +244,12 @@ impl Sorted {
         }
     }
 
+    /// Number of candidates.
     pub fn len(&self) -> usize {
         self.ids.len()
     }
 
+    /// True when there are no candidates.
     pub fn is_empty(&self) -> bool {
         self.ids.is_empty()
     }
@@ -427,10 +435,12 @@ pub fn more_realisations_than(stock: &Stock, kind: PartKind, limit: usize) -> Op
 /// One stock piece with what the search reads of it.
 #[derive(Debug, Clone)]
 pub struct PieceRow {
+    /// The piece.
     pub piece: Piece,
     /// Slot points of this piece alone, without its cost when some piece of the kind has no
     /// known cost (a pair with such a piece counts no cost, so this stays a lower bound).
     pub pts_lb: f64,
+    /// The stock line it comes from.
     pub line: LineKey,
     /// Pieces on hand; `None` unlimited.
     pub qty: Option<u32>,
@@ -438,8 +448,11 @@ pub struct PieceRow {
 
 /// The candidates of one kind.
 pub struct Table {
+    /// The kind of part.
     pub kind: PartKind,
+    /// The stock's pieces of this kind within the range, ascending by value.
     pub pieces: Vec<PieceRow>,
+    /// Every realisation the `combine` setting allows.
     pub reals: Vec<Real>,
     /// Piece index by line, to find the pieces of lines a build already uses.
     pub by_line: HashMap<LineKey, u32>,
@@ -731,6 +744,7 @@ impl Table {
         }
     }
 
+    /// Points per stock line (`objective::line_weight`), added for each new line a build uses.
     pub fn line_cost(&self) -> f64 {
         self.lambda
     }

@@ -134,6 +134,7 @@ fn run_order(r: &Run) -> (u8, u32) {
 pub struct Item {
     /// Lower bound of slot points + new lines + stage bound, nondecreasing along the walk.
     pub key: f64,
+    /// The realisation.
     pub real: Real,
     /// Which side of the target it was met on (for reading the stage bound of this one item).
     pub up: bool,

@@ -22,8 +22,11 @@ use super::inventory::{parse_bytes, Inventory, InventoryError, Line};
 pub struct Shortfall {
     /// Data row ([`Line::row`]).
     pub row: usize,
+    /// 1-based line number in the file.
     pub file_line: usize,
+    /// Pieces the line has.
     pub on_hand: u32,
+    /// Pieces the deductions ask for, summed over the row.
     pub wanted: u64,
 }
 
@@ -33,14 +36,25 @@ pub enum EditError {
     /// The original does not load as an inventory.
     #[error("{0}")]
     Inventory(#[from] InventoryError),
+    /// A deduction names a data row the inventory does not have.
     #[error("data row {row} does not exist (the inventory has {rows} rows)")]
-    NoSuchRow { row: usize, rows: usize },
+    NoSuchRow {
+        /// The row asked for ([`Line::row`]).
+        row: usize,
+        /// How many data rows the inventory has.
+        rows: usize,
+    },
     /// Every line with too few pieces, in row order.
     #[error("{}", shortfall_message(.0))]
     TooFew(Vec<Shortfall>),
     /// The `qty` cell of a row could not be located as plain digits in the raw bytes.
     #[error("line {file_line}: cannot edit the qty cell in place: {reason}")]
-    Layout { file_line: usize, reason: String },
+    Layout {
+        /// 1-based line of the row in the file.
+        file_line: usize,
+        /// How the cell is written that keeps it from being edited in place.
+        reason: String,
+    },
     /// The edited file does not load back as the original with only the quantities changed.
     /// A bug guard: the edit is refused rather than written.
     #[error("the edited inventory does not read back as expected ({0}); nothing was changed")]

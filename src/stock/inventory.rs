@@ -35,6 +35,8 @@ pub struct Line {
     pub row: usize,
     /// 1-based line number in the file (a header on the first line is line 1), for messages.
     pub file_line: usize,
+    /// Resistor or capacitor, from the `kind` cell (`r`, `res`, `resistor`, `c`, `cap`,
+    /// `capacitor`, any case).
     pub kind: PartKind,
     /// SI: ohm for a resistor, farad for a capacitor. Always finite and > 0.
     pub value: f64,
@@ -48,16 +50,20 @@ pub struct Line {
     pub power: Option<f64>,
     /// Polarized part (electrolytic, tantalum); `false` when the cell is empty or absent.
     pub polarized: bool,
+    /// Capacitor dielectric as written (`C0G`, `X7R`, …), where given.
     pub dielectric: Option<String>,
     /// Cost of one piece, in whatever currency the file uses (a leading symbol is stripped).
     pub unit_cost: Option<f64>,
+    /// Where the pieces are kept (drawer, bin), as written.
     pub location: Option<String>,
+    /// Free text from the `note` column.
     pub note: Option<String>,
 }
 
 /// A loaded stock list, lines in file order.
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct Inventory {
+    /// The data rows, in file order (`lines[i].row == i + 1`).
     pub lines: Vec<Line>,
     /// Per line (same index): where the digits of its `qty` cell are in the bytes it was
     /// loaded from, or why they cannot be edited in place. See [`Inventory::qty_digits`].
@@ -73,9 +79,13 @@ pub type QtyDigits = Result<std::ops::Range<usize>, &'static str>;
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[error("line {file_line}, column `{column}`: found {found:?}, expected {expected}")]
 pub struct RowError {
+    /// 1-based line number in the file.
     pub file_line: usize,
+    /// The column's name as the header writes it, or `#n` for cell n past the header's columns.
     pub column: String,
+    /// The cell as written.
     pub found: String,
+    /// What the column takes, with examples.
     pub expected: String,
 }
 
@@ -85,28 +95,50 @@ pub enum InventoryError {
     /// The header (the first row that is not blank or a comment) lacks required columns.
     #[error("line {file_line}: {}", missing_message(.missing, .found))]
     MissingColumns {
+        /// 1-based file line of the header.
         file_line: usize,
+        /// The required columns it lacks.
         missing: Vec<String>,
         /// The header's cells as written.
         found: Vec<String>,
     },
     /// Nothing but blank lines and comments (or nothing at all).
     #[error("line {file_line}: no header row: the file is empty or holds only comments and blank lines; expected a first row such as `kind,value,tolerance,qty`")]
-    NoHeader { file_line: usize },
+    NoHeader {
+        /// Always 1, the start of the file.
+        file_line: usize,
+    },
     /// The text is not well-formed CSV (or could not be read at all).
     #[error("line {file_line}: malformed CSV: {message}")]
-    Csv { file_line: usize, message: String },
+    Csv {
+        /// 1-based line of the fault: where an unclosed quote opens, or where reading stopped.
+        file_line: usize,
+        /// What went wrong.
+        message: String,
+    },
     /// The bad cells of the rows, in file order: the first [`MAX_LISTED_PROBLEMS`] in full,
     /// and how many more were found.
     #[error("{}", rows_message(.errors, *.more))]
-    Rows { errors: Vec<RowError>, more: usize },
+    Rows {
+        /// The problems described, in file order.
+        errors: Vec<RowError>,
+        /// How many more were found and only counted.
+        more: usize,
+    },
+    /// A header and no data rows.
     #[error("line {header_line}: the inventory has a header but no data rows")]
-    Empty { header_line: usize },
+    Empty {
+        /// 1-based file line of the header.
+        header_line: usize,
+    },
     /// More than [`MAX_INVENTORY_BYTES`] bytes, or more than [`MAX_INVENTORY_LINES`] lines
     /// (`file_line` is then the first line past the limit). Refused before parsing, so a wrong
     /// file (a disk image, a log) costs bounded memory.
     #[error("{}", too_large_message(*.file_line))]
-    TooLarge { file_line: Option<usize> },
+    TooLarge {
+        /// The first line past [`MAX_INVENTORY_LINES`]; `None` when the bytes are too many.
+        file_line: Option<usize>,
+    },
 }
 
 /// Largest inventory read: 16 MiB. The largest shipped stock list is about 30 kB; a real
@@ -172,7 +204,9 @@ fn rows_message(errors: &[RowError], more: usize) -> String {
 /// The smallest and largest of some rating or value.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct Range {
+    /// Smallest value, SI base units.
     pub min: f64,
+    /// Largest value, SI base units.
     pub max: f64,
 }
 
@@ -192,7 +226,9 @@ impl Range {
 /// drawers, or at two power ratings). Not an error: the search may combine their quantities.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Duplicate {
+    /// The shared value, Ω or F.
     pub value: f64,
+    /// The shared tolerance, as a fraction.
     pub tolerance: f64,
     /// The data rows ([`Line::row`]) holding this value, ascending.
     pub rows: Vec<usize>,
@@ -201,6 +237,7 @@ pub struct Duplicate {
 /// Facts about the lines of one kind.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct KindSummary {
+    /// Which kind these facts are about.
     pub kind: PartKind,
     /// Number of lines of this kind.
     pub lines: usize,
@@ -229,7 +266,9 @@ pub struct KindSummary {
 /// A summary of an inventory, per kind.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Summary {
+    /// Facts about the resistor lines.
     pub resistors: KindSummary,
+    /// Facts about the capacitor lines.
     pub capacitors: KindSummary,
 }
 

@@ -19,11 +19,19 @@ use std::sync::Arc;
 /// Where the parts of one kind come from.
 #[derive(Debug, Clone)]
 pub enum Source {
-    Series { series: Series, tolerance: f64 },
+    /// Every value of an IEC 60063 series in the allowed range, in unlimited pieces.
+    Series {
+        /// The series (E3 … E192).
+        series: Series,
+        /// Tolerance of every piece, as a fraction (0.01 = 1 %).
+        tolerance: f64,
+    },
+    /// An inventory: its lines, each with a quantity on hand.
     Inventory(Arc<Inventory>),
 }
 
 impl Source {
+    /// Short description for reports: `"E24 at 1 %"` or `"inventory (12 lines)"`.
     pub fn describe(&self) -> String {
         match self {
             Source::Series { series, tolerance } => format!(
@@ -40,18 +48,26 @@ impl Source {
 /// realised (the spec's `[stock]` limits).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Limits {
+    /// Lowest and highest resistor value allowed, Ω.
     pub resistor_range: (f64, f64),
+    /// Lowest and highest capacitor value allowed, F.
     pub capacitor_range: (f64, f64),
+    /// How a slot may be realised (one piece, or a series or parallel pair).
     pub combine: Combine,
 }
 
 /// The stock a search draws from.
 #[derive(Debug, Clone)]
 pub struct Stock {
+    /// Where resistors come from.
     pub resistors: Source,
+    /// Where capacitors come from.
     pub capacitors: Source,
+    /// Lowest and highest resistor value allowed, Ω (pairs included).
     pub resistor_range: (f64, f64),
+    /// Lowest and highest capacitor value allowed, F (pairs included).
     pub capacitor_range: (f64, f64),
+    /// How a slot may be realised (one piece, or a series or parallel pair).
     pub combine: Combine,
     /// Pieces on hand by inventory row (index = row), per kind: resistors, capacitors.
     qty: [Vec<u32>; 2],
@@ -71,6 +87,8 @@ fn piece_of(line: &Line) -> Piece {
 }
 
 impl Stock {
+    /// A stock from one source per kind and the spec's limits; records each inventory row's
+    /// quantity on hand.
     pub fn new(resistors: Source, capacitors: Source, spec: Limits) -> Stock {
         let mut qty: [Vec<u32>; 2] = [Vec::new(), Vec::new()];
         for (k, kind, source) in [
@@ -96,6 +114,7 @@ impl Stock {
         }
     }
 
+    /// Where the parts of this kind come from.
     pub fn source(&self, kind: PartKind) -> &Source {
         match kind {
             PartKind::Resistor => &self.resistors,
@@ -103,6 +122,7 @@ impl Stock {
         }
     }
 
+    /// Lowest and highest value allowed for this kind, in Ω or F.
     pub fn range(&self, kind: PartKind) -> (f64, f64) {
         match kind {
             PartKind::Resistor => self.resistor_range,
