@@ -177,7 +177,11 @@ pub struct Spec {
     /// non-inverting.
     pub gain: f64,
     /// How far |gain| may stray from the asked |gain|, as a fraction (< 1).
+    /// The worst-case gain window, ±fraction of |gain|: the spec's, or
+    /// [`DEFAULT_GAIN_TOLERANCE`] when it gives none (so it is always set once loaded).
     pub gain_tolerance: Option<f64>,
+    /// True when `gain_tolerance` is the default, not the spec's (reports say so).
+    pub gain_tolerance_default: bool,
     /// Least worst-case input resistance the stage may show to the source, Ω.
     pub input_resistance_min: Option<f64>,
     /// Load resistance after the output coupling capacitor, to ground, Ω.
@@ -1165,6 +1169,9 @@ impl Spec {
             }
             ok
         });
+        // Without one, a documented default: a gain that misses its target by a factor must
+        // never pass (see DEFAULT_GAIN_TOLERANCE).
+        let gain_tolerance_default = !stage_t.contains_key("gain_tolerance");
         let gain_tolerance = r
             .positive(s, stage_t, "gain_tolerance", Unit::Percent)
             .filter(|&t| {
@@ -1180,7 +1187,8 @@ impl Spec {
                     );
                 }
                 t < 1.0
-            });
+            })
+            .or(gain_tolerance_default.then_some(DEFAULT_GAIN_TOLERANCE));
         let input_resistance_min = r.positive(s, stage_t, "input_resistance_min", Unit::Ohm);
         let load = r.required(s, stage_t, "load", Unit::Ohm);
         let band = r.pair(s, stage_t, "band", Unit::Hertz, false);
@@ -1458,6 +1466,7 @@ impl Spec {
             supply,
             gain,
             gain_tolerance,
+            gain_tolerance_default,
             input_resistance_min,
             load,
             band,
@@ -1496,6 +1505,12 @@ pub const MAX_SPEC_BYTES: usize = 1 << 20;
 pub const DEFAULT_RESISTOR_RANGE: (f64, f64) = (100.0, 10e6);
 /// Default capacitor range: 1 nF to 1 mF.
 pub const DEFAULT_CAPACITOR_RANGE: (f64, f64) = (1e-9, 1e-3);
+/// The worst-case gain window when the spec gives none: ±20 % of |gain|. Wide enough for 5 %
+/// resistors (their worst-case ratio spread is about ±10.5 %) plus the rounding of a ratio to
+/// a series, tight enough that a gain that misses its target by a factor — −10 for −100 —
+/// never passes (common practice: a stage's gain is asked within a few tens of percent at
+/// most; give `gain_tolerance` for anything tighter).
+pub const DEFAULT_GAIN_TOLERANCE: f64 = 0.2;
 /// Default tolerance of series resistors: 1 % metal film is the everyday part today (common
 /// practice), tighter than the 5 % IEC 60063 associates with E24.
 pub const DEFAULT_RESISTOR_TOLERANCE: f64 = 0.01;

@@ -599,7 +599,8 @@ fn render(d: &Draw) -> (String, Spec, Vec<(usize, String)>) {
     let mut spec = Spec::from_toml(&minimal).expect("the minimal spec loads");
     spec.supply = supply;
     spec.gain = gain;
-    spec.gain_tolerance = gain_tolerance;
+    spec.gain_tolerance_default = gain_tolerance.is_none();
+    spec.gain_tolerance = gain_tolerance.or(Some(stockfit::spec::DEFAULT_GAIN_TOLERANCE));
     spec.input_resistance_min = input_resistance_min;
     spec.load = load;
     spec.band = (band_lo, band_hi);

@@ -430,9 +430,15 @@ fn checks(
             m.gain_min.abs().min(m.gain_max.abs()),
             m.gain_min.abs().max(m.gain_max.abs()),
         );
+        // A window the spec did not ask for says where it comes from.
+        let default = if spec.gain_tolerance_default {
+            format!(" (default ±{})", crate::value::format(t, Unit::Percent))
+        } else {
+            String::new()
+        };
         out.push(Check::new(
             "gain_low",
-            format!("{worst} lowest |gain|"),
+            format!("{worst} lowest |gain|{default}"),
             lo,
             Bound::Min,
             target * (1.0 - t),
@@ -440,7 +446,7 @@ fn checks(
         ));
         out.push(Check::new(
             "gain_high",
-            format!("{worst} highest |gain|"),
+            format!("{worst} highest |gain|{default}"),
             hi,
             Bound::Max,
             target * (1.0 + t),

@@ -63,9 +63,10 @@ pub fn case_strategy(
                     10f64.powf(load),
                     10f64.powf(f_hi)
                 );
-                if let Some(tol) = gtol {
-                    t += &format!("gain_tolerance = \"{}%\"\n", tol * 100.0);
-                }
+                // Without a tolerance in the draw, a wide one (a spec without any gets the
+                // default ±20 %, which a random small stock seldom meets).
+                let tol = gtol.unwrap_or(0.9);
+                t += &format!("gain_tolerance = \"{}%\"\n", tol * 100.0);
                 if let Some(r) = rin {
                     t += &format!("input_resistance_min = {}\n", 10f64.powf(r));
                 }
