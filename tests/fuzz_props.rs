@@ -5,6 +5,11 @@
 //! The fuzz checks themselves live in `fuzz/checks.rs` and are shared with the cargo-fuzz
 //! targets; the seed corpus (`fuzz/corpus/`), any crash a campaign saved (`fuzz/artifacts/`),
 //! the shipped examples and inventories are replayed through them here as well.
+//!
+//! A check asserts its promises about a loaded value, inventory or spec only when loading
+//! succeeds, so each property on shaped input counts the cases that loaded and fails below a
+//! floor: a generator whose every case is refused would otherwise pass having checked nothing
+//! past the loader's errors.
 
 #[path = "../fuzz/checks.rs"]
 mod checks;
