@@ -107,8 +107,9 @@ fn inventory_checks_on_arbitrary_bytes() {
     });
 }
 
-/// The three headers of the CSV-shaped inventories, each with its column order (indices into
-/// the cells of [`csv_row`]: kind, value, tolerance, qty, voltage, polarized, unit_cost, text).
+/// The three headers of the CSV-shaped inventories, each with its column order: indices into
+/// a [`CsvLine::Row`]'s cells (kind, value, tolerance, qty, voltage, polarized, unit_cost), 7
+/// for its free text.
 const CSV_HEADERS: [(&str, &[usize]); 3] = [
     ("kind,value,tolerance,qty\n", &[0, 1, 2, 3]),
     (
