@@ -4,6 +4,11 @@
 //!
 //! Every check panics on a broken promise — that is how both libFuzzer and proptest see a
 //! finding — and never on mere bad input, which the library must answer with an error.
+//!
+//! Each check also says how far the input got: the promises about a *loaded* value, inventory
+//! or spec are only asserted when loading succeeds, so `tests/fuzz_props.rs` counts those cases
+//! and fails when a generator stops reaching them (a property that only ever sees errors would
+//! pass having checked nothing).
 
 #![allow(dead_code)]
 
@@ -14,14 +19,17 @@ use stockfit::value::{self, Unit};
 
 /// The value parser: no panic for any text and unit; whatever parses is finite, and prints
 /// back (17 significant digits, enough for any f64) to text that parses to the same value.
-pub fn value(data: &[u8]) {
+/// Returns the number of units the text parsed as, i.e. the round trips checked.
+pub fn value(data: &[u8]) -> usize {
     let Ok(text) = std::str::from_utf8(data) else {
-        return;
+        return 0;
     };
+    let mut parsed = 0;
     for unit in Unit::ALL {
         let Ok(v) = value::parse(text, unit) else {
             continue;
         };
+        parsed += 1;
         assert!(v.is_finite(), "{text:?} as {unit:?} gave {v}");
         let printed = value::format_sig(v, unit, 17);
         match value::parse(&printed, unit) {
@@ -32,17 +40,29 @@ pub fn value(data: &[u8]) {
             Err(e) => panic!("{text:?} as {unit:?}: {v:e} printed {printed:?} does not parse: {e}"),
         }
     }
+    parsed
+}
+
+/// How far an inventory got through [`inventory`].
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum InventoryReached {
+    /// The loader refused it (only "no panic" was checked).
+    Refused,
+    /// It loaded and its lines were checked; the editor refused to edit a qty cell in place.
+    Loaded,
+    /// It loaded and the edited file was re-loaded and compared line by line.
+    Edited,
 }
 
 /// The inventory loader and the stock editor: no panic for any bytes; every loaded line keeps
 /// the documented ranges; taking a piece from every line that has one either changes exactly
 /// those quantities or is refused as not editable in place — never a different file.
-pub fn inventory(data: &[u8]) {
+pub fn inventory(data: &[u8]) -> InventoryReached {
     let inv = match Inventory::from_reader(data) {
         Ok(inv) => inv,
         Err(e) => {
             let _ = e.to_string();
-            return;
+            return InventoryReached::Refused;
         }
     };
     for l in &inv.lines {
@@ -70,16 +90,18 @@ pub fn inventory(data: &[u8]) {
                 b.iter().copied().filter(|c| !c.is_ascii_digit()).collect()
             };
             assert_eq!(strip(data), strip(&after), "only digits change");
+            InventoryReached::Edited
         }
         // A qty cell written in a way the editor will not touch (`"1"2`): refused, fine.
-        Err(EditError::Layout { .. }) => {}
+        Err(EditError::Layout { .. }) => InventoryReached::Loaded,
         Err(e) => panic!("a loadable inventory could not be edited: {e}"),
     }
 }
 
 /// The spec loader: no panic for any bytes; a spec that loads keeps its invariants; every error
-/// that names a line names one inside the file.
-pub fn spec(data: &[u8]) {
+/// that names a line names one inside the file. Returns whether it loaded (the invariants were
+/// checked) rather than being refused (the error lines were checked).
+pub fn spec(data: &[u8]) -> bool {
     let lines = 1 + data.iter().filter(|&&b| b == b'\n').count();
     match Spec::from_bytes(data) {
         Ok(s) => {
@@ -97,6 +119,7 @@ pub fn spec(data: &[u8]) {
                     }
                 }
             }
+            true
         }
         Err(errors) => {
             assert!(!errors.0.is_empty());
@@ -109,6 +132,7 @@ pub fn spec(data: &[u8]) {
                 }
             }
             let _ = errors.to_string();
+            false
         }
     }
 }

@@ -1169,23 +1169,52 @@ mod tests {
         assert_eq!(point("123", 0), "0.123");
     }
 
+    /// Value-like text never panics, and whatever parses is finite and of an allowed sign.
+    /// Those checks only run on text that parses, so the cases that did are counted: at least
+    /// 10 % of them must parse as some unit (measured: 20 % on average over 20 runs of 256
+    /// cases, 13 % at the lowest).
+    #[test]
+    fn value_like_strings_never_panic() {
+        let mut runner = proptest::test_runner::TestRunner::new(ProptestConfig {
+            source_file: Some(file!()),
+            ..ProptestConfig::default()
+        });
+        let (run, parsed) = (std::cell::Cell::new(0u32), std::cell::Cell::new(0u32));
+        // Symbol soup, and numbers with a prefix and a unit symbol in the shapes people write.
+        let strategy = prop_oneof![
+            "[0-9.,eE+\\-±−kKmMunpµμfGTRVAFHzWdB%ΩΩ/√rtsqoh() ]{0,12}",
+            "[+\\-]?[0-9]{1,4}([.][0-9]{1,3})?([eE][+\\-]?[0-9]{1,2})? ?([pnuµkMG]|meg)?[0-9]{0,2} ?(Ω|F|V|A|Hz|W|%|dB|V/us)?",
+        ];
+        let outcome = runner.run(&strategy, |s| {
+            run.set(run.get() + 1);
+            let mut any = false;
+            for u in Unit::ALL {
+                if let Ok(v) = parse(&s, u) {
+                    any = true;
+                    prop_assert!(v.is_finite());
+                    prop_assert!(v >= 0.0 || u.may_be_negative());
+                }
+            }
+            parsed.set(parsed.get() + u32::from(any));
+            Ok(())
+        });
+        if let Err(e) = outcome {
+            panic!("{e}");
+        }
+        let (run, parsed) = (run.get(), parsed.get());
+        println!("value-like strings: {parsed} of {run} parsed as some unit");
+        assert!(
+            parsed >= run / 10,
+            "only {parsed} of {run} value-like strings parsed: the checks on parsed values \
+             were barely reached"
+        );
+    }
+
     proptest! {
         #[test]
         fn arbitrary_strings_never_panic(s in ".*") {
             for u in Unit::ALL {
                 let _ = parse(&s, u);
-            }
-        }
-
-        #[test]
-        fn value_like_strings_never_panic(
-            s in "[0-9.,eE+\\-±−kKmMunpµμfGTRVAFHzWdB%ΩΩ/√rtsqoh() ]{0,12}"
-        ) {
-            for u in Unit::ALL {
-                if let Ok(v) = parse(&s, u) {
-                    prop_assert!(v.is_finite());
-                    prop_assert!(v >= 0.0 || u.may_be_negative());
-                }
             }
         }
 

@@ -3,14 +3,17 @@
 //! every fixture `tests/data/spice-*.toml` (both found by listing the folder, so new ones are
 //! covered without touching this file), plus a build with two-piece slots made here.
 //!
-//! Compared: the mid-band gain (0.5 %), the −3 dB low and high corners (2 %; high only with a
-//! GBW), the loss at the band's edges (0.02 dB), the nominal DC output (5 mV) and the output
-//! limits of the netlist's op-amp against the headroom (0.1 V). ngspice is
+//! Compared: the mid-band gain (0.1 %), the −3 dB low and high corners (0.014 % and 0.008 %;
+//! high only with a GBW), the loss at the band's edges (5e-7 dB), the nominal DC output (50 µV)
+//! and the output limits of the netlist's op-amp against the headroom (0.1 V) — each at most
+//! 10× the agreement measured, with its source beside the constant. ngspice is
 //! an independent solver of the same circuit (modified nodal analysis of the netlist), so a
 //! disagreement means either the netlist or the analysis does not describe the drawn stage.
 //!
-//! Without ngspice the test prints a note and passes, except under `CI=true`, where a missing
-//! ngspice fails it (`.ci/run` installs it).
+//! Every test here needs ngspice, so each is `#[ignore]`d: a plain `cargo test` lists them as
+//! ignored (with the reason) rather than passing without having simulated anything. CI runs
+//! them with `cargo test -- --include-ignored` (`.ci/run` installs ngspice), and there a
+//! missing ngspice is a failure that says so.
 
 use assert_cmd::Command;
 use serde_json::Value;
@@ -24,36 +27,53 @@ use stockfit::report::spice;
 use stockfit::spec::Spec;
 use stockfit::vocab::PartKind;
 
-/// Mid-band gain: the task's bound, 0.5 %.
-const GAIN_REL: f64 = 0.005;
-/// −3 dB corners: 2 %.
-const CORNER_REL: f64 = 0.02;
-/// Loss at the band's edges, in dB (≈ 0.23 %): both sides solve the same linear circuit
-/// exactly, so anything above rounding is a modelling difference.
-const EDGE_DB: f64 = 0.02;
-/// DC output: 5 mV.
-const DC_V: f64 = 5e-3;
-/// Output limits against the headroom: the netlist's clamp diodes drop tens of mV (its own
-/// model, not the analysis's, which takes the headroom as exact).
+// Tolerances: each at most 10× the largest deviation measured over every case here (ngspice-39,
+// `cargo test --test ngspice -- --include-ignored --nocapture` prints the table and the largest
+// of each figure; measured 2026-12-02 on 10 cases), so real drift fails instead of passing under
+// a bound 50–1000× looser than the agreement. Where the deviation is systematic its source is
+// named: ngspice solves the netlist, whose own model differs from the analysis in small,
+// known ways.
+
+/// Mid-band gain, relative: 1e-3. Measured 1.08e-4 (tests/data/spice-inverting-source-resistance):
+/// the largest |H| of the sweep sits below the ideal ratio by the loop's error (A0 = 10⁶ and
+/// the GBW pole in the netlist's op-amp) and the coupling networks' roll-off, so this is the
+/// comparison's own difference, not a disagreement of the analysis.
+const GAIN_REL: f64 = 1e-3;
+/// −3 dB low corner, relative: 1.4e-4. Measured 1.41e-5, the error of interpolating the
+/// crossing linearly in log f between sweep points 1/200 decade apart.
+const LOW_CORNER_REL: f64 = 1.4e-4;
+/// −3 dB high corner, relative: 8e-5. Measured 8.04e-6, the same interpolation error.
+const HIGH_CORNER_REL: f64 = 8e-5;
+/// Loss at the band's edges: 5e-7 dB. Measured 9.6e-8 dB in two cases, both the netlist's own
+/// model: A0 = 10⁹ where the analysis has an ideal amplifier (spice-ideal-no-gbw, an error of
+/// noise gain / A0 ≈ 1.1e-8), and the 1 TΩ DC bleeder across a series capacitor pair (the
+/// two-piece library build, at the low edge). Elsewhere at most 6e-10 dB, the solvers'
+/// rounding — visible only because the deck asks ngspice for 15 digits (`numdgt`).
+const EDGE_DB: f64 = 5e-7;
+/// DC output: 50 µV. Measured 6.0 µV (line-stage-12v, spice-two-piece), exactly V_out / A0:
+/// the netlist's op-amp has A0 = 10⁶ where the analysis takes the DC loop as ideal.
+const DC_V: f64 = 50e-6;
+/// Output limits against the headroom: 0.1 V. Measured 47.6 mV, the forward drop of the
+/// netlist's clamp diodes at the sweep's overdrive (its own model, N = 0.05, not the
+/// analysis's, which takes the headroom as exact).
 const LIMIT_V: f64 = 0.1;
 /// Points per decade of the AC sweep (corners are interpolated between them in log f).
 const PER_DECADE: usize = 200;
 
-/// True when ngspice runs; false (with a note) when it is missing outside CI. Under `CI=true`
-/// a missing ngspice is a failure: CI must not pass without the outside check.
-fn ngspice_ready() -> bool {
+/// Fails, saying what to install, unless ngspice runs. Only reached when the ignored tests are
+/// asked for, and then a missing ngspice must not pass: the outside check did not happen.
+fn require_ngspice() {
     let ok = Process::new("ngspice")
         .arg("--version")
         .output()
         .map(|o| o.status.success())
         .unwrap_or(false);
-    if !ok {
-        if std::env::var("CI").as_deref() == Ok("true") {
-            panic!("ngspice is not installed, and CI=true requires the ngspice cross-check");
-        }
-        eprintln!("note: ngspice not found; skipping the ngspice cross-check");
-    }
-    ok
+    assert!(
+        ok,
+        "ngspice is not installed (`ngspice --version` does not run): install it (Debian: \
+         `apt-get install ngspice`; `.ci/run` does) to run the ngspice cross-check, or leave out \
+         `--include-ignored`"
+    );
 }
 
 fn root() -> PathBuf {
@@ -157,6 +177,9 @@ fn simulate(dir: &Path, netlist: &Path, spec: &Spec, sweep: (f64, f64)) -> Simul
     let _ = writeln!(deck, ".include {}", netlist.display());
     let _ = writeln!(deck, ".control");
     let _ = writeln!(deck, "set wr_singlescale");
+    // wrdata writes 9 significant digits by default (%.8e), which would limit the loss
+    // comparison to ~1e-8 dB; ask for 15 (`numdgt`, ngspice manual, "Variables").
+    let _ = writeln!(deck, "set numdgt=15");
     let _ = writeln!(deck, "op");
     let _ = writeln!(deck, "wrdata dc_vos.txt v(amp_out)");
     // The tool's output_dc_v has the bias currents but no offset voltage.
@@ -246,14 +269,30 @@ fn crossing(mag: &[(f64, f64)], i: usize, level: f64) -> f64 {
     10f64.powf(f0.log10() + t * (f1.log10() - f0.log10()))
 }
 
+/// The figures compared, in the order of [`Row::deviation`].
+const FIGURES: [&str; 6] = [
+    "gain (relative)",
+    "low corner (relative)",
+    "high corner (relative)",
+    "band-edge loss (dB)",
+    "dc out (V)",
+    "swing limits (V)",
+];
+
 /// One comparison's outcome, for the table and the failure list.
 struct Row {
     name: String,
     lines: Vec<String>,
     failures: Vec<String>,
+    /// The largest |ngspice − tool| of each of [`FIGURES`] in this case.
+    deviation: [f64; 6],
 }
 
 impl Row {
+    fn record(&mut self, figure: usize, deviation: f64) {
+        self.deviation[figure] = self.deviation[figure].max(deviation.abs());
+    }
+
     fn check(&mut self, what: &str, ok: bool, text: String) {
         self.lines.push(format!(
             "    {what:<12} {text}{}",
@@ -270,6 +309,7 @@ fn compare(name: &str, spec: &Spec, want: &Expected, sim: &Simulated) -> Row {
         name: name.to_string(),
         lines: Vec::new(),
         failures: Vec::new(),
+        deviation: [0.0; 6],
     };
     let mag: Vec<(f64, f64)> = sim
         .sweep
@@ -286,13 +326,11 @@ fn compare(name: &str, spec: &Spec, want: &Expected, sim: &Simulated) -> Row {
         .max_by(|a, b| a.1 .1.total_cmp(&b.1 .1))
         .unwrap();
     let rel = m_max / ideal - 1.0;
+    row.record(0, rel);
     row.check(
         "gain",
         rel.abs() <= GAIN_REL,
-        format!(
-            "ngspice |H| {m_max:.6} at {f_max:.4e} Hz, tool {ideal:.6}: {:+.4} %",
-            rel * 100.0
-        ),
+        format!("ngspice |H| {m_max:.9} at {f_max:.4e} Hz, tool {ideal:.9}: {rel:+.3e}"),
     );
     let sign_ok = sim.sweep[i_max].1.signum() == want.gain.signum();
     row.check(
@@ -313,10 +351,11 @@ fn compare(name: &str, spec: &Spec, want: &Expected, sim: &Simulated) -> Row {
     match (want.low_corner, low) {
         (Some(t), Some(s)) => {
             let rel = s / t - 1.0;
+            row.record(1, rel);
             row.check(
                 "low corner",
-                rel.abs() <= CORNER_REL,
-                format!("ngspice {s:.6} Hz, tool {t:.6} Hz: {:+.4} %", rel * 100.0),
+                rel.abs() <= LOW_CORNER_REL,
+                format!("ngspice {s:.9} Hz, tool {t:.9} Hz: {rel:+.3e}"),
             );
         }
         (t, s) => row.check(
@@ -331,10 +370,11 @@ fn compare(name: &str, spec: &Spec, want: &Expected, sim: &Simulated) -> Row {
     match (spec.amplifier.gbw, want.high_corner, high) {
         (Some(_), Some(t), Some(s)) => {
             let rel = s / t - 1.0;
+            row.record(2, rel);
             row.check(
                 "high corner",
-                rel.abs() <= CORNER_REL,
-                format!("ngspice {s:.6e} Hz, tool {t:.6e} Hz: {:+.4} %", rel * 100.0),
+                rel.abs() <= HIGH_CORNER_REL,
+                format!("ngspice {s:.9e} Hz, tool {t:.9e} Hz: {rel:+.3e}"),
             );
         }
         // An ideal amplifier: no high corner on either side within the sweep.
@@ -356,11 +396,12 @@ fn compare(name: &str, spec: &Spec, want: &Expected, sim: &Simulated) -> Row {
         ("loss at high", sim.at_high_edge, want.band_high_loss_db),
     ] {
         let db = 20.0 * (ideal / re.hypot(im)).log10();
+        row.record(3, db - tool);
         row.check(
             what,
             (db - tool).abs() <= EDGE_DB,
             format!(
-                "ngspice {db:.5} dB, tool {tool:.5} dB: {:+.5} dB",
+                "ngspice {db:.9} dB, tool {tool:.9} dB: {:+.3e} dB",
                 db - tool
             ),
         );
@@ -369,14 +410,15 @@ fn compare(name: &str, spec: &Spec, want: &Expected, sim: &Simulated) -> Row {
     // DC: with the offset source at 0, the nominal output the tool reports; with it, a point
     // inside the tool's worst-case DC range (the nominal errors are one corner's interior).
     let d = sim.dc - want.output_dc;
+    row.record(4, d);
     row.check(
         "dc out",
         d.abs() <= DC_V,
         format!(
-            "ngspice {:.6} V, tool {:.6} V: {:+.4} mV",
+            "ngspice {:.9} V, tool {:.9} V: {:+.3} µV",
             sim.dc,
             want.output_dc,
-            d * 1e3
+            d * 1e6
         ),
     );
     let inside = sim.dc_with_vos >= want.output_dc_min - DC_V
@@ -397,6 +439,8 @@ fn compare(name: &str, spec: &Spec, want: &Expected, sim: &Simulated) -> Row {
     // Output range: driven hard both ways, the output stops at the headroom limits.
     let (lo, hi) = (spec.headroom.0, spec.supply - spec.headroom.1);
     let (s_lo, s_hi) = sim.limits;
+    row.record(5, s_lo - lo);
+    row.record(5, s_hi - hi);
     row.check(
         "swing limits",
         (s_lo - lo).abs() <= LIMIT_V && (s_hi - hi).abs() <= LIMIT_V,
@@ -450,13 +494,39 @@ fn pick_and_simulate(path: &Path) -> Row {
     compare(&name, &spec, &want, &sim)
 }
 
+/// The largest deviation of each figure over every case compared so far in this run, and the
+/// number of cases: the tests below add theirs as they finish, so the last summary printed
+/// covers all of them.
+static LARGEST: std::sync::Mutex<([f64; 6], usize)> = std::sync::Mutex::new(([0.0; 6], 0));
+
+fn largest_text(title: &str, largest: &[f64; 6], cases: usize) -> String {
+    let mut text = format!("largest deviation {title} ({cases} cases):\n");
+    for (figure, d) in FIGURES.iter().zip(largest) {
+        let _ = writeln!(text, "    {figure:<24} {d:.3e}");
+    }
+    text
+}
+
 fn report(rows: &[Row]) {
     let mut text = String::new();
+    let mut here = [0.0f64; 6];
     for r in rows {
         let _ = writeln!(text, "{}", r.name);
         for l in &r.lines {
             let _ = writeln!(text, "{l}");
         }
+        for (h, d) in here.iter_mut().zip(r.deviation) {
+            *h = h.max(d);
+        }
+    }
+    text.push_str(&largest_text("in this test", &here, rows.len()));
+    {
+        let mut all = LARGEST.lock().unwrap_or_else(|e| e.into_inner());
+        for (a, h) in all.0.iter_mut().zip(here) {
+            *a = a.max(h);
+        }
+        all.1 += rows.len();
+        text.push_str(&largest_text("over all tests so far", &all.0, all.1));
     }
     // Shown with `cargo test --test ngspice -- --nocapture`, and on failure.
     println!("{text}");
@@ -473,10 +543,9 @@ fn report(rows: &[Row]) {
 }
 
 #[test]
+#[ignore = "needs ngspice; run with `cargo test -- --include-ignored`"]
 fn examples_agree_with_ngspice() {
-    if !ngspice_ready() {
-        return;
-    }
+    require_ngspice();
     let specs = specs_in(&root().join("examples"), "");
     assert!(!specs.is_empty(), "no examples found");
     let rows: Vec<Row> = specs.iter().map(|p| pick_and_simulate(p)).collect();
@@ -484,10 +553,9 @@ fn examples_agree_with_ngspice() {
 }
 
 #[test]
+#[ignore = "needs ngspice; run with `cargo test -- --include-ignored`"]
 fn fixtures_agree_with_ngspice() {
-    if !ngspice_ready() {
-        return;
-    }
+    require_ngspice();
     let specs = specs_in(&root().join("tests/data"), "spice-");
     assert!(specs.len() >= 3, "the spice-*.toml fixtures are missing");
     let rows: Vec<Row> = specs.iter().map(|p| pick_and_simulate(p)).collect();
@@ -496,10 +564,9 @@ fn fixtures_agree_with_ngspice() {
 
 /// `check --set … --spice` writes the checked build; ngspice agrees with its JSON.
 #[test]
+#[ignore = "needs ngspice; run with `cargo test -- --include-ignored`"]
 fn check_writes_the_checked_build() {
-    if !ngspice_ready() {
-        return;
-    }
+    require_ngspice();
     let path = root().join("tests/data/spice-inverting-source-resistance.toml");
     let dir = tempfile::tempdir().unwrap();
     let (json, cir) = (dir.path().join("out.json"), dir.path().join("stage.cir"));
@@ -546,10 +613,9 @@ fn check_writes_the_checked_build() {
 /// Series and parallel realisations, including series capacitors with their DC bleeder,
 /// which the search rarely picks: the library's netlist and analysis of a hand-made build.
 #[test]
+#[ignore = "needs ngspice; run with `cargo test -- --include-ignored`"]
 fn two_piece_slots_agree_with_ngspice() {
-    if !ngspice_ready() {
-        return;
-    }
+    require_ngspice();
     let path = root().join("tests/data/spice-inverting-source-resistance.toml");
     let spec = Spec::from_toml(&std::fs::read_to_string(&path).unwrap()).unwrap();
     let stage = circuit::circuit_for(spec.stage);

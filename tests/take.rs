@@ -315,8 +315,9 @@ fn an_oversized_inventory_is_refused_by_its_size() {
     assert!(started.elapsed() < Duration::from_secs(20));
 }
 
-/// Starts `take --yes` paused at `stage` (debug builds honour STOCKFIT_TEST_PAUSE), waits for
-/// its temporary file, kills it there, and returns the temporary file's contents.
+/// Starts `take --yes` paused at `stage` (the binary's STOCKFIT_TEST_PAUSE test hook, in every
+/// build), waits for its temporary file, kills it there, and returns the temporary file's
+/// contents.
 fn kill_at(s: &Setup, stage: &str, after: &str) -> Vec<u8> {
     let bin = assert_cmd::cargo::cargo_bin("stockfit");
     let mut child = std::process::Command::new(bin)

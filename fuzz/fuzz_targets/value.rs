@@ -6,4 +6,6 @@ use libfuzzer_sys::fuzz_target;
 #[path = "../checks.rs"]
 mod checks;
 
-fuzz_target!(|data: &[u8]| checks::value(data));
+fuzz_target!(|data: &[u8]| {
+    checks::value(data);
+});

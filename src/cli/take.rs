@@ -310,10 +310,12 @@ pub fn replace_atomically(
     Ok(())
 }
 
-/// The hook the binary runs with. Debug builds only: `STOCKFIT_TEST_PAUSE=part:MS` or
-/// `rename:MS` sleeps at that stage, so an integration test can kill the process there.
+/// The hook the binary runs with: a test hook, honoured in every build (debug and release) so
+/// that `cargo test --release` runs the same kill-mid-write tests as `cargo test`.
+/// `STOCKFIT_TEST_PAUSE=part:MS` or `rename:MS` sleeps MS milliseconds at that stage, so an
+/// integration test (tests/take.rs) can kill the process there. Only a sleep: it changes
+/// neither the bytes written nor the order of the steps, and without the variable it is a no-op.
 fn env_hook() -> impl FnMut(WriteStage) -> io::Result<()> {
-    #[cfg(debug_assertions)]
     let pause: Option<(WriteStage, u64)> =
         std::env::var("STOCKFIT_TEST_PAUSE").ok().and_then(|v| {
             let (at, ms) = v.split_once(':')?;
@@ -324,8 +326,6 @@ fn env_hook() -> impl FnMut(WriteStage) -> io::Result<()> {
             };
             Some((stage, ms.parse().ok()?))
         });
-    #[cfg(not(debug_assertions))]
-    let pause: Option<(WriteStage, u64)> = None;
     move |stage| {
         if let Some((at, ms)) = pause {
             if at == stage {

@@ -412,17 +412,57 @@ mod tests {
         ) {
             let _ = deduct(&bytes, &deductions);
         }
+    }
 
-        /// CSV-shaped noise behind a valid header: whatever deduct returns loads back.
-        #[test]
-        fn whatever_deduct_returns_loads(
-            body in "([rc],(1k|4u7|\"2k2\"),(1%|\"5 %\"),( 3|\"4\"|12|0)(,[a-z\"#]{0,4})?(\r\n|\n|\r)|#[a-z,\"]{0,5}\n|\n){1,12}",
-            deductions in prop::collection::vec((1usize..8, 0u32..4), 0..4),
-        ) {
+    /// CSV-shaped noise behind a valid header: whatever deduct returns loads back. Only a file
+    /// that deduct accepted is checked, so those cases are counted: at least 15 % of them must
+    /// be accepted (measured: 33 % on average over 20 runs of 256 cases, 27 % at the lowest).
+    #[test]
+    fn whatever_deduct_returns_loads() {
+        let mut runner = proptest::test_runner::TestRunner::new(ProptestConfig {
+            source_file: Some(file!()),
+            ..ProptestConfig::default()
+        });
+        // Mostly rows (now and then a value of the other kind, which is refused), some comments
+        // and blank lines; deductions from rows that may not exist or have too few pieces.
+        let line = prop_oneof![
+            6 => (
+                prop_oneof![
+                    8 => "r,(1k|\"2k2\"|10k|470)",
+                    8 => "c,(4u7|100n|1n|22u)",
+                    1 => "r,4u7|c,1k",
+                ],
+                ",(1%|\"5 %\"),( 3|\"4\"|12|0),",
+                prop_oneof![6 => "[a-z#]{0,4}", 1 => "[a-z\"#]{0,4}"],
+                prop::sample::select(vec!["\r\n", "\n", "\r"]),
+            )
+                .prop_map(|(part, rest, note, eol)| format!("{part}{rest}{note}{eol}")),
+            1 => "#[a-z,\"]{0,5}\n",
+            1 => Just("\n".to_string()),
+        ];
+        let strategy = (
+            prop::collection::vec(line, 1..12).prop_map(|lines| lines.concat()),
+            prop::collection::vec((1usize..8, 0u32..4), 0..4),
+        );
+        let (run, accepted) = (std::cell::Cell::new(0u32), std::cell::Cell::new(0u32));
+        let outcome = runner.run(&strategy, |(body, deductions)| {
+            run.set(run.get() + 1);
             let text = format!("kind,value,tolerance,qty,note\n{body}");
             if let Ok(after) = deduct(text.as_bytes(), &deductions) {
+                accepted.set(accepted.get() + 1);
                 prop_assert!(parse_bytes(&after).is_ok());
             }
+            Ok(())
+        });
+        if let Err(e) = outcome {
+            panic!("{e}");
         }
+        let (run, accepted) = (run.get(), accepted.get());
+        println!("deduct on CSV-shaped noise: {accepted} of {run} accepted and re-loaded");
+        assert!(
+            accepted >= run * 15 / 100,
+            "only {accepted} of {run} generated files were accepted by deduct: the re-load \
+             check was barely reached"
+        );
     }
 }
