@@ -146,6 +146,8 @@ pub trait Num:
     fn recip(self) -> Self;
     /// √x (of the non-negative part).
     fn sqrt(self) -> Self;
+    /// x², never below zero (tighter than x·x over an interval holding 0).
+    fn sq(self) -> Self;
     /// `f(x)` where `f` is monotone in each argument: rising where `rising[i]`, falling
     /// elsewhere. For `f64` it is `f(x)` itself (the same operations, so the same bits); for
     /// an interval, `f` at the lowest and at the highest corner, which is exact.
@@ -172,6 +174,9 @@ impl Num for f64 {
     }
     fn sqrt(self) -> f64 {
         f64::sqrt(self)
+    }
+    fn sq(self) -> f64 {
+        self * self
     }
     fn monotone<const N: usize>(f: impl Fn([f64; N]) -> f64, x: [f64; N], _: [bool; N]) -> f64 {
         f(x)
@@ -226,6 +231,13 @@ impl Num for Iv {
             hi: self.hi.max(0.0).sqrt(),
         }
     }
+    fn sq(self) -> Iv {
+        let a = Num::abs(self);
+        Iv {
+            lo: a.lo * a.lo,
+            hi: a.hi * a.hi,
+        }
+    }
     fn monotone<const N: usize>(f: impl Fn([f64; N]) -> f64, x: [Iv; N], rising: [bool; N]) -> Iv {
         let low = std::array::from_fn(|i| if rising[i] { x[i].lo } else { x[i].hi });
         let high = std::array::from_fn(|i| if rising[i] { x[i].hi } else { x[i].lo });
@@ -236,6 +248,68 @@ impl Num for Iv {
     }
     fn hi(self) -> f64 {
         self.hi
+    }
+}
+
+/// A complex number over [`Num`]: over intervals, a rectangle holding every value of the
+/// operations on the operands' points (rectangular complex interval arithmetic).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Cx<T> {
+    /// Real part.
+    pub re: T,
+    /// Imaginary part.
+    pub im: T,
+}
+
+impl<T: Num> Cx<T> {
+    /// `re + j·im`.
+    pub fn new(re: T, im: T) -> Cx<T> {
+        Cx { re, im }
+    }
+
+    /// A real number.
+    pub fn real(re: T) -> Cx<T> {
+        Cx { re, im: T::c(0.0) }
+    }
+
+    /// |z|².
+    pub fn norm_sqr(self) -> T {
+        self.re.sq() + self.im.sq()
+    }
+}
+
+impl<T: Num> Add for Cx<T> {
+    type Output = Cx<T>;
+    fn add(self, o: Cx<T>) -> Cx<T> {
+        Cx::new(self.re + o.re, self.im + o.im)
+    }
+}
+
+impl<T: Num> Sub for Cx<T> {
+    type Output = Cx<T>;
+    fn sub(self, o: Cx<T>) -> Cx<T> {
+        Cx::new(self.re - o.re, self.im - o.im)
+    }
+}
+
+impl<T: Num> Mul for Cx<T> {
+    type Output = Cx<T>;
+    fn mul(self, o: Cx<T>) -> Cx<T> {
+        Cx::new(
+            self.re * o.re - self.im * o.im,
+            self.re * o.im + self.im * o.re,
+        )
+    }
+}
+
+impl<T: Num> Div for Cx<T> {
+    type Output = Cx<T>;
+    /// a/b = a·conj(b)/|b|².
+    #[allow(clippy::suspicious_arithmetic_impl)]
+    fn div(self, o: Cx<T>) -> Cx<T> {
+        let d = o.norm_sqr();
+        let n = self * Cx::new(o.re, -o.im);
+        Cx::new(n.re / d, n.im / d)
     }
 }
 
@@ -301,6 +375,23 @@ mod tests {
             <f64 as Num>::monotone(f, [1e5, 2.2e5], [false, true]),
             9.0 * 2.2e5 / (1e5 + 2.2e5)
         );
+    }
+
+    proptest! {
+        /// Complex operations over intervals hold the result of any points inside them.
+        #[test]
+        fn complex_operations_hold_their_points(
+            a in -10f64..10.0, b in -10f64..10.0, c in 0.5f64..10.0, d in -10f64..10.0,
+            w in 0.0f64..1.0, s in 0.0f64..1.0, t in 0.0f64..1.0,
+        ) {
+            let iv = |x: f64| Iv::new(x, x + w);
+            let (x, y) = (Cx::new(iv(a), iv(b)), Cx::new(iv(c), iv(d)));
+            let (p, q) = (Cx::new(a + s * w, b + t * w), Cx::new(c + t * w, d + s * w));
+            for (z, i) in [(p * q, x * y), (p + q, x + y), (p - q, x - y), (p / q, x / y)] {
+                prop_assert!(within(z.re, i.re) && within(z.im, i.im));
+            }
+            prop_assert!(within(p.norm_sqr(), x.norm_sqr()));
+        }
     }
 
     #[test]

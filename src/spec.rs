@@ -182,6 +182,10 @@ pub struct Spec {
     pub gain_tolerance: Option<f64>,
     /// True when `gain_tolerance` is the default, not the spec's (reports say so).
     pub gain_tolerance_default: bool,
+    /// What the search derives from the spec before it starts (limits every passing build
+    /// keeps); empty as loaded. Never read by the analysis, so it changes no figure.
+    #[serde(skip)]
+    pub derived: Derived,
     /// Least worst-case input resistance the stage may show to the source, Ω.
     pub input_resistance_min: Option<f64>,
     /// Load resistance after the output coupling capacitor, to ground, Ω.
@@ -232,6 +236,15 @@ impl Spec {
     pub fn worst_case(&self) -> bool {
         self.tolerance_mode == ToleranceMode::Worst
     }
+}
+
+/// Limits that follow from the spec as a whole, which the search derives once (see
+/// `search::dfs::search`) and its relaxations read.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Derived {
+    /// The highest worst-case |gain| any passing build can have: above it the amplifier's
+    /// gain–bandwidth product loses too much at the band's top (`Circuit::gain_limit`).
+    pub gain_max: Option<f64>,
 }
 
 /// One problem in a spec, with its place.
@@ -1467,6 +1480,7 @@ impl Spec {
             gain,
             gain_tolerance,
             gain_tolerance_default,
+            derived: Derived::default(),
             input_resistance_min,
             load,
             band,

@@ -216,6 +216,106 @@ fn fold_range(it: impl Iterator<Item = f64>) -> (f64, f64) {
     })
 }
 
+/// True when a cheap look at a build already shows a check that fails — the gain window, the
+/// input resistance, the swing around the DC range, the divider current, the slew rate, the
+/// corners of the coupling networks and the losses at the band's edges — so that the search
+/// need not run the whole analysis (the corners by bisection at every vertex) on it.
+///
+/// Never true for a build [`evaluate`] passes: each test is the check's own figure at one
+/// vertex, with a margin well above the check's 10⁻¹² tolerance; a band edge more than 3 dB
+/// down puts that vertex's corner past the edge (`response::low_corner` guards it). The
+/// search uses it, brute force does not, and `tests/exact.rs` holds them to the same builds.
+pub fn quick_fail(spec: &Spec, stage: &dyn Circuit, build: &Build) -> bool {
+    const REL: f64 = 1e-9;
+    const HALF_POWER: f64 = common::THREE_DB + 1e-6;
+    let parts: Vec<&Part> = build.parts.iter().collect();
+    let vertices = common::vertices(spec, &parts);
+    let (f_lo, f_hi) = spec.band;
+    // The gain window and the input resistance, at every vertex.
+    let mut gain_max: f64 = 0.0;
+    for x in &vertices {
+        let g = stage.mid_gain(spec, x).abs();
+        gain_max = gain_max.max(g);
+        if let Some(t) = spec.gain_tolerance {
+            let target = spec.gain.abs();
+            if g < target * (1.0 - t) * (1.0 - REL) || g > target * (1.0 + t) * (1.0 + REL) {
+                return true;
+            }
+        }
+        if let Some(min) = spec.input_resistance_min {
+            if stage.input_resistance(spec, x) < min * (1.0 - REL) {
+                return true;
+            }
+        }
+    }
+    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
+        if sr / (2.0 * std::f64::consts::PI * peak) < spec.band.1 * (1.0 - REL) {
+            return true;
+        }
+    }
+    // The swing around the DC range, as `evaluate` finds it.
+    let error_corners = if spec.worst_case() {
+        DcErrors::corners(spec)
+    } else {
+        vec![DcErrors::nominal(spec)]
+    };
+    let dc_vertices = common::vertices_where(spec, &parts, |p| p.kind == PartKind::Resistor);
+    let (mut dc_min, mut dc_max, mut current) = (f64::INFINITY, f64::NEG_INFINITY, 0.0f64);
+    for x in &dc_vertices {
+        for e in &error_corners {
+            let p = stage.dc(spec, x, e);
+            dc_min = dc_min.min(p.v_out);
+            dc_max = dc_max.max(p.v_out);
+            current = current.max(p.divider_current);
+        }
+    }
+    let swing = common::swing(spec, dc_min, dc_max);
+    let short = |value: f64, limit: f64| value < limit - REL * limit.abs().max(1e-12);
+    let fails_swing = match (spec.output_peak, spec.input_peak) {
+        (_, Some(inp)) => short(swing / gain_max, inp),
+        (Some(out), None) => short(swing, out),
+        (None, None) => short(swing, 0.0),
+    };
+    if fails_swing {
+        return true;
+    }
+    if spec
+        .bias_current_max
+        .is_some_and(|max| current > max * (1.0 + REL))
+    {
+        return true;
+    }
+    // Coupling-network corners (each network's own 1/(2πRC)) and the band edges' losses.
+    let opamp = OpAmp::of(spec);
+    let default_rule = spec.band_loss_max.is_none() && spec.corner_low_max.is_none();
+    for x in &vertices {
+        if let Some(max) = spec.corner_low_max {
+            if stage
+                .networks(spec, x)
+                .iter()
+                .any(|n| n.corner() > max * (1.0 + REL))
+            {
+                return true;
+            }
+        }
+        let low = response::loss_db(stage, spec, x, &opamp, f_lo);
+        match spec.band_loss_max {
+            Some(max) if low > max * (1.0 + REL) + 1e-12 => return true,
+            None if default_rule && low > HALF_POWER => return true,
+            _ => {}
+        }
+        if opamp.gbw.is_some() {
+            let high = response::loss_db(stage, spec, x, &opamp, f_hi);
+            match spec.band_loss_max {
+                Some(max) if high > max * (1.0 + REL) + 1e-12 => return true,
+                None if high > HALF_POWER => return true,
+                _ => {}
+            }
+        }
+    }
+    false
+}
+
 /// Analyse a build exactly. `stock`, when given, adds the quantity check.
 pub fn evaluate(
     spec: &Spec,

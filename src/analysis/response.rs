@@ -59,6 +59,13 @@ pub fn low_corner(stage: &dyn Circuit, spec: &Spec, v: &[f64], opamp: &OpAmp) ->
     if loss_db(stage, spec, v, opamp, floor) < HALF_POWER_DB {
         return Some(0.0);
     }
+    // A band edge 3 dB down puts the corner at or above it, however the response runs below
+    // it: a check on the corner then always agrees with one on the edge's loss, which is what
+    // the search's relaxations and quick rejections read (`quick_fail`).
+    let edge = spec.band.0;
+    if edge < c && loss_db(stage, spec, v, opamp, edge) >= HALF_POWER_DB {
+        return Some(bisect(stage, spec, v, opamp, edge, c, true));
+    }
     Some(bisect(stage, spec, v, opamp, floor, c, true))
 }
 
@@ -71,6 +78,11 @@ pub fn high_corner(stage: &dyn Circuit, spec: &Spec, v: &[f64], opamp: &OpAmp) -
     let ceiling = c * 1e12;
     if loss_db(stage, spec, v, opamp, ceiling) < HALF_POWER_DB {
         return None;
+    }
+    // As in `low_corner`: a band top 3 dB down puts the corner at or below it.
+    let edge = spec.band.1;
+    if edge > c && loss_db(stage, spec, v, opamp, edge) >= HALF_POWER_DB {
+        return Some(bisect(stage, spec, v, opamp, c, edge, false));
     }
     Some(bisect(stage, spec, v, opamp, c, ceiling, false))
 }
@@ -85,6 +97,10 @@ pub fn low_corner_near(
     opamp: &OpAmp,
     guess: Option<f64>,
 ) -> Option<f64> {
+    // A band edge 3 dB down: the guarded full search (see `low_corner`).
+    if loss_db(stage, spec, v, opamp, spec.band.0) >= HALF_POWER_DB {
+        return low_corner(stage, spec, v, opamp);
+    }
     if let Some(g) = guess.filter(|g| *g > 0.0) {
         let (lo, hi) = (g / 4.0, g * 4.0);
         if hi < centre(spec)
@@ -105,6 +121,9 @@ pub fn high_corner_near(
     opamp: &OpAmp,
     guess: Option<f64>,
 ) -> Option<f64> {
+    if loss_db(stage, spec, v, opamp, spec.band.1) >= HALF_POWER_DB {
+        return high_corner(stage, spec, v, opamp);
+    }
     if let Some(g) = guess.filter(|g| *g > 0.0) {
         let (lo, hi) = (g / 4.0, g * 4.0);
         if lo > centre(spec)

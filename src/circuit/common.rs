@@ -4,7 +4,7 @@
 
 use super::types::{DcErrors, DcPoint};
 use crate::build::{Part, SlotValue};
-use crate::interval::Num;
+use crate::interval::{Cx, Iv, Num};
 use crate::spec::Spec;
 use num_complex::Complex64;
 use std::f64::consts::PI;
@@ -92,11 +92,19 @@ pub const SLACK: f64 = 1e-6;
 
 /// Worst-case (or nominal) gain range inside the tolerance window, when one is given.
 pub fn gain_window_ok(spec: &Spec, g_lo: f64, g_hi: f64) -> bool {
+    let hi = g_lo.abs().max(g_hi.abs());
+    if spec
+        .derived
+        .gain_max
+        .is_some_and(|max| hi > max * (1.0 + SLACK))
+    {
+        return false;
+    }
     match spec.gain_tolerance {
         None => true,
         Some(t) => {
             let target = spec.gain.abs();
-            let (lo, hi) = (g_lo.abs().min(g_hi.abs()), g_lo.abs().max(g_hi.abs()));
+            let lo = g_lo.abs().min(g_hi.abs());
             lo >= target * (1.0 - t) * (1.0 - SLACK) && hi <= target * (1.0 + t) * (1.0 + SLACK)
         }
     }
@@ -293,4 +301,88 @@ pub fn needed_capacitance_after(spec: &Spec, r: f64, spent: f64) -> Option<f64> 
         fc = fc.min(spec.band.0 * (10f64.powf(left / 10.0) - 1.0).sqrt());
     }
     Some(1.0 / (2.0 * std::f64::consts::PI * r * fc))
+}
+
+/// The loss budget at the band's top: `band_loss_max`, or 3 dB (the band inside the −3 dB
+/// corner), with the search's slack.
+fn top_budget(spec: &Spec) -> f64 {
+    let l = spec.band_loss_max.unwrap_or(THREE_DB);
+    l * (1.0 + SLACK) + SLACK
+}
+
+/// The largest corner a plain coupling network may have in a passing build: its own corner
+/// limit (`corner_low_max`), the corner that spends the whole loss budget at the band's low
+/// edge (a first-order section's loss 10·log10(1 + (fc/f)²) solved for fc), or the band's low
+/// edge itself (each section's corner lies below the whole response's), the least of those
+/// that apply, with slack.
+pub fn network_corner_max(spec: &Spec) -> f64 {
+    let mut fc = f64::INFINITY;
+    if let Some(max) = spec.corner_low_max {
+        fc = fc.min(max);
+    }
+    if let Some(l) = spec.band_loss_max {
+        fc = fc.min(spec.band.0 * (10f64.powf(l / 10.0) - 1.0).sqrt());
+    }
+    if spec.corner_low_max.is_none() && spec.band_loss_max.is_none() {
+        fc = fc.min(spec.band.0);
+    }
+    fc * (1.0 + SLACK)
+}
+
+/// 1/a(jf) of the spec's amplifier as `(ε, u)` = (1/A0, f/GBW): the single pole a(s) =
+/// A0/(1 + s/ω_p) with A0·f_p = GBW (`types::OpAmp`).
+pub fn inverse_gain_parts(spec: &Spec, f: f64) -> Option<(f64, f64)> {
+    spec.amplifier
+        .gbw
+        .map(|gbw| (1.0 / super::types::OPEN_LOOP_GAIN, f / gbw))
+}
+
+/// The largest noise gain at which the amplifier can still meet the band's top, from a
+/// rigorous lower bound of the loss there: `loss_lb(ng)` bounds from below, in dB, the loss at
+/// the band's top of every build (at every vertex) whose noise gain lies in the interval `ng`.
+/// A bisection on points finds the crossing, then the noise gains from there to `ng_top` (the
+/// most any candidate can reach) are checked as intervals, so the answer holds whatever the
+/// shape of the bound. `None` when nothing limits it (no GBW, or it never fails).
+pub fn noise_gain_max(spec: &Spec, ng_top: f64, loss_lb: &dyn Fn(Iv) -> f64) -> Option<f64> {
+    spec.amplifier.gbw?;
+    let budget = top_budget(spec);
+    let fails = |ng: Iv| loss_lb(ng) > budget;
+    let ng_top = ng_top.max(1.0);
+    if !fails(Iv::point(ng_top)) {
+        return None;
+    }
+    if fails(Iv::point(1.0)) {
+        return Some(0.0);
+    }
+    // The last point that passes, by bisection in log.
+    let (mut ok, mut bad) = (1.0f64, ng_top);
+    for _ in 0..80 {
+        let mid = (ok * bad).sqrt();
+        if fails(Iv::point(mid)) {
+            bad = mid;
+        } else {
+            ok = mid;
+        }
+        if bad / ok < 1.0 + 1e-9 {
+            break;
+        }
+    }
+    // Verify [bad, top] in geometric pieces; a piece that does not fail moves the limit up.
+    let mut limit = bad;
+    let pieces = 256;
+    let ratio = (ng_top / limit).powf(1.0 / pieces as f64);
+    let mut lo = limit;
+    for _ in 0..pieces {
+        let hi = (lo * ratio).min(ng_top);
+        if !fails(Iv::new(lo, hi)) {
+            limit = hi;
+        }
+        lo = hi;
+    }
+    Some(limit)
+}
+
+/// A lower bound of 10·log10 of |z|² over a rectangle of complex values, in dB.
+pub fn db_lb(z: Cx<Iv>) -> f64 {
+    10.0 * z.norm_sqr().lo.max(0.0).log10()
 }

@@ -18,7 +18,7 @@ use super::plans::{self, DividerContext, GainForm};
 use super::traits::{Circuit, Drawing, SearchPlan};
 use super::types::{CapBias, DcErrors, DcPoint, Network, OpAmp, SlotDef};
 use crate::build::SlotValue;
-use crate::interval::{Iv, Num};
+use crate::interval::{Cx, Iv, Num};
 use crate::objective::Figures;
 use crate::objective::NetworkFigure;
 use crate::spec::Spec;
@@ -272,6 +272,29 @@ impl Circuit for Inverting {
             h_out: common::high_pass(spec.load, v[C_OUT], f),
             resistors,
         }
+    }
+
+    /// At every vertex the noise gain is 1 + |G| and, with Z_i = R(1 − jx) (R = R_s + R_in,
+    /// x = 1/(2πf·R·C_in)), the response is −R_f/(Z_i(1 + 1/a) + R_f/a)·H_out with
+    /// |H_out| ≤ 1 (inverting amplifier with a finite gain, feedback theory). So the loss at
+    /// the band's top against the ideal gain R_f/R is at least 20·log10|(1 − jx)(1 + 1/a) +
+    /// (NG − 1)/a|, over x from 0 to the input network's largest corner over the band's top
+    /// (`network_corner_max`, which every passing build keeps).
+    fn gain_limit(&self, spec: &Spec) -> Option<f64> {
+        let (eps, u) = common::inverse_gain_parts(spec, spec.band.1)?;
+        let kappa = common::network_corner_max(spec) / spec.band.1;
+        let x = Iv::new(0.0, kappa.min(1e12));
+        let (r_lo, r_hi) = spec.stock.resistor_range;
+        let r_min = spec.source_resistance + 0.5 * r_lo.max(spec.input_resistance_min.unwrap_or(0.0));
+        let ng_top = 1.0 + 2.0 * r_hi / r_min;
+        let lb = move |ng: Iv| {
+            let c = |v: f64| Iv::point(v);
+            let one_jx = Cx::new(c(1.0), -x);
+            let inv_a = Cx::new(c(eps), c(u));
+            let z = one_jx * (Cx::real(c(1.0)) + inv_a) + Cx::real(ng - c(1.0)) * inv_a;
+            common::db_lb(z)
+        };
+        common::noise_gain_max(spec, ng_top, &lb).map(|ng| (ng - 1.0).max(0.0))
     }
 
     fn figures(&self, spec: &Spec, v: &[f64]) -> Figures<f64> {

@@ -18,7 +18,7 @@ use super::plans::{self, Compensation, DividerContext, GainForm};
 use super::traits::{Circuit, Drawing, SearchPlan};
 use super::types::{CapBias, DcErrors, DcPoint, Network, OpAmp, SlotDef};
 use crate::build::SlotValue;
-use crate::interval::{Iv, Num};
+use crate::interval::{Cx, Iv, Num};
 use crate::objective::Figures;
 use crate::objective::NetworkFigure;
 use crate::spec::Spec;
@@ -455,6 +455,44 @@ impl Circuit for NonInverting {
             h_out: common::high_pass(spec.load, v[C_OUT], f),
             resistors,
         }
+    }
+
+    /// At every vertex H = H_in·H_amp·H_out with |H_in| at most the divider's attenuation,
+    /// |H_out| ≤ 1 and H_amp = 1/(β + 1/a), β = Z_g/(Z_g + R_f), Z_g = R_g(1 − jx),
+    /// x = 1/(2πf·R_g·C_g) (feedback theory). So the loss at the band's top against the ideal
+    /// gain att·NG is at least 20·log10|NG·(1 − jx)/(NG − jx) + NG/a|, over x from 0 to what
+    /// the gain leg's own requirements leave: its corner within `corner_low_max`, and its loss
+    /// at the band's low edge, 10·log10(NG²(1 + x_l²)/(NG² + x_l²)) with x_l = x·f_hi/f_lo,
+    /// within the loss budget (it rises with x_l, so x_l² ≤ NG²(q − 1)/(NG² − q),
+    /// q = 10^(L/10), falling with NG). |G| ≤ NG at every vertex.
+    fn gain_limit(&self, spec: &Spec) -> Option<f64> {
+        let (eps, u) = common::inverse_gain_parts(spec, spec.band.1)?;
+        let (f_lo, f_hi) = spec.band;
+        let by_corner = spec.corner_low_max.map(|m| m * (1.0 + SLACK) / f_hi);
+        let budget = common::loss_budget(spec).map(|l| l * (1.0 + SLACK) + SLACK);
+        let kappa = move |ng_lo: f64| -> f64 {
+            let by_loss = budget.and_then(|l| {
+                let q = 10f64.powf(l / 10.0);
+                let n2 = ng_lo * ng_lo;
+                (n2 > q).then(|| (n2 * (q - 1.0) / (n2 - q)).sqrt() * (1.0 + SLACK) * f_lo / f_hi)
+            });
+            let k = match (by_corner, by_loss) {
+                (Some(a), Some(b)) => a.min(b),
+                (a, b) => a.or(b).unwrap_or(f64::INFINITY),
+            };
+            k.min(1e12)
+        };
+        let (r_lo, r_hi) = spec.stock.resistor_range;
+        let ng_top = 1.0 + 4.0 * r_hi / r_lo;
+        let lb = move |ng: Iv| {
+            let c = |v: f64| Iv::point(v);
+            let x = Iv::new(0.0, kappa(ng.lo));
+            let n = Cx::real(ng);
+            let beta_ng = n * Cx::new(c(1.0), -x) / Cx::new(ng, -x);
+            let z = beta_ng + n * Cx::new(c(eps), c(u));
+            common::db_lb(z)
+        };
+        common::noise_gain_max(spec, ng_top, &lb)
     }
 
     fn figures(&self, spec: &Spec, v: &[f64]) -> Figures<f64> {

@@ -249,10 +249,16 @@ pub struct Compensation {
 /// The nominal |gain| window of the tolerance, with the search's slack.
 fn gain_window(spec: &Spec) -> (f64, f64) {
     let g = spec.gain.abs();
-    match spec.gain_tolerance {
+    let (lo, hi) = match spec.gain_tolerance {
         Some(t) => (g * (1.0 - t) * (1.0 - SLACK), g * (1.0 + t) * (1.0 + SLACK)),
         None => (0.0, f64::INFINITY),
-    }
+    };
+    // The nominal |gain| is at most the worst-case highest, which the amplifier bounds.
+    let hi = spec
+        .derived
+        .gain_max
+        .map_or(hi, |max| hi.min(max * (1.0 + SLACK)));
+    (lo, hi)
 }
 
 /// r_fb walked with the other gain resistor fixed: the gain points (and with `comp` the

@@ -66,6 +66,13 @@ pub trait Circuit: Send + Sync {
     /// every build whose values lie in the intervals (the generic plan's bounds).
     fn figure_bounds(&self, spec: &Spec, v: &[Iv]) -> Figures<Iv>;
 
+    /// The highest worst-case |gain| a build of this circuit can have and still pass the
+    /// band-top requirements with the spec's amplifier (`None`: no limit known). A search
+    /// relaxation: it must hold for every build the exact analysis passes.
+    fn gain_limit(&self, _spec: &Spec) -> Option<f64> {
+        None
+    }
+
     /// How the circuit is drawn: netlist wiring and schematic.
     fn drawing(&self) -> &dyn Drawing;
 

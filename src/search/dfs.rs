@@ -20,7 +20,8 @@ use super::table::{Real, Table};
 use super::walk::Walk;
 use crate::analysis;
 use crate::build::{Build, LineKey, Part, SlotValue};
-use crate::circuit::{SearchPlan, WalkPlan};
+use crate::circuit::{Circuit, SearchPlan, WalkPlan};
+use crate::spec::{Derived, Spec};
 use crate::vocab::{Combine, PartKind};
 
 /// Rounds of the rising cut before the last, uncut one.
@@ -88,6 +89,26 @@ struct Dfs<'a> {
 
 /// Run the exact search. `progress` is called now and then with how far the first walk is.
 pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
+    // What the spec implies as a whole (the amplifier's gain limit), derived once for the
+    // relaxations; the analysis never reads it, so every figure is the spec's own.
+    let mut derived = req.spec.clone();
+    derived.derived = tighten(req.spec, req.stage);
+    let tight = Request {
+        spec: &derived,
+        stop: req.stop.clone(),
+        ..*req
+    };
+    search_tight(&tight, progress)
+}
+
+/// The limits every passing build keeps, from the spec and the circuit alone.
+pub fn tighten(spec: &Spec, stage: &dyn Circuit) -> Derived {
+    Derived {
+        gain_max: stage.gain_limit(spec),
+    }
+}
+
+fn search_tight(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
     let spec = req.spec;
     let stage = req.stage;
     let slots = stage.slots();
@@ -585,6 +606,10 @@ impl<'a> Dfs<'a> {
             .collect();
         let build = Build { parts };
         self.stats.evaluated += 1;
+        // Most builds that reach a leaf and fail, fail a check that a few evaluations show.
+        if analysis::quick_fail(self.req.spec, self.req.stage, &build) {
+            return;
+        }
         let evaluation =
             analysis::evaluate(self.req.spec, self.req.stage, &build, Some(self.req.stock));
         debug_assert!(

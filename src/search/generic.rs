@@ -214,6 +214,11 @@ fn feasible(spec: &Spec, w: &Figures<Iv>) -> bool {
             return false;
         }
     }
+    if let Some(max) = spec.derived.gain_max {
+        if crate::interval::Num::abs(w.gain).lo > max * (1.0 + s) {
+            return false;
+        }
+    }
     if let Some(min) = spec.input_resistance_min {
         if w.input_resistance.hi < min * (1.0 - s) {
             return false;
