@@ -226,6 +226,11 @@ fn fold_range(it: impl Iterator<Item = f64>) -> (f64, f64) {
 /// down puts that vertex's corner past the edge (`response::low_corner` guards it). The
 /// search uses it, brute force does not, and `tests/exact.rs` holds them to the same builds.
 pub fn quick_fail(spec: &Spec, stage: &dyn Circuit, build: &Build) -> bool {
+    quick_failure(spec, stage, build).is_some()
+}
+
+/// The name of the check [`quick_fail`] finds failing (`None`: none of its checks fails).
+pub fn quick_failure(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Option<&'static str> {
     const REL: f64 = 1e-9;
     const HALF_POWER: f64 = common::THREE_DB + 1e-6;
     let parts: Vec<&Part> = build.parts.iter().collect();
@@ -239,18 +244,18 @@ pub fn quick_fail(spec: &Spec, stage: &dyn Circuit, build: &Build) -> bool {
         if let Some(t) = spec.gain_tolerance {
             let target = spec.gain.abs();
             if g < target * (1.0 - t) * (1.0 - REL) || g > target * (1.0 + t) * (1.0 + REL) {
-                return true;
+                return Some("gain");
             }
         }
         if let Some(min) = spec.input_resistance_min {
             if stage.input_resistance(spec, x) < min * (1.0 - REL) {
-                return true;
+                return Some("input_resistance");
             }
         }
     }
     if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
         if sr / (2.0 * std::f64::consts::PI * peak) < spec.band.1 * (1.0 - REL) {
-            return true;
+            return Some("slew_rate");
         }
     }
     // The swing around the DC range, as `evaluate` finds it.
@@ -277,13 +282,13 @@ pub fn quick_fail(spec: &Spec, stage: &dyn Circuit, build: &Build) -> bool {
         (None, None) => short(swing, 0.0),
     };
     if fails_swing {
-        return true;
+        return Some("swing");
     }
     if spec
         .bias_current_max
         .is_some_and(|max| current > max * (1.0 + REL))
     {
-        return true;
+        return Some("divider_current");
     }
     // Coupling-network corners (each network's own 1/(2πRC)) and the band edges' losses.
     let opamp = OpAmp::of(spec);
@@ -295,25 +300,25 @@ pub fn quick_fail(spec: &Spec, stage: &dyn Circuit, build: &Build) -> bool {
                 .iter()
                 .any(|n| n.corner() > max * (1.0 + REL))
             {
-                return true;
+                return Some("corner");
             }
         }
         let low = response::loss_db(stage, spec, x, &opamp, f_lo);
         match spec.band_loss_max {
-            Some(max) if low > max * (1.0 + REL) + 1e-12 => return true,
-            None if default_rule && low > HALF_POWER => return true,
+            Some(max) if low > max * (1.0 + REL) + 1e-12 => return Some("band_low_loss"),
+            None if default_rule && low > HALF_POWER => return Some("low_corner"),
             _ => {}
         }
         if opamp.gbw.is_some() {
             let high = response::loss_db(stage, spec, x, &opamp, f_hi);
             match spec.band_loss_max {
-                Some(max) if high > max * (1.0 + REL) + 1e-12 => return true,
-                None if high > HALF_POWER => return true,
+                Some(max) if high > max * (1.0 + REL) + 1e-12 => return Some("band_high_loss"),
+                None if high > HALF_POWER => return Some("high_corner"),
                 _ => {}
             }
         }
     }
-    false
+    None
 }
 
 /// Analyse a build exactly. `stock`, when given, adds the quantity check.

@@ -367,17 +367,26 @@ pub fn noise_gain_max(spec: &Spec, ng_top: f64, loss_lb: &dyn Fn(Iv) -> f64) -> 
             break;
         }
     }
-    // Verify [bad, top] in geometric pieces; a piece that does not fail moves the limit up.
+    // Verify [bad, top] as intervals, split in halves (in log) where an interval is too wide
+    // to fail as a whole; a piece that does not fail at 10⁻⁶ width moves the limit up.
     let mut limit = bad;
-    let pieces = 256;
-    let ratio = (ng_top / limit).powf(1.0 / pieces as f64);
-    let mut lo = limit;
-    for _ in 0..pieces {
-        let hi = (lo * ratio).min(ng_top);
-        if !fails(Iv::new(lo, hi)) {
-            limit = hi;
+    let mut stack = vec![(bad, ng_top)];
+    let mut budget_evals = 20_000;
+    while let Some((lo, hi)) = stack.pop() {
+        if hi <= limit {
+            continue;
         }
-        lo = hi;
+        budget_evals -= 1;
+        if fails(Iv::new(lo, hi)) {
+            continue;
+        }
+        if hi / lo < 1.0 + 1e-6 || budget_evals <= 0 {
+            limit = limit.max(hi);
+            continue;
+        }
+        let mid = (lo * hi).sqrt();
+        stack.push((mid, hi));
+        stack.push((lo, mid));
     }
     Some(limit)
 }

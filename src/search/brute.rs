@@ -28,6 +28,8 @@ pub fn brute_force(req: &Request) -> Result<Outcome, SearchError> {
             nodes_by_group: Vec::new(),
             truncated: false,
             stopped: false,
+            gain_max: None,
+            quick_rejects: Default::default(),
             evaluated,
         },
     })

@@ -98,7 +98,9 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
         stop: req.stop.clone(),
         ..*req
     };
-    search_tight(&tight, progress)
+    let mut outcome = search_tight(&tight, progress)?;
+    outcome.stats.gain_max = derived.derived.gain_max;
+    Ok(outcome)
 }
 
 /// The limits every passing build keeps, from the spec and the circuit alone.
@@ -607,7 +609,8 @@ impl<'a> Dfs<'a> {
         let build = Build { parts };
         self.stats.evaluated += 1;
         // Most builds that reach a leaf and fail, fail a check that a few evaluations show.
-        if analysis::quick_fail(self.req.spec, self.req.stage, &build) {
+        if let Some(check) = analysis::quick_failure(self.req.spec, self.req.stage, &build) {
+            *self.stats.quick_rejects.entry(check).or_insert(0) += 1;
             return;
         }
         let evaluation =

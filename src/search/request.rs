@@ -57,6 +57,10 @@ pub struct Stats {
     pub stopped: bool,
     /// Nodes per group, to see where a search spends its time.
     pub nodes_by_group: Vec<u64>,
+    /// Complete builds rejected by a cheap check before the full analysis, by check.
+    pub quick_rejects: std::collections::BTreeMap<&'static str, u64>,
+    /// The highest worst-case |gain| the search derived from the amplifier (`Derived`).
+    pub gain_max: Option<f64>,
     /// Complete builds judged by the exact analysis.
     pub evaluated: u64,
 }
