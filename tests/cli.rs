@@ -1611,3 +1611,26 @@ fn unknown_series_for_stock_lists_the_series() {
         .code(2)
         .stderr(predicate::str::contains("E24").and(predicate::str::contains("series")));
 }
+
+/// The ranking is a total order (scores, then tighter parts, then the parts' values and rows,
+/// with the default weights breaking ties a zero weight leaves): `--top 3` is the start of
+/// `--top 5` on every example and on a spec whose zero-weight goals make most builds tie.
+#[test]
+fn top_3_is_the_start_of_top_5() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut specs = files_in("examples", "toml");
+    let text = std::fs::read_to_string(data("cli-check-inverting-9v.toml")).unwrap()
+        + "\n[goals]\ngain_error = 1.0\noffset = 0.0\npart_count = 0.0\nbom_lines = 0.0\ncapacitance = 0.0\ncost = 0.0\n";
+    specs.push(temp_spec(&dir, "gain-only.toml", &text));
+    for spec in &specs {
+        let parts = |top: &str| -> Vec<String> {
+            let doc = pick_json(spec, &["--top", top, "--yield", "0"]);
+            builds(&doc)
+                .iter()
+                .map(|b| b["parts"].to_string())
+                .collect()
+        };
+        let (three, five) = (parts("3"), parts("5"));
+        assert_eq!(three[..], five[..three.len()], "{}", spec.display());
+    }
+}

@@ -285,7 +285,8 @@ impl Circuit for Inverting {
         let kappa = common::network_corner_max(spec) / spec.band.1;
         let x = Iv::new(0.0, kappa.min(1e12));
         let (r_lo, r_hi) = spec.stock.resistor_range;
-        let r_min = spec.source_resistance + 0.5 * r_lo.max(spec.input_resistance_min.unwrap_or(0.0));
+        let r_min =
+            spec.source_resistance + 0.5 * r_lo.max(spec.input_resistance_min.unwrap_or(0.0));
         let ng_top = 1.0 + 2.0 * r_hi / r_min;
         let lb = move |ng: Iv| {
             let c = |v: f64| Iv::point(v);

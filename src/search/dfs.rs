@@ -13,15 +13,14 @@
 
 use super::generic;
 use super::request::{
-    kind_index, no_candidates, too_many, Outcome, Progress, Ranked, Request, SearchError, Stats,
-    TopN,
+    kind_index, no_candidates, primary_scores, ranking_spec, too_many, Outcome, Progress, Ranked,
+    Request, SearchError, Stats, TopN,
 };
 use super::table::{Real, Table};
 use super::walk::Walk;
 use crate::analysis;
 use crate::build::{Build, LineKey, Part, SlotValue};
-use crate::circuit::{Circuit, SearchPlan, WalkPlan};
-use crate::spec::{Derived, Spec};
+use crate::circuit::{SearchPlan, WalkPlan};
 use crate::vocab::{Combine, PartKind};
 
 /// Rounds of the rising cut before the last, uncut one.
@@ -91,23 +90,16 @@ struct Dfs<'a> {
 pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
     // What the spec implies as a whole (the amplifier's gain limit), derived once for the
     // relaxations; the analysis never reads it, so every figure is the spec's own.
-    let mut derived = req.spec.clone();
-    derived.derived = tighten(req.spec, req.stage);
+    let ranking = ranking_spec(req.spec, req.stage);
     let tight = Request {
-        spec: &derived,
+        spec: &ranking,
         stop: req.stop.clone(),
         ..*req
     };
     let mut outcome = search_tight(&tight, progress)?;
-    outcome.stats.gain_max = derived.derived.gain_max;
+    outcome.stats.gain_max = ranking.derived.gain_max;
+    primary_scores(req.spec, req.stage, &mut outcome.builds);
     Ok(outcome)
-}
-
-/// The limits every passing build keeps, from the spec and the circuit alone.
-pub fn tighten(spec: &Spec, stage: &dyn Circuit) -> Derived {
-    Derived {
-        gain_max: stage.gain_limit(spec),
-    }
 }
 
 fn search_tight(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
@@ -620,6 +612,20 @@ impl<'a> Dfs<'a> {
             "search shares {acc} != objective {}",
             evaluation.score
         );
+        if let Some(c) = evaluation.checks.iter().find(|c| !c.pass) {
+            let name: &'static str = if c.name.starts_with("rating") {
+                "rating"
+            } else if c.name.starts_with("polarity") {
+                "polarity"
+            } else if c.name.starts_with("power") {
+                "power"
+            } else if c.name == "quantity" {
+                "quantity"
+            } else {
+                "other"
+            };
+            *self.stats.quick_rejects.entry(name).or_insert(0) += 1;
+        }
         if evaluation.pass {
             self.top.offer(Ranked { build, evaluation });
         }

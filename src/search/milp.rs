@@ -51,6 +51,22 @@ struct Choice {
 
 /// Run the MILP engine. `progress` is called after every solve.
 pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
+    // The same ranking as the walk engine: the tie-break weights and the derived limits.
+    let ranking = super::request::ranking_spec(req.spec, req.stage);
+    let r = Request {
+        spec: &ranking,
+        stop: req.stop.clone(),
+        ..*req
+    };
+    let mut outcome = search_ranked(&r, progress)?;
+    super::request::primary_scores(req.spec, req.stage, &mut outcome.builds);
+    Ok(outcome)
+}
+
+fn search_ranked(
+    req: &Request,
+    progress: &mut dyn FnMut(Progress),
+) -> Result<Outcome, SearchError> {
     let spec = req.spec;
     let stage = req.stage;
     let n = stage.slots().len();

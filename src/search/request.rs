@@ -260,7 +260,49 @@ pub(crate) fn parts_unit(kind: PartKind) -> crate::value::Unit {
 /// arrangement per slot, e.g. two inventory lines of one value) count once, the better kept.
 pub(crate) struct TopN {
     cap: usize,
-    items: Vec<(f64, Vec<u64>, Ranked)>,
+    items: Vec<(Order, Vec<u64>, Ranked)>,
+}
+
+/// Scores closer than this count as equal and go to the tie-break (10⁻¹⁰ points: far below
+/// anything a goal weighs, far above the rounding of a sum of a few dozen terms).
+pub const TIE: f64 = 1e-10;
+
+/// The weight of the default goals added to every goal's own, so that builds whose score
+/// is equal under the spec's weights (a zero weight makes many equal) are ranked by the
+/// default weights: fewer pieces and lines, smaller capacitors, less cost and offset, a
+/// smaller gain error. 10⁻⁶ of a default weight moves a ranking only between scores within
+/// about 10⁻⁵ points of each other.
+pub const TIE_BREAK: f64 = 1e-6;
+
+/// Where a build ranks: its score to [`TIE`], then the summed tolerance of its parts (tighter
+/// first), then what its parts look like (values, tolerances, arrangements in slot order), then
+/// the inventory rows they come from — a total order, so the ranking never depends on how
+/// many builds are asked for, or on the engine.
+#[derive(Debug, Clone, PartialEq, Eq, PartialOrd, Ord)]
+struct Order {
+    score: i64,
+    spread: i64,
+    look: Vec<u64>,
+    rows: Vec<usize>,
+}
+
+fn quantum(x: f64) -> i64 {
+    (x / TIE).round().clamp(i64::MIN as f64, i64::MAX as f64) as i64
+}
+
+fn order_of(ranked: &Ranked, look: Vec<u64>) -> Order {
+    let spread: f64 = ranked.build.parts.iter().map(Part::tolerance).sum();
+    Order {
+        score: quantum(ranked.evaluation.score),
+        spread: quantum(spread),
+        look,
+        rows: ranked
+            .build
+            .parts
+            .iter()
+            .flat_map(|p| p.pieces.iter().map(|q| q.line.unwrap_or(0)))
+            .collect(),
+    }
 }
 
 impl TopN {
@@ -271,12 +313,15 @@ impl TopN {
         }
     }
 
-    /// Score a new build must beat to enter.
+    /// The score a build must not exceed to enter (beyond it by more than [`TIE`], it
+    /// cannot): the N-th best's, or ∞ until N are held.
     pub fn bound(&self) -> f64 {
         if self.items.len() < self.cap {
             f64::INFINITY
         } else {
-            self.items.last().map_or(f64::INFINITY, |i| i.0)
+            self.items
+                .last()
+                .map_or(f64::INFINITY, |i| i.2.evaluation.score + TIE)
         }
     }
 
@@ -285,31 +330,52 @@ impl TopN {
         self.items.len() >= self.cap
     }
 
+    /// Offer a passing build; builds that look identical (same values, tolerances and
+    /// arrangements per slot, e.g. two inventory lines of one value) count once, the one
+    /// ranked first kept.
     pub fn offer(&mut self, ranked: Ranked) {
-        let score = ranked.evaluation.score;
-        let key = look_key(&ranked.build);
-        if let Some(pos) = self.items.iter().position(|i| i.1 == key) {
-            if self.items[pos].0 <= score {
+        let look = look_key(&ranked.build);
+        let order = order_of(&ranked, look.clone());
+        if let Some(pos) = self.items.iter().position(|i| i.1 == look) {
+            if self.items[pos].0 <= order {
                 return;
             }
             self.items.remove(pos);
         }
-        if self.items.len() >= self.cap && score >= self.bound() {
+        if self.items.len() >= self.cap && self.items.last().is_some_and(|l| l.0 <= order) {
             return;
         }
-        // Equal scores: the tighter parts first (what a person would pick between twins).
-        let spread: f64 = ranked.build.parts.iter().map(Part::tolerance).sum();
-        let at = self.items.partition_point(|i| {
-            i.0 < score
-                || (i.0 == score
-                    && i.2.build.parts.iter().map(Part::tolerance).sum::<f64>() <= spread)
-        });
-        self.items.insert(at, (score, key, ranked));
+        let at = self.items.partition_point(|i| i.0 < order);
+        self.items.insert(at, (order, look, ranked));
         self.items.truncate(self.cap);
     }
 
     pub fn into_vec(self) -> Vec<Ranked> {
         self.items.into_iter().map(|i| i.2).collect()
+    }
+}
+
+/// The spec a search ranks with: the spec's goal weights plus [`TIE_BREAK`] times the default
+/// ones (see there), and what the search derives from it (`Derived`). The analysis reads
+/// neither, so every figure is the spec's own; only the scores differ, and [`primary_scores`]
+/// puts the spec's back.
+pub fn ranking_spec(spec: &Spec, stage: &dyn Circuit) -> Spec {
+    let mut r = spec.clone();
+    for goal in crate::vocab::Goal::ALL {
+        let w = spec.goals.weight(goal) + TIE_BREAK * goal.default_weight();
+        r.goals.set(goal, w);
+    }
+    r.derived = crate::spec::Derived {
+        gain_max: stage.gain_limit(spec),
+    };
+    r
+}
+
+/// The scores of ranked builds under the spec's own weights (their order is kept: it is the
+/// ranking spec's).
+pub fn primary_scores(spec: &Spec, stage: &dyn Circuit, builds: &mut [Ranked]) {
+    for r in builds {
+        r.evaluation.score = crate::analysis::score(spec, stage, &r.build);
     }
 }
 
