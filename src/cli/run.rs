@@ -201,13 +201,14 @@ fn pick(
     if std::env::var_os("STOCKFIT_STATS").is_some() {
         let s = &picked.stats;
         eprintln!(
-            "search: gain ≤ {:?}; {:?} candidates per slot, {} nodes {:?}, {} builds evaluated ({:?} rejected early), {:.3} s",
+            "search: gain ≤ {:?}; {:?} candidates per slot, {} nodes {:?}, {} builds evaluated ({:?} rejected early, {:?} by the full analysis), {:.3} s",
             s.gain_max,
             s.candidates,
             s.nodes,
             s.nodes_by_group,
             s.evaluated,
             s.quick_rejects,
+            s.full_rejects,
             started.elapsed().as_secs_f64()
         );
     }

@@ -30,6 +30,7 @@ pub fn brute_force(req: &Request) -> Result<Outcome, SearchError> {
             stopped: false,
             gain_max: None,
             quick_rejects: Default::default(),
+            full_rejects: Default::default(),
             evaluated,
         },
     })

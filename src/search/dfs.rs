@@ -613,23 +613,40 @@ impl<'a> Dfs<'a> {
             evaluation.score
         );
         if let Some(c) = evaluation.checks.iter().find(|c| !c.pass) {
-            let name: &'static str = if c.name.starts_with("rating") {
-                "rating"
-            } else if c.name.starts_with("polarity") {
-                "polarity"
-            } else if c.name.starts_with("power") {
-                "power"
-            } else if c.name == "quantity" {
-                "quantity"
-            } else {
-                "other"
-            };
-            *self.stats.quick_rejects.entry(name).or_insert(0) += 1;
+            *self
+                .stats
+                .full_rejects
+                .entry(check_family(&c.name))
+                .or_insert(0) += 1;
         }
         if evaluation.pass {
             self.top.offer(Ranked { build, evaluation });
         }
     }
+}
+
+/// The family of a check's name, for the statistics: `rating_c_in` → `rating`.
+fn check_family(name: &str) -> &'static str {
+    const FAMILIES: &[&str] = &[
+        "rating",
+        "polarity",
+        "power",
+        "quantity",
+        "corner",
+        "gain",
+        "input",
+        "output",
+        "band",
+        "low_corner",
+        "high_corner",
+        "slew",
+        "divider",
+    ];
+    FAMILIES
+        .iter()
+        .find(|f| name.starts_with(*f))
+        .copied()
+        .unwrap_or("other")
 }
 
 /// Least slot points plus stage bound of any candidate a plan lets through: on each side of

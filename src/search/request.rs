@@ -59,6 +59,8 @@ pub struct Stats {
     pub nodes_by_group: Vec<u64>,
     /// Complete builds rejected by a cheap check before the full analysis, by check.
     pub quick_rejects: std::collections::BTreeMap<&'static str, u64>,
+    /// Complete builds the full analysis failed, by the family of the first failing check.
+    pub full_rejects: std::collections::BTreeMap<&'static str, u64>,
     /// The highest worst-case |gain| the search derived from the amplifier (`Derived`).
     pub gain_max: Option<f64>,
     /// Complete builds judged by the exact analysis.
