@@ -177,6 +177,37 @@ fn main() {
         ok(p95 <= 0.2),
         ok(infeasible_max <= 0.5)
     );
+    if let Some(path) = env::<String>("STOCKFIT_FAMILY_TIMES") {
+        let lines: Vec<String> = times
+            .iter()
+            .map(|(t, r, i)| {
+                let m = &members[*i];
+                let pick = |key: &str| {
+                    m.text
+                        .lines()
+                        .find(|l| l.starts_with(key))
+                        .and_then(|l| l.split('=').nth(1))
+                        .unwrap_or("")
+                        .trim()
+                        .trim_matches('"')
+                        .to_string()
+                };
+                format!(
+                    "{t:.4}\t{r:?}\t{}\t{}\t{}\t{}\t{}",
+                    m.name,
+                    pick("kind"),
+                    pick("resistors"),
+                    pick("combine"),
+                    if m.text.contains("part_count = 0.0") {
+                        "gain-only"
+                    } else {
+                        "default"
+                    }
+                )
+            })
+            .collect();
+        let _ = std::fs::write(path, lines.join("\n") + "\n");
+    }
     let mut slow = times.clone();
     slow.sort_by(|a, b| b.0.total_cmp(&a.0));
     println!("  slowest:");

@@ -66,6 +66,10 @@ pub struct WalkPlan<'s> {
     /// (whichever side of the target it is on), so the search can drop it without asking
     /// `bound`; `ANY` when the plan knows no such interval.
     pub window: (f64, f64),
+    /// `Some(min)` when the plan is exactly "a coordinate of at least `min`, nothing else
+    /// counted" ([`WalkPlan::at_least`]): the search then bounds such slots of one kind
+    /// together, with the lines they need.
+    pub at_least: Option<f64>,
 }
 
 /// The window of a plan that knows none (see [`WalkPlan::window`]).
@@ -75,6 +79,7 @@ impl WalkPlan<'static> {
     /// No preference: every candidate, cheapest first (a walk up from the bottom).
     pub fn free() -> WalkPlan<'static> {
         WalkPlan {
+            at_least: None,
             window: ANY,
             coord: Coord::Value,
             target: 0.0,
@@ -91,6 +96,7 @@ impl WalkPlan<'static> {
             min * (1.0 - common::SLACK)
         };
         WalkPlan {
+            at_least: Some(target),
             window: ANY,
             coord,
             target,
@@ -102,6 +108,7 @@ impl WalkPlan<'static> {
     pub fn at_most(coord: Coord, max: f64) -> WalkPlan<'static> {
         let target = max * (1.0 + common::SLACK);
         WalkPlan {
+            at_least: None,
             window: ANY,
             coord,
             target,

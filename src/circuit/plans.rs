@@ -57,6 +57,7 @@ pub fn divider_first<'s>(spec: &'s Spec, ctx: DividerContext) -> WalkPlan<'s> {
     let floor = ctx.rp_min.map_or(0.0, |m| m * (1.0 - SLACK));
     match ctx.r_fb {
         Some(r) => WalkPlan {
+            at_least: None,
             window: ANY,
             coord: Coord::Value,
             target: (r / k).max(floor),
@@ -68,6 +69,7 @@ pub fn divider_first<'s>(spec: &'s Spec, ctx: DividerContext) -> WalkPlan<'s> {
             }),
         },
         None => WalkPlan {
+            at_least: None,
             window: ANY,
             coord: Coord::Value,
             target: spec.stock.resistor_range.1 * (1.0 + 1e-9),
@@ -181,6 +183,7 @@ pub fn divider_member<'s>(
     let mode_comp = r_fb.map_or(f64::INFINITY, v_of_rp);
     let target = mode_ratio.clamp(lower.min(upper), upper.max(lower.min(upper)));
     WalkPlan {
+        at_least: None,
         window: ANY,
         coord: Coord::Value,
         target,
@@ -293,6 +296,7 @@ pub fn gain_fb<'s>(
         // The gain points alone: V-shaped about `mode`, so the clamped read is the gain
         // at max(v, mode) going up, min(v, mode) going down.
         return WalkPlan {
+            at_least: None,
             window,
             coord: Coord::Value,
             target: mode,
@@ -306,6 +310,7 @@ pub fn gain_fb<'s>(
         };
     }
     WalkPlan {
+        at_least: None,
         window,
         coord: Coord::Value,
         target: mode,
@@ -349,6 +354,7 @@ pub fn gain_other_given_fb<'s>(
                 + spec.amplifier.input_offset_current / 2.0 * r_fb)
     });
     WalkPlan {
+        at_least: None,
         window: ANY,
         coord: Coord::Value,
         target: mode.max(floor),
@@ -392,6 +398,7 @@ pub fn gain_other_first<'s>(
     let g = spec.gain.abs();
     match comp {
         None => WalkPlan {
+            at_least: None,
             window: ANY,
             coord: Coord::Value,
             target: top.max(floor),
@@ -411,6 +418,7 @@ pub fn gain_other_first<'s>(
                 f64::INFINITY
             };
             WalkPlan {
+                at_least: None,
                 window: ANY,
                 coord: Coord::Value,
                 target: mode.clamp(floor.min(top), top.max(floor)),

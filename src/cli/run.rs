@@ -201,11 +201,12 @@ fn pick(
     if std::env::var_os("STOCKFIT_STATS").is_some() {
         let s = &picked.stats;
         eprintln!(
-            "search: gain ≤ {:?}; {:?} candidates per slot, {} nodes {:?}, {} builds evaluated ({:?} rejected early, {:?} by the full analysis), {:.3} s",
+            "search: gain ≤ {:?}, root bound {:.4}; {:?} candidates per slot, {} nodes {:?}, {} builds evaluated ({:?} rejected early, {:?} by the full analysis), {:.3} s",
             s.gain_max,
+            s.root_bound,
             s.candidates,
             s.nodes,
-            s.nodes_by_group,
+            s.nodes_by_level,
             s.evaluated,
             s.quick_rejects,
             s.full_rejects,

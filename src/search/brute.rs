@@ -26,6 +26,8 @@ pub fn brute_force(req: &Request) -> Result<Outcome, SearchError> {
             candidates: cands.iter().map(|c| c.len()).collect(),
             nodes: evaluated,
             nodes_by_group: Vec::new(),
+            nodes_by_level: Vec::new(),
+            root_bound: 0.0,
             truncated: false,
             stopped: false,
             gain_max: None,

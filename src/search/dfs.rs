@@ -21,6 +21,7 @@ use super::walk::Walk;
 use crate::analysis;
 use crate::build::{Build, LineKey, Part, SlotValue};
 use crate::circuit::{SearchPlan, WalkPlan};
+use crate::spec::Spec;
 use crate::vocab::{Combine, PartKind};
 
 /// Rounds of the rising cut before the last, uncut one.
@@ -283,6 +284,7 @@ fn explore<'a>(
         }
     }
     let root = acc + dfs.rest_lb(0, None);
+    dfs.stats.root_bound = root;
     let rounds = if dfs.top.full() { 0 } else { ROUNDS };
     for round in 0..=rounds {
         dfs.cut = if round < rounds {
@@ -382,6 +384,10 @@ impl<'a> Dfs<'a> {
             }
             self.stats.nodes += 1;
             self.stats.nodes_by_group[lv.group] += 1;
+            if self.stats.nodes_by_level.len() <= level {
+                self.stats.nodes_by_level.resize(level + 1, 0);
+            }
+            self.stats.nodes_by_level[level] += 1;
             let real = item.real;
             let (fits, new_lines) = self.take(ki, &real);
             if fits {
@@ -490,7 +496,13 @@ impl<'a> Dfs<'a> {
     /// so far) lets through, and the first line of each kind still without one.
     fn rest_lb(&self, level: usize, except: Option<usize>) -> f64 {
         let spec = self.req.spec;
-        let mut total = self.lines_lb(level, except);
+        let lambda = crate::objective::line_weight(spec);
+        // Per kind: the open levels' own bounds, and for the "large enough" slots of a kind
+        // with no line yet, their targets for the bound of the lines they need together.
+        let mut own = [0.0f64; 2];
+        let mut open = [false; 2];
+        let mut joint: [Vec<(f64, f64)>; 2] = [Vec::new(), Vec::new()];
+        let mut eligible = [0, 1].map(|k| self.kind_lines[k] == 0 && except != Some(k));
         for l in level..self.levels.len() {
             let lv = self.levels[l];
             if self.locked[lv.slot].is_some() {
@@ -499,11 +511,36 @@ impl<'a> Dfs<'a> {
             let ki = kind_index(self.req.stage.slots()[lv.slot].kind);
             let table = self.tables[ki].expect("table");
             let mut lb = self.rest_static[l] - self.rest_static[l + 1];
+            let mut least = None;
             if lv.alone {
                 let plan = self.plan.walk(spec, lv.group, lv.k, &self.vals);
                 lb = lb.max(plan_floor(table, &plan));
+                least = plan.at_least;
             }
-            total += lb;
+            open[ki] = true;
+            own[ki] += lb;
+            match least {
+                Some(t) if eligible[ki] => joint[ki].push((t, lb)),
+                _ => eligible[ki] = false,
+            }
+        }
+        let mut total = 0.0;
+        for k in 0..2 {
+            if !open[k] {
+                continue;
+            }
+            let first_line = if self.kind_lines[k] == 0 && except != Some(k) {
+                lambda
+            } else {
+                0.0
+            };
+            let mut kind_total = own[k] + first_line;
+            if eligible[k] && (2..=6).contains(&joint[k].len()) {
+                let table = self.tables[k].expect("table");
+                let dp = shared_lines_bound(spec, table, &joint[k], lambda);
+                kind_total = kind_total.max(dp);
+            }
+            total += kind_total;
         }
         total
     }
@@ -623,6 +660,67 @@ impl<'a> Dfs<'a> {
             self.top.offer(Ranked { build, evaluation });
         }
     }
+}
+
+/// A lower bound of what `slots` — "large enough" slots of one kind with no line in the
+/// build yet, each as (its least coordinate, its own lower bound of points) — add together
+/// with the lines they need. Put each slot with the line of its largest piece: slots with the
+/// same line form a block, blocks have distinct new lines (λ each), and a member of a block
+/// whose largest target is T has a largest piece of at least T/f (f = 2 where two pieces add
+/// up, 1 otherwise), so its points are at least those of one piece of that value. The least
+/// over the partitions of the slots is a bound whatever the realisations (pairs included):
+/// a slot alone costs its own bound and a line; slots sharing a line pay for the largest
+/// value among them — what makes a coupling capacitor share the load's large value or take a
+/// line of its own (common practice in the choice, exact as a bound).
+fn shared_lines_bound(spec: &Spec, table: &Table, slots: &[(f64, f64)], lambda: f64) -> f64 {
+    use crate::build::Arrangement;
+    let adds = match table.kind {
+        PartKind::Capacitor => table.arrangements.contains(&Arrangement::Parallel),
+        PartKind::Resistor => table.arrangements.contains(&Arrangement::Series),
+    };
+    let f = if adds { 2.0 } else { 1.0 };
+    let piece_at_least = |v: f64| -> f64 {
+        let g = &spec.goals;
+        let mut p = g.weight(crate::vocab::Goal::PartCount);
+        if table.kind == PartKind::Capacitor {
+            p += g.weight(crate::vocab::Goal::Capacitance) * (v / 1e-12).log10().max(0.0);
+        }
+        p
+    };
+    let n = slots.len();
+    let cost = |mask: usize| -> f64 {
+        let members: Vec<&(f64, f64)> = (0..n)
+            .filter(|i| mask >> i & 1 == 1)
+            .map(|i| &slots[i])
+            .collect();
+        if members.len() == 1 {
+            return lambda + members[0].1;
+        }
+        let top = members.iter().map(|m| m.0).fold(0.0, f64::max);
+        let floor = piece_at_least(top / f);
+        lambda + members.iter().map(|m| m.1.max(floor)).sum::<f64>()
+    };
+    let full = (1usize << n) - 1;
+    let mut best = vec![f64::INFINITY; full + 1];
+    best[0] = 0.0;
+    for mask in 1..=full {
+        let low = mask & mask.wrapping_neg();
+        let rest = mask ^ low;
+        // Every block holding the lowest slot, and the best of what is left.
+        let mut sub = rest;
+        loop {
+            let block = sub | low;
+            let v = cost(block) + best[mask ^ block];
+            if v < best[mask] {
+                best[mask] = v;
+            }
+            if sub == 0 {
+                break;
+            }
+            sub = (sub - 1) & rest;
+        }
+    }
+    best[full] * (1.0 - 1e-9)
 }
 
 /// The family of a check's name, for the statistics: `rating_c_in` → `rating`.

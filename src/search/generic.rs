@@ -312,6 +312,7 @@ impl SearchPlan for GenericPlan<'_> {
         let parts: Vec<Option<SlotValue>> = parts.to_vec();
         let target = self.target(spec, &parts, slot);
         WalkPlan {
+            at_least: None,
             coord: Coord::Value,
             target,
             window: ANY,

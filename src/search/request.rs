@@ -57,6 +57,10 @@ pub struct Stats {
     pub stopped: bool,
     /// Nodes per group, to see where a search spends its time.
     pub nodes_by_group: Vec<u64>,
+    /// Nodes per level (slot of the plan's order).
+    pub nodes_by_level: Vec<u64>,
+    /// The lower bound of every build's score at the root of the last search pass.
+    pub root_bound: f64,
     /// Complete builds rejected by a cheap check before the full analysis, by check.
     pub quick_rejects: std::collections::BTreeMap<&'static str, u64>,
     /// Complete builds the full analysis failed, by the family of the first failing check.
