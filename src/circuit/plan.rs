@@ -75,6 +75,25 @@ pub struct WalkPlan<'s> {
 /// The window of a plan that knows none (see [`WalkPlan::window`]).
 pub const ANY: (f64, f64) = (f64::NEG_INFINITY, f64::INFINITY);
 
+impl<'s> WalkPlan<'s> {
+    /// The plan with its start inside its window: a walk reads outward from the start and
+    /// trusts the window on the far side only, so a start outside the window (a target the
+    /// requirements rule out, e.g. a gain the amplifier cannot reach) would read the values
+    /// between it and the window. An empty window reads nothing. The bound keeps its sides:
+    /// every value the walk then meets lies on the same side of the old start as of the new.
+    pub fn inside_window(mut self) -> WalkPlan<'s> {
+        let (lo, hi) = self.window;
+        if lo > hi {
+            self.bound = Box::new(|_, _| None);
+        } else if self.target < lo {
+            self.target = lo;
+        } else if self.target > hi {
+            self.target = hi;
+        }
+        self
+    }
+}
+
 impl WalkPlan<'static> {
     /// No preference: every candidate, cheapest first (a walk up from the bottom).
     pub fn free() -> WalkPlan<'static> {

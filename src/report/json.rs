@@ -125,6 +125,8 @@ struct DiagnosisJson<'a> {
     builds: [(); 0],
     blockers: &'a [crate::search::diagnose::Blocker],
     several_requirements: bool,
+    /// Requirements the diagnosis had no time to try.
+    untried: &'a [String],
     nearest: Option<serde_json::Value>,
 }
 
@@ -145,6 +147,7 @@ pub fn diagnosis(
         builds: [],
         blockers: &d.blockers,
         several_requirements: d.several,
+        untried: &d.untried,
         nearest,
     };
     serde_json::to_string_pretty(&doc).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"))

@@ -595,7 +595,7 @@ pub fn diagnosis(
             out,
             "No single requirement is to blame: dropping any one of them still leaves no build."
         );
-    } else {
+    } else if !d.blockers.is_empty() {
         let _ = writeln!(out, "Blocking requirements (each alone; the others kept):");
         for b in &d.blockers {
             let _ = writeln!(out, "  - {}", b.message);
@@ -604,11 +604,18 @@ pub fn diagnosis(
             }
         }
     }
+    if !d.untried.is_empty() {
+        let _ = writeln!(
+            out,
+            "Not tried in the time the diagnosis takes: {} (each may block too).",
+            d.untried.join(", ")
+        );
+    }
     if let Some(n) = &d.nearest {
         let _ = writeln!(out);
         let _ = writeln!(
             out,
-            "Nearest build (best with the requirements dropped), judged against the spec:"
+            "Nearest build (closest to meeting the spec), judged against the spec:"
         );
         let labels: Vec<String> = n
             .build

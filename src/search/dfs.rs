@@ -13,8 +13,8 @@
 
 use super::generic;
 use super::request::{
-    kind_index, no_candidates, primary_scores, ranking_spec, too_many, Outcome, Progress, Ranked,
-    Request, SearchError, Stats, TopN,
+    kind_index, no_candidates, primary_scores, ranking_spec, ruled_out, too_many, Outcome,
+    Progress, Ranked, Request, SearchError, Stats, TopN,
 };
 use super::table::{Real, Table};
 use super::walk::Walk;
@@ -105,6 +105,13 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
 
 fn search_tight(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
     let spec = req.spec;
+    // Ruled out by the spec alone: nothing to search (the diagnosis says why).
+    if ruled_out(spec) {
+        return Ok(Outcome {
+            builds: Vec::new(),
+            stats: Stats::default(),
+        });
+    }
     let stage = req.stage;
     let slots = stage.slots();
     let n = slots.len();
@@ -242,7 +249,9 @@ fn explore<'a>(
                 let table = tables[k].expect("a table for every unlocked slot's kind");
                 let mut pts = table.min_pts;
                 if lv.alone {
-                    let walk_plan = plan.walk(spec, lv.group, lv.k, &locked_vals);
+                    let walk_plan = plan
+                        .walk(spec, lv.group, lv.k, &locked_vals)
+                        .inside_window();
                     pts = pts.max(plan_floor(table, &walk_plan));
                 }
                 (pts, 1u8 << k)
@@ -338,7 +347,11 @@ impl<'a> Dfs<'a> {
         // candidate is taken. First the cheap static bound; the look-ahead of the open
         // one-slot groups (which asks the stage) only once a candidate passes that.
         let mut rest = self.rest_static[level + 1] + self.lines_lb(level + 1, Some(ki));
-        let plan = plan.unwrap_or_else(|| self.plan.walk(spec, lv.group, lv.k, &self.vals));
+        let plan = plan.unwrap_or_else(|| {
+            self.plan
+                .walk(spec, lv.group, lv.k, &self.vals)
+                .inside_window()
+        });
         let mut walk = Walk::new(spec, table, plan, &self.used[ki], self.bound() - acc - rest);
         let mut tight = false;
         let lambda = crate::objective::line_weight(spec);
@@ -442,7 +455,8 @@ impl<'a> Dfs<'a> {
         let table = self.tables[ki].expect("table");
         let plan = self
             .plan
-            .walk(self.req.spec, next.group, next.k, &self.vals);
+            .walk(self.req.spec, next.group, next.k, &self.vals)
+            .inside_window();
         let rest = self.rest_static[level + 2] + self.lines_lb(level + 2, Some(ki));
         let limit = self.bound() - score - rest;
         let floor = Walk::floor(
@@ -513,7 +527,10 @@ impl<'a> Dfs<'a> {
             let mut lb = self.rest_static[l] - self.rest_static[l + 1];
             let mut least = None;
             if lv.alone {
-                let plan = self.plan.walk(spec, lv.group, lv.k, &self.vals);
+                let plan = self
+                    .plan
+                    .walk(spec, lv.group, lv.k, &self.vals)
+                    .inside_window();
                 lb = lb.max(plan_floor(table, &plan));
                 least = plan.at_least;
             }

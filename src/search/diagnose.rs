@@ -63,10 +63,14 @@ pub struct PartLimit {
 pub struct Diagnosis {
     /// Each requirement that, dropped alone, lets a build exist.
     pub blockers: Vec<Blocker>,
-    /// True when dropping any single requirement is not enough.
+    /// True when dropping any single requirement is not enough (every one was tried).
     pub several: bool,
-    /// The best build with all requirements dropped, judged against the spec.
+    /// The build that comes closest to meeting the spec, judged against it: the one nearest
+    /// a single blocking requirement (it fails that one only), or with no single blocker the
+    /// best with every requirement dropped.
     pub nearest: Option<Ranked>,
+    /// Requirements the diagnosis had no time left to try (spec keys).
+    pub untried: Vec<String>,
 }
 
 /// How a requirement is dropped, tightened and loosened.
@@ -159,14 +163,21 @@ thread_local! {
     static SEARCHES_LEFT: std::cell::Cell<u32> = const { std::cell::Cell::new(0) };
 }
 
-/// The best build under `spec`, if any.
-fn best_under(req: &Request, spec: &Spec) -> Result<Option<Ranked>, SearchError> {
+/// A diagnostic search ran out of its share of time: what it found says nothing.
+struct OutOfTime;
+
+/// The best build under `spec`, if any (`Err` when the diagnosis's time ran out first).
+fn best_under(
+    req: &Request,
+    spec: &Spec,
+) -> Result<Result<Option<Ranked>, OutOfTime>, SearchError> {
     if SEARCHES_LEFT.with(|n| {
         let left = n.get();
         n.set(left.saturating_sub(1));
         left == 0
-    }) {
-        return Ok(None);
+    }) || req.stop.now()
+    {
+        return Ok(Err(OutOfTime));
     }
     let r = Request {
         spec,
@@ -175,7 +186,11 @@ fn best_under(req: &Request, spec: &Spec) -> Result<Option<Ranked>, SearchError>
         stop: req.stop.clone(),
         ..*req
     };
-    Ok(search(&r, &mut |_| {})?.builds.into_iter().next())
+    let outcome = search(&r, &mut |_| {})?;
+    if outcome.stats.stopped {
+        return Ok(Err(OutOfTime));
+    }
+    Ok(Ok(outcome.builds.into_iter().next()))
 }
 
 /// The blocker for `knob`, whose tightest feasible limit is `good`, met by `closest`.
@@ -526,80 +541,135 @@ fn stock_words(req: &Request, kind: PartKind, end: &str, value: f64) -> String {
     )
 }
 
-/// Explain an infeasible request. Runs a few dozen searches at most.
+/// How long a diagnosis may take in all: a few dozen bounded searches, stopped when the time
+/// is spent (the requirements not tried by then are said to be so).
+pub const DIAGNOSIS_TIME: std::time::Duration = std::time::Duration::from_millis(400);
+
+/// Explain an infeasible request: a few dozen bounded searches at most, and at most
+/// [`DIAGNOSIS_TIME`] (or the request's own stop, when sooner).
 pub fn diagnose(req: &Request) -> Result<Diagnosis, SearchError> {
     SEARCHES_LEFT.with(|n| n.set(DIAGNOSIS_SEARCHES));
+    let deadline = std::time::Instant::now() + DIAGNOSIS_TIME;
+    let stop = super::request::Stop {
+        deadline: Some(req.stop.deadline.map_or(deadline, |d| d.min(deadline))),
+        interrupt: req.stop.interrupt.clone(),
+    };
+    let req = &Request { stop, ..*req };
     let mut blockers = Vec::new();
+    let mut closest_builds: Vec<Ranked> = Vec::new();
+    let mut untried = Vec::new();
     for knob in KNOBS {
         let Some(limit) = (knob.get)(req.spec) else {
             continue;
         };
-        let mut relaxed = req.spec.clone();
-        // GBW and slew rate are amplifier figures: "dropping" them means an ideal amplifier,
-        // and loosening means a faster one. Requirements are dropped outright.
-        (knob.set)(&mut relaxed, None);
-        if best_under(req, &relaxed)?.is_none() {
-            continue;
-        }
-        // Bisection in log value between the failing limit and a passing one; the build found
-        // at the passing end is the one that comes closest to the limit.
-        let (mut bad, mut good) = (limit, limit);
-        let step = if knob.larger_is_stricter { 0.5 } else { 2.0 };
-        let mut closest = None;
-        for _ in 0..12 {
-            good *= step;
-            (knob.set)(&mut relaxed, Some(good));
-            closest = best_under(req, &relaxed)?;
-            if closest.is_some() {
-                break;
-            }
-            bad = good;
-        }
-        let Some(mut closest) = closest else {
-            continue;
-        };
-        // Seven halvings of a factor-2 bracket: within 0.6 %.
-        for _ in 0..7 {
-            let mid = (bad * good).sqrt();
-            (knob.set)(&mut relaxed, Some(mid));
-            match best_under(req, &relaxed)? {
-                Some(b) => {
-                    good = mid;
-                    closest = b;
-                }
-                None => bad = mid,
+        match try_knob(req, knob, limit)? {
+            Err(OutOfTime) => untried.push(knob.key.to_string()),
+            Ok(None) => {}
+            Ok(Some((blocker, closest))) => {
+                blockers.push(blocker);
+                closest_builds.push(closest);
             }
         }
-        blockers.push(explain(req, knob, limit, good, &closest.build));
     }
-    // The nearest build: every requirement dropped, judged against the spec.
-    let mut open = req.spec.clone();
-    for knob in KNOBS.iter().filter(|k| !k.key.starts_with("amplifier")) {
-        (knob.set)(&mut open, None);
-    }
-    let r = Request {
-        spec: &open,
-        top: 1,
-        max_nodes: Some(DIAGNOSIS_NODES),
-        stop: req.stop.clone(),
-        ..*req
+    // The nearest build: the one that comes closest to a single blocking requirement (it
+    // fails that one only), the one with the fewest and smallest misses among them; with no
+    // single blocker, the best with every requirement dropped, judged against the spec.
+    let misses = |r: &Ranked| -> (usize, f64) {
+        let failing: Vec<&Check> = r.evaluation.checks.iter().filter(|c| !c.pass).collect();
+        let size: f64 = failing
+            .iter()
+            .map(|c| (c.margin / c.limit.abs().max(1e-30)).abs())
+            .sum();
+        (failing.len(), size)
     };
-    let nearest = search(&r, &mut |_| {})?
-        .builds
+    let judged: Vec<Ranked> = closest_builds
         .into_iter()
-        .next()
-        .map(|best| {
-            let evaluation = analysis::evaluate(req.spec, req.stage, &best.build, Some(req.stock));
+        .map(|r| {
+            let evaluation = analysis::evaluate(req.spec, req.stage, &r.build, Some(req.stock));
             Ranked {
-                build: best.build,
+                build: r.build,
                 evaluation,
             }
-        });
+        })
+        .collect();
+    let mut nearest = judged.into_iter().min_by(|a, b| {
+        let (ma, mb) = (misses(a), misses(b));
+        ma.0.cmp(&mb.0).then(ma.1.total_cmp(&mb.1))
+    });
+    if nearest.is_none() {
+        let mut open = req.spec.clone();
+        for knob in KNOBS.iter().filter(|k| !k.key.starts_with("amplifier")) {
+            (knob.set)(&mut open, None);
+        }
+        if let Ok(Some(best)) = best_under(req, &open)? {
+            let evaluation = analysis::evaluate(req.spec, req.stage, &best.build, Some(req.stock));
+            nearest = Some(Ranked {
+                build: best.build,
+                evaluation,
+            });
+        }
+    }
     Ok(Diagnosis {
-        several: blockers.is_empty(),
+        several: blockers.is_empty() && untried.is_empty(),
         blockers,
         nearest,
+        untried,
     })
+}
+
+/// Whether `knob` alone blocks: dropped, does a build exist? Then a bisection on its limit
+/// finds the tightest value a build still meets, and the build met there.
+#[allow(clippy::type_complexity)]
+fn try_knob(
+    req: &Request,
+    knob: &Knob,
+    limit: f64,
+) -> Result<Result<Option<(Blocker, Ranked)>, OutOfTime>, SearchError> {
+    let mut relaxed = req.spec.clone();
+    // GBW and slew rate are amplifier figures: "dropping" them means an ideal amplifier,
+    // and loosening means a faster one. Requirements are dropped outright.
+    (knob.set)(&mut relaxed, None);
+    match best_under(req, &relaxed)? {
+        Err(e) => return Ok(Err(e)),
+        Ok(None) => return Ok(Ok(None)),
+        Ok(Some(_)) => {}
+    }
+    // Bisection in log value between the failing limit and a passing one; the build found at
+    // the passing end is the one that comes closest to the limit.
+    let (mut bad, mut good) = (limit, limit);
+    let step = if knob.larger_is_stricter { 0.5 } else { 2.0 };
+    let mut closest = None;
+    for _ in 0..12 {
+        good *= step;
+        (knob.set)(&mut relaxed, Some(good));
+        match best_under(req, &relaxed)? {
+            Err(e) => return Ok(Err(e)),
+            Ok(Some(b)) => {
+                closest = Some(b);
+                break;
+            }
+            Ok(None) => bad = good,
+        }
+    }
+    let Some(mut closest) = closest else {
+        return Ok(Ok(None));
+    };
+    // Halvings of a factor-2 bracket, while the time lasts: seven give 0.6 %.
+    for _ in 0..7 {
+        let mid = (bad * good).sqrt();
+        (knob.set)(&mut relaxed, Some(mid));
+        match best_under(req, &relaxed)? {
+            Ok(Some(b)) => {
+                good = mid;
+                closest = b;
+            }
+            Ok(None) => bad = mid,
+            // Out of time: the bracket so far is still right, only wider.
+            Err(OutOfTime) => break,
+        }
+    }
+    let blocker = explain(req, knob, limit, good, &closest.build);
+    Ok(Ok(Some((blocker, closest))))
 }
 
 #[cfg(test)]

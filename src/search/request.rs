@@ -377,6 +377,41 @@ pub fn ranking_spec(spec: &Spec, stage: &dyn Circuit) -> Spec {
     r
 }
 
+/// True when the spec alone (with what [`ranking_spec`] derives) rules out every build, so no
+/// search is needed: the gain window above the highest |gain| the amplifier allows at the
+/// band's top; a slew rate too low for the required peak at the band's top (full-power
+/// bandwidth SR/(2π·V_peak)); or a required swing larger than the room the supply and
+/// headroom leave around any DC point, less the op-amp's offset voltage (the output's DC
+/// range at worst case spans at least ±V_os around its centre).
+pub fn ruled_out(spec: &Spec) -> bool {
+    use crate::circuit::common::SLACK;
+    if let (Some(t), Some(max)) = (spec.gain_tolerance, spec.derived.gain_max) {
+        if spec.gain.abs() * (1.0 - t) * (1.0 - SLACK) > max * (1.0 + SLACK) {
+            return true;
+        }
+    }
+    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
+        if sr / (2.0 * std::f64::consts::PI * peak) < spec.band.1 * (1.0 - SLACK) {
+            return true;
+        }
+    }
+    let room = (spec.supply - spec.headroom.0 - spec.headroom.1) / 2.0
+        - if spec.worst_case() {
+            spec.amplifier.input_offset_voltage
+        } else {
+            0.0
+        };
+    let need = match (spec.output_peak, spec.input_peak) {
+        (Some(out), None) => Some(out),
+        // The worst-case highest |gain| is at least the window's floor.
+        (_, Some(inp)) => spec
+            .gain_tolerance
+            .map(|t| inp * spec.gain.abs() * (1.0 - t)),
+        (None, None) => Some(0.0),
+    };
+    need.is_some_and(|n| room < n * (1.0 - SLACK) - SLACK)
+}
+
 /// The scores of ranked builds under the spec's own weights (their order is kept: it is the
 /// ranking spec's).
 pub fn primary_scores(spec: &Spec, stage: &dyn Circuit, builds: &mut [Ranked]) {
