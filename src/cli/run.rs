@@ -19,6 +19,7 @@ use stockfit::report::table;
 use stockfit::search::{self, Ranked, Stop};
 use stockfit::series::Series;
 use stockfit::spec::Spec;
+use stockfit::stock::pool::Pools;
 use stockfit::value::{self, Unit};
 use stockfit::vocab::PartKind;
 
@@ -329,6 +330,7 @@ fn series(name: &str, from: &str, to: &str) -> Result<i32, Failure> {
 fn stock_summary(file: &Path) -> Result<i32, Failure> {
     let inv = load_inventory(file)?;
     let s = inv.summary();
+    let pools = Pools::new(&inv);
     say!("{}: {} lines", console::shown(file), inv.lines.len());
     for k in [&s.resistors, &s.capacitors] {
         let unit = match k.kind {
@@ -383,6 +385,23 @@ fn stock_summary(file: &Path) -> Result<i32, Failure> {
                 value::format(d.value, unit),
                 value::format(d.tolerance, Unit::Percent),
                 d.rows
+            );
+        }
+        // Rows of the same part (ratings, dielectric and cost too) are one line to the search,
+        // their pieces pooled (`stock::pool`); rows that only share value and tolerance are not.
+        let pooled = k
+            .duplicates
+            .iter()
+            .filter(|d| {
+                let first = pools.representative(d.rows[0]);
+                d.rows.iter().all(|&r| pools.representative(r) == first)
+            })
+            .count();
+        if !k.duplicates.is_empty() {
+            say!(
+                "    pooled: {pooled} (the same part on each row); kept apart: {} (ratings, \
+                 dielectric or cost differ)",
+                k.duplicates.len() - pooled
             );
         }
     }
