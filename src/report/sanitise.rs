@@ -97,6 +97,30 @@ pub fn spreadsheet_cell(text: &str) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use proptest::prelude::*;
+
+    proptest! {
+        /// Any text of formula characters, separators, quotes, spaces and controls: the cell
+        /// holds no control character, and no piece of it — split on `,` or `;` (the line ends
+        /// are escaped), leading spaces and quotes dropped — starts a formula (OWASP).
+        #[test]
+        fn no_split_of_a_cell_starts_a_formula(
+            text in "[=+@,; \"'\\-\t\r\n\x00\x1b\x7fa1\u{9b}\u{202e}]{0,24}"
+        ) {
+            let cell = spreadsheet_cell(&text);
+            prop_assert!(!cell.chars().any(is_hidden), "{:?}", cell);
+            for piece in cell.split([',', ';']) {
+                let start = piece.trim_start_matches([' ', '"']);
+                prop_assert!(!start.starts_with(FORMULA_START), "{:?} → {:?}", text, cell);
+            }
+            // Nothing is lost: removing the inserted quotes and undoing the escapes gives the
+            // text back (the escapes are unambiguous where the text has no backslash).
+            if !text.contains(['\\', '\'']) {
+                let plain: String = cell.replace('\'', "");
+                prop_assert_eq!(plain, escape_controls(&text).into_owned());
+            }
+        }
+    }
 
     #[test]
     fn controls_are_shown_escaped() {
