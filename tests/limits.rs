@@ -266,3 +266,41 @@ fn pooled_rows_are_taken_in_file_order_and_named() {
         )
     );
 }
+
+/// Magnitudes no stage can have are refused with the key, its line and the plausible range,
+/// bare or quoted (`1e308` used to be accepted, and a noise density of 1e308 printed `inf V rms`;
+/// tests/malformed.rs has the noise case and the slew rate's "did you mean 0.5 V/us").
+#[test]
+fn implausible_magnitudes_are_refused_with_the_plausible_range() {
+    for (from, to, key, says) in [
+        ("gain = -10", "gain = -1e308", "stage.gain", "far outside"),
+        (
+            "supply = \"9 V\"",
+            "supply = 1e308",
+            "stage.supply",
+            "plausible: 500 mV to 1 kV",
+        ),
+        (
+            "load = \"10k\"",
+            "load = \"1e308\"",
+            "stage.load",
+            "outside the resistance",
+        ),
+        (
+            "band =",
+            "gain_tolerance = 1e308\nband =",
+            "stage.gain_tolerance",
+            "below 100 %",
+        ),
+    ] {
+        let dir = setup(&SPEC.replace(from, to));
+        let (code, stdout, stderr) = run(dir.path(), &["pick", "amp.toml", "-q"], &[]);
+        assert_eq!(code, Some(2), "{to}: {stderr}");
+        assert!(stdout.is_empty());
+        assert!(
+            stderr.contains(key) && stderr.contains(says),
+            "{to}: {stderr}"
+        );
+        assert!(!stderr.contains("inf"), "{to}: {stderr}");
+    }
+}

@@ -48,10 +48,7 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
         )));
     }
     // A run that writes locks the inventory before its first read (a dry run reads only).
-    let mut held = None;
-    if args.yes {
-        held = Some(lock_inventory(path)?);
-    }
+    let held = args.yes.then(|| lock_inventory(path)).transpose()?;
     let original = read_bounded(path, MAX_INVENTORY_BYTES, "inventory")?;
     let hash = hex_digest(&original);
     if let Some(expected) = &args.expect_hash {
