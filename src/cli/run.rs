@@ -380,11 +380,17 @@ fn stock_summary(file: &Path) -> Result<i32, Failure> {
             );
         }
         for d in &k.duplicates {
+            // At most ten rows each: a value on 100 000 rows is a line, not a page.
+            let shown = &d.rows[..d.rows.len().min(10)];
+            let more = match d.rows.len() - shown.len() {
+                0 => String::new(),
+                n => format!(" and {n} more"),
+            };
             say!(
-                "    note: {} {} appears on several rows {:?}",
+                "    note: {} {} appears on several rows {:?}{more}",
                 value::format(d.value, unit),
                 value::format(d.tolerance, Unit::Percent),
-                d.rows
+                shown
             );
         }
         // Rows of the same part (ratings, dielectric and cost too) are one line to the search,
