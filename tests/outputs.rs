@@ -193,6 +193,37 @@ fn an_output_into_a_missing_folder_is_refused_before_anything_is_written() {
     assert_eq!(s.snapshot(), before);
 }
 
+/// A folder as an output, or a read-only output file, is refused (exit 2) and nothing changes.
+#[test]
+fn a_folder_or_a_read_only_file_as_an_output_is_refused() {
+    let s = Setup::new();
+    fs::create_dir(s.path("dir")).unwrap();
+    let out = s.run(&["pick", "amp.toml", "-q", "--json", "a.json", "--bom", "dir"]);
+    assert_eq!(out.code, Some(2), "{}", out.stderr);
+    assert!(
+        out.stderr.contains("--bom dir: that is a folder"),
+        "{}",
+        out.stderr
+    );
+    assert!(!s.path("a.json").exists());
+    fs::write(s.path("ro.csv"), "keep").unwrap();
+    let mut perms = fs::metadata(s.path("ro.csv")).unwrap().permissions();
+    perms.set_readonly(true);
+    fs::set_permissions(s.path("ro.csv"), perms).unwrap();
+    let out = s.run(&[
+        "pick", "amp.toml", "-q", "--json", "a.json", "--bom", "ro.csv",
+    ]);
+    assert_eq!(out.code, Some(2), "{}", out.stderr);
+    assert!(
+        out.stderr
+            .contains("--bom ro.csv: that is a read-only file"),
+        "{}",
+        out.stderr
+    );
+    assert!(!s.path("a.json").exists());
+    assert_eq!(fs::read_to_string(s.path("ro.csv")).unwrap(), "keep");
+}
+
 /// Outputs replace an existing file whole and keep its permissions; no temporary file stays.
 #[test]
 fn outputs_replace_their_file_whole_and_leave_no_temporary_file() {

@@ -102,6 +102,26 @@ pub fn check(output: &Output) -> Result<(), Failure> {
     let mut outputs: Vec<(Kind, FileId)> = Vec::new();
     for (kind, target) in requested(output) {
         let Target::File(path) = target else { continue };
+        if let Ok(meta) = std::fs::metadata(&path) {
+            let read_only = meta.is_file()
+                && (meta.permissions().readonly()
+                    || std::fs::OpenOptions::new().write(true).open(&path).is_err());
+            let what = if meta.is_dir() {
+                "a folder"
+            } else if read_only {
+                "a read-only file"
+            } else {
+                ""
+            };
+            if !what.is_empty() {
+                return Err(Failure::input(anyhow!(
+                    "{} {}: that is {what}; nothing was written: name another file for the {}",
+                    kind.flag(),
+                    console::shown(&path),
+                    kind.noun()
+                )));
+            }
+        }
         let id = files::identify(&path, kind.noun()).map_err(|e| {
             Failure::input(anyhow!(
                 "{} {}: cannot write the {} there: {e}; nothing was written",

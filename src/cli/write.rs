@@ -213,9 +213,11 @@ pub fn replace(
     Ok(())
 }
 
-/// Writes an output file whole. An existing file keeps its permissions; a symbolic link is
-/// followed (the file it names is replaced, the link stays); a device or pipe (`/dev/null`,
-/// `/dev/stdout`) is written directly, since it cannot be renamed over.
+/// Writes an output file whole. An existing file keeps its permissions, and one this user may
+/// not write (read-only) is refused, as a plain write would be — a rename could replace it
+/// all the same; a symbolic link is followed (the file it names is replaced, the link stays);
+/// a device or pipe (`/dev/null`, `/dev/stdout`) is written directly, since it cannot be
+/// renamed over. A hard link is not kept: this name gets the new file.
 pub fn output(path: &Path, bytes: &[u8]) -> io::Result<()> {
     match fs::metadata(path) {
         Ok(meta) if !meta.is_file() => {
@@ -230,6 +232,12 @@ pub fn output(path: &Path, bytes: &[u8]) -> io::Result<()> {
             file.flush()
         }
         Ok(meta) => {
+            if meta.permissions().readonly() || OpenOptions::new().write(true).open(path).is_err() {
+                return Err(io::Error::new(
+                    io::ErrorKind::PermissionDenied,
+                    "it is read-only",
+                ));
+            }
             let target = fs::canonicalize(path)?;
             replace(&target, bytes, &Keep::of(&meta, false), &mut no_hook)
         }
