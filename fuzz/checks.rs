@@ -12,9 +12,11 @@
 
 #![allow(dead_code)]
 
+use stockfit::report::{bom, sanitise};
 use stockfit::spec::Spec;
 use stockfit::stock::edit::{self, EditError};
 use stockfit::stock::inventory::{self, Inventory};
+use stockfit::stock::pool::Pools;
 use stockfit::value::{self, Unit};
 
 /// The value parser: no panic for any text and unit; whatever parses is finite, and prints
@@ -54,9 +56,35 @@ pub enum InventoryReached {
     Edited,
 }
 
+/// Text from a file, made safe: shown escaped it holds no control character (nothing a
+/// terminal obeys, ECMA-48), and as a BOM cell no piece of it — split on `,`, `;` or a line
+/// end, leading spaces and quotes dropped — starts a formula (OWASP, "CSV Injection").
+pub fn text_is_made_safe(text: &str) {
+    let shown = sanitise::escape_controls(text);
+    assert!(
+        !shown.chars().any(char::is_control),
+        "{text:?} shown as {shown:?}"
+    );
+    let cell = bom::neutralise(text);
+    assert!(
+        !cell.chars().any(char::is_control),
+        "{text:?} as a cell {cell:?}"
+    );
+    for piece in cell.split([',', ';']) {
+        let start = piece.trim_start_matches([' ', '"']);
+        assert!(
+            !start.starts_with(['=', '+', '-', '@']),
+            "{text:?} as a cell {cell:?} has a piece {piece:?}"
+        );
+    }
+}
+
 /// The inventory loader and the stock editor: no panic for any bytes; every loaded line keeps
-/// the documented ranges; taking a piece from every line that has one either changes exactly
-/// those quantities or is refused as not editable in place — never a different file.
+/// the documented ranges; identical lines pool (each row in its pool, the pool's total the sum
+/// of its rows, a draw of the whole pool takes each row's own pieces in file order); text
+/// cells are safe to show and to put in a BOM ([`text_is_made_safe`]); taking a piece from
+/// every line that has one either changes exactly those quantities or is refused as not
+/// editable in place — never a different file.
 pub fn inventory(data: &[u8]) -> InventoryReached {
     let inv = match Inventory::from_reader(data) {
         Ok(inv) => inv,
@@ -69,6 +97,29 @@ pub fn inventory(data: &[u8]) -> InventoryReached {
         assert!(l.value.is_finite() && l.value > 0.0, "{l:?}");
         assert!(l.tolerance > 0.0 && l.tolerance < 1.0, "{l:?}");
         assert!(l.file_line >= 1 && l.row >= 1, "{l:?}");
+        for text in [&l.note, &l.location, &l.dielectric].into_iter().flatten() {
+            text_is_made_safe(text);
+        }
+    }
+    let pools = Pools::new(&inv);
+    for l in &inv.lines {
+        let rows = pools.rows(l.row);
+        assert!(
+            rows.contains(&l.row) && rows.windows(2).all(|w| w[0] < w[1]),
+            "{rows:?}"
+        );
+        let own = |r: usize| inv.lines[r - 1].qty;
+        let sum = rows.iter().fold(0u32, |s, &r| s.saturating_add(own(r)));
+        assert_eq!(pools.total(l.row), sum, "row {}", l.row);
+        if sum < u32::MAX {
+            let drawn = pools.draw(l.row, sum);
+            let expected: Vec<(usize, u32)> = rows
+                .iter()
+                .filter(|&&r| own(r) > 0)
+                .map(|&r| (r, own(r)))
+                .collect();
+            assert_eq!(drawn, expected, "row {}", l.row);
+        }
     }
     let deductions: Vec<(usize, u32)> = inv
         .lines

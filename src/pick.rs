@@ -410,18 +410,32 @@ pub struct Taking {
 }
 
 /// The pieces a build takes from `inventory`, row by row in row order (`stockfit take`).
-/// Locked parts are on the board already and take nothing.
+/// Locked parts are on the board already and take nothing. A piece of a pool of identical
+/// lines (`stock::pool`) comes off the pool's rows in file order, each row giving what it has.
 pub fn takings(inventory: &Inventory, circuit: &dyn Circuit, build: &Build) -> Vec<Taking> {
-    let mut rows: std::collections::BTreeMap<usize, Taking> = Default::default();
+    let pools = crate::stock::pool::Pools::new(inventory);
+    // The slot of each piece, by the pool the search drew it from, in slot order.
+    let mut wanted: std::collections::BTreeMap<usize, Vec<&'static str>> = Default::default();
     for (part, slot) in build.parts.iter().zip(circuit.slots()) {
         if part.locked {
             continue;
         }
         for piece in &part.pieces {
             let Some(row) = piece.line else { continue };
-            let Some(line) = inventory.lines.get(row.wrapping_sub(1)) else {
+            if inventory.lines.get(row.wrapping_sub(1)).is_none() {
                 continue;
-            };
+            }
+            wanted
+                .entry(pools.representative(row))
+                .or_default()
+                .push(slot.name);
+        }
+    }
+    let mut rows: std::collections::BTreeMap<usize, Taking> = Default::default();
+    for (pool, slots) in wanted {
+        let mut next = slots.iter();
+        for (row, pieces) in pools.draw(pool, slots.len() as u32) {
+            let line = &inventory.lines[row - 1];
             let t = rows.entry(row).or_insert_with(|| Taking {
                 row,
                 file_line: line.file_line,
@@ -432,9 +446,11 @@ pub fn takings(inventory: &Inventory, circuit: &dyn Circuit, build: &Build) -> V
                 pieces: 0,
                 slots: Vec::new(),
             });
-            t.pieces += 1;
-            if !t.slots.contains(&slot.name) {
-                t.slots.push(slot.name);
+            t.pieces += pieces;
+            for slot in next.by_ref().take(pieces as usize) {
+                if !t.slots.contains(slot) {
+                    t.slots.push(slot);
+                }
             }
         }
     }

@@ -391,3 +391,387 @@ fn killed_before_the_rename_leaves_the_old_file_then_a_rerun_writes_the_new() {
     assert_eq!(r.code, Some(0), "{}", r.stderr);
     assert_eq!(fs::read_to_string(&s.stock).unwrap(), after);
 }
+
+// ---------------------------------------------------------------------------------------------
+// Concurrent takes, file protection, leftovers of killed runs (issue 14)
+// ---------------------------------------------------------------------------------------------
+
+/// A drawer with plenty of each value, so that hundreds of takes never run out and always take
+/// the same build.
+const DEEP: &str = "kind,value,tolerance,qty\n\
+    r,10k,1%,100000\n\
+    r,100k,1%,100000\n\
+    c,10u,20%,100000\n";
+
+/// The `(row, on hand, left)` of each plan line of a take's stdout.
+fn plan_rows(stdout: &str) -> Vec<(usize, u64, u64)> {
+    stdout
+        .lines()
+        .filter_map(|l| {
+            let l = l.trim_start();
+            let rest = l.strip_prefix("line ")?;
+            let row = rest
+                .split("(row ")
+                .nth(1)?
+                .split(')')
+                .next()?
+                .parse()
+                .ok()?;
+            let tail = rest.rsplit(": ").next()?;
+            let on_hand = tail.split(" on hand").next()?.trim().parse().ok()?;
+            let left = tail
+                .split("→ ")
+                .nth(1)?
+                .split_whitespace()
+                .next()?
+                .parse()
+                .ok()?;
+            Some((row, on_hand, left))
+        })
+        .collect()
+}
+
+fn quantities(path: &Path) -> Vec<u64> {
+    stockfit::stock::inventory::Inventory::parse_str(&fs::read_to_string(path).unwrap())
+        .unwrap()
+        .lines
+        .iter()
+        .map(|l| u64::from(l.qty))
+        .collect()
+}
+
+fn spawn_take(s: &Setup, extra: &[&str], pause: Option<&str>) -> std::process::Child {
+    let mut cmd = std::process::Command::new(assert_cmd::cargo::cargo_bin("stockfit"));
+    cmd.arg("take")
+        .arg(&s.spec)
+        .arg("--stock")
+        .arg(&s.stock)
+        .args(extra)
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped());
+    if let Some(p) = pause {
+        cmd.env("STOCKFIT_TEST_PAUSE", p);
+    }
+    cmd.spawn().unwrap()
+}
+
+fn finish(child: std::process::Child) -> Run {
+    let out = child.wait_with_output().unwrap();
+    let r = Run {
+        code: out.status.code(),
+        stdout: String::from_utf8_lossy(&out.stdout).into_owned(),
+        stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
+    };
+    assert!(!r.stderr.contains("panicked"), "{}", r.stderr);
+    r
+}
+
+/// Checks that the takes' plans form one chain per row — each take found on hand what the
+/// one before it left, so none worked from a stale copy — and that the file holds what the
+/// last one left: no deduction lost.
+fn assert_serialised(runs: &[Run], start: &[u64], end: &[u64]) {
+    let mut by_row: std::collections::BTreeMap<usize, Vec<(u64, u64)>> = Default::default();
+    for r in runs.iter().filter(|r| r.code == Some(0)) {
+        for (row, on_hand, left) in plan_rows(&r.stdout) {
+            by_row.entry(row).or_default().push((on_hand, left));
+        }
+    }
+    assert!(!by_row.is_empty(), "no take took anything");
+    for (row, mut steps) in by_row {
+        steps.sort_by_key(|s| std::cmp::Reverse(s.0));
+        assert_eq!(steps[0].0, start[row - 1], "row {row}: the first take");
+        for w in steps.windows(2) {
+            assert_eq!(
+                w[0].1, w[1].0,
+                "row {row}: a take saw {} on hand where the one before left {}",
+                w[1].0, w[0].1
+            );
+        }
+        assert_eq!(
+            steps.last().unwrap().1,
+            end[row - 1],
+            "row {row}: the file does not hold what the last take left (a lost deduction)"
+        );
+    }
+}
+
+/// The issue's "Done when": two `take --yes` started together on one inventory, 200 times.
+/// Both must succeed (the second waits for the first's lock and reads its result), and the
+/// file must end with every deduction made. Before the lock, 100 of 100 pairs lost one.
+#[test]
+fn concurrent_takes_never_lose_a_deduction() {
+    let s = setup(SPEC, DEEP);
+    let start = quantities(&s.stock);
+    let mut runs = Vec::new();
+    for _ in 0..200 {
+        let a = spawn_take(&s, &["--yes"], None);
+        let b = spawn_take(&s, &["--yes"], None);
+        let (a, b) = (finish(a), finish(b));
+        for r in [&a, &b] {
+            assert_eq!(r.code, Some(0), "{}", r.stderr);
+        }
+        runs.push(a);
+        runs.push(b);
+    }
+    assert_serialised(&runs, &start, &quantities(&s.stock));
+    // Six pieces per take (r_in, r_fb, the two divider resistors, c_in, c_out).
+    let taken: u64 = start.iter().sum::<u64>() - quantities(&s.stock).iter().sum::<u64>();
+    assert_eq!(taken, 400 * 6);
+    // Nothing is left behind but the backups: no lock or temporary file.
+    let stray: Vec<String> = files(s.dir.path())
+        .into_iter()
+        .filter(|n| n.starts_with('.'))
+        .collect();
+    assert!(stray.is_empty(), "{stray:?}");
+}
+
+/// Two takes of one dry run's plan (`--expect-hash`) started together: exactly one takes it,
+/// the other finds the file changed and refuses with the reason. Before the lock, 14 of 20
+/// such pairs both took.
+#[test]
+fn concurrent_takes_of_one_dry_run_take_it_once() {
+    let s = setup(SPEC, DEEP);
+    for _ in 0..20 {
+        let hash = hash_line(&take(&s, &[]).stdout);
+        let before = quantities(&s.stock);
+        let args = ["--yes", "--expect-hash", hash.as_str()];
+        let a = spawn_take(&s, &args, None);
+        let b = spawn_take(&s, &args, None);
+        let runs = [finish(a), finish(b)];
+        let ok: Vec<&Run> = runs.iter().filter(|r| r.code == Some(0)).collect();
+        assert_eq!(
+            ok.len(),
+            1,
+            "{:?}",
+            runs.iter().map(|r| &r.stderr).collect::<Vec<_>>()
+        );
+        let refused = runs.iter().find(|r| r.code != Some(0)).unwrap();
+        assert_eq!(refused.code, Some(2));
+        assert!(
+            refused.stderr.contains("changed since the pick"),
+            "{}",
+            refused.stderr
+        );
+        assert_serialised(&runs, &before, &quantities(&s.stock));
+    }
+}
+
+/// A take that finds the lock held waits for it, says so, and then works from the result of
+/// the one that held it (the holder paused before its rename by the test hook).
+#[test]
+fn a_take_waits_for_the_lock_and_sees_the_holders_result() {
+    let s = setup(SPEC, DEEP);
+    let start = quantities(&s.stock);
+    let a = spawn_take(&s, &["--yes"], Some("rename:1500"));
+    let tmp = s
+        .dir
+        .path()
+        .join(format!(".drawer.csv.stockfit-tmp-{}", a.id()));
+    let deadline = Instant::now() + Duration::from_secs(60);
+    while !tmp.exists() {
+        assert!(
+            Instant::now() < deadline,
+            "the first take never wrote its file"
+        );
+        std::thread::sleep(Duration::from_millis(10));
+    }
+    let b = take(&s, &["--yes"]);
+    let a = finish(a);
+    assert_eq!(
+        (a.code, b.code),
+        (Some(0), Some(0)),
+        "{}\n{}",
+        a.stderr,
+        b.stderr
+    );
+    assert!(b.stderr.contains("waiting"), "{}", b.stderr);
+    assert_serialised(&[a, b], &start, &quantities(&s.stock));
+}
+
+#[cfg(unix)]
+fn mode(path: &Path) -> u32 {
+    use std::os::unix::fs::PermissionsExt;
+    fs::metadata(path).unwrap().permissions().mode() & 0o7777
+}
+
+#[cfg(unix)]
+fn set_mode(path: &Path, mode: u32) {
+    use std::os::unix::fs::PermissionsExt;
+    fs::set_permissions(path, fs::Permissions::from_mode(mode)).unwrap();
+}
+
+/// A read-only inventory (no write permission) is refused unless `--allow-read-only` says to
+/// replace it, and then it stays read-only. A private inventory's backup is private too.
+#[cfg(unix)]
+#[test]
+fn read_only_inventories_are_refused_unless_allowed_and_modes_are_kept() {
+    let s = setup(SPEC, DRAWER);
+    set_mode(&s.stock, 0o444);
+    let r = take(&s, &["--yes"]);
+    assert_eq!(r.code, Some(2), "{}", r.stdout);
+    assert!(
+        r.stderr.contains("read-only") && r.stderr.contains("--allow-read-only"),
+        "{}",
+        r.stderr
+    );
+    assert_eq!(fs::read_to_string(&s.stock).unwrap(), DRAWER);
+    assert_eq!(files(s.dir.path()), ["amp.toml", "drawer.csv"]);
+
+    let r = take(&s, &["--yes", "--allow-read-only"]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    assert_ne!(fs::read_to_string(&s.stock).unwrap(), DRAWER);
+    assert_eq!(mode(&s.stock), 0o444);
+
+    let s = setup(SPEC, DRAWER);
+    set_mode(&s.stock, 0o600);
+    let r = take(&s, &["--yes"]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    assert_eq!(mode(&s.stock), 0o600);
+    let backup = files(s.dir.path())
+        .into_iter()
+        .find(|n| n.starts_with("drawer.csv.bak-"))
+        .unwrap();
+    // Before: 0644, readable by everyone, whatever the inventory's own mode.
+    assert_eq!(mode(&s.dir.path().join(backup)), 0o600);
+}
+
+/// An inventory with a second name (a hard link) is refused: replacing one name would leave
+/// the other with the old list, silently two inventories.
+#[test]
+fn a_hard_linked_inventory_is_refused() {
+    let s = setup(SPEC, DRAWER);
+    let other = s.dir.path().join("also.csv");
+    fs::hard_link(&s.stock, &other).unwrap();
+    let r = take(&s, &["--yes"]);
+    assert_eq!(r.code, Some(2), "{}", r.stdout);
+    assert!(r.stderr.contains("hard link"), "{}", r.stderr);
+    assert_eq!(fs::read_to_string(&s.stock).unwrap(), DRAWER);
+    assert_eq!(fs::read_to_string(&other).unwrap(), DRAWER);
+    assert_eq!(files(s.dir.path()), ["also.csv", "amp.toml", "drawer.csv"]);
+}
+
+/// Temporary files of a killed take, and an empty backup an older version could leave, are
+/// removed by the next take (which holds the lock, so no other take is writing them).
+#[test]
+fn leftovers_of_killed_takes_are_removed_by_the_next() {
+    let s = setup(SPEC, DRAWER);
+    let after = expected_after(DRAWER, &take(&s, &[]).stdout);
+    let _ = kill_at(&s, "part", &after);
+    let empty = s.dir.path().join("drawer.csv.bak-20200101T000000");
+    fs::write(&empty, b"").unwrap();
+    let stray = s.dir.path().join(".drawer.csv.stockfit-tmp-1.bak");
+    fs::write(&stray, b"half a backup").unwrap();
+    assert!(files(s.dir.path())
+        .iter()
+        .any(|n| n.contains("stockfit-tmp")));
+    let r = take(&s, &["--yes"]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    assert!(r.stderr.contains("removed"), "{}", r.stderr);
+    let names = files(s.dir.path());
+    assert!(
+        names
+            .iter()
+            .all(|n| !n.starts_with('.') && !n.ends_with("T000000")),
+        "{names:?}"
+    );
+    assert_eq!(fs::read_to_string(&s.stock).unwrap(), after);
+}
+
+/// A take killed while its backup is being written leaves no backup at all, never an empty or
+/// partial one: backups are written to a temporary name and renamed when complete.
+#[test]
+fn a_take_killed_while_backing_up_leaves_no_partial_backup() {
+    let s = setup(SPEC, DRAWER);
+    let bin = assert_cmd::cargo::cargo_bin("stockfit");
+    let mut child = std::process::Command::new(bin)
+        .arg("take")
+        .arg(&s.spec)
+        .arg("--stock")
+        .arg(&s.stock)
+        .arg("--yes")
+        .env("STOCKFIT_TEST_PAUSE", "backup:30000")
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    let tmp = s
+        .dir
+        .path()
+        .join(format!(".drawer.csv.stockfit-tmp-{}.bak", child.id()));
+    let deadline = Instant::now() + Duration::from_secs(60);
+    while fs::metadata(&tmp).map_or(true, |m| m.len() as usize != DRAWER.len()) {
+        assert!(
+            child.try_wait().unwrap().is_none(),
+            "ended before the pause"
+        );
+        assert!(Instant::now() < deadline, "no backup in progress");
+        std::thread::sleep(Duration::from_millis(10));
+    }
+    child.kill().unwrap();
+    child.wait().unwrap();
+    let names = files(s.dir.path());
+    assert!(
+        !names.iter().any(|n| n.starts_with("drawer.csv.bak")),
+        "{names:?}"
+    );
+    assert_eq!(fs::read_to_string(&s.stock).unwrap(), DRAWER);
+}
+
+fn running_as_root() -> bool {
+    std::process::Command::new("id")
+        .arg("-u")
+        .output()
+        .is_ok_and(|o| o.stdout == b"0\n")
+}
+
+/// Owner and group survive the replacement; where the user may not set them (another user's
+/// file in a shared folder), the take is refused and nothing changes. Setting this up needs
+/// root: a file of another owner, and `setpriv` to run as an unprivileged user.
+#[cfg(unix)]
+#[test]
+#[ignore = "needs root and setpriv (util-linux) to own files as other users; CI runs as root"]
+fn owner_and_group_are_kept_or_the_take_is_refused() {
+    use std::os::unix::fs::MetadataExt;
+    assert!(
+        running_as_root(),
+        "this test needs root (see its doc comment)"
+    );
+    let s = setup(SPEC, DRAWER);
+    std::os::unix::fs::chown(&s.stock, Some(1234), Some(5678)).unwrap();
+    set_mode(&s.stock, 0o640);
+    let r = take(&s, &["--yes"]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    let m = fs::metadata(&s.stock).unwrap();
+    assert_eq!((m.uid(), m.gid(), mode(&s.stock)), (1234, 5678, 0o640));
+    let backup = files(s.dir.path())
+        .into_iter()
+        .find(|n| n.starts_with("drawer.csv.bak-"))
+        .unwrap();
+    let b = fs::metadata(s.dir.path().join(&backup)).unwrap();
+    assert_eq!((b.uid(), b.gid(), b.mode() & 0o7777), (1234, 5678, 0o640));
+
+    // Root's file, writable by all, in a folder writable by all: `nobody` may write it but
+    // cannot give a new file root's owner, so the take is refused (it used to replace the file
+    // and hand it to `nobody`).
+    let s = setup(SPEC, DRAWER);
+    set_mode(s.dir.path(), 0o777);
+    set_mode(&s.stock, 0o666);
+    let bin = assert_cmd::cargo::cargo_bin("stockfit");
+    let out = std::process::Command::new("setpriv")
+        .args(["--reuid=65534", "--regid=65534", "--clear-groups", "--"])
+        .arg(bin)
+        .arg("take")
+        .arg(&s.spec)
+        .arg("--stock")
+        .arg(&s.stock)
+        .arg("--yes")
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{stderr}");
+    assert!(stderr.contains("owner"), "{stderr}");
+    let m = fs::metadata(&s.stock).unwrap();
+    assert_eq!((m.uid(), m.gid()), (0, 0));
+    assert_eq!(fs::read_to_string(&s.stock).unwrap(), DRAWER);
+    assert_eq!(files(s.dir.path()), ["amp.toml", "drawer.csv"]);
+}

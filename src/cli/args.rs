@@ -159,6 +159,10 @@ pub struct TakeArgs {
     /// Take only if the inventory's SHA-256 is still this (as printed by an earlier dry run).
     #[arg(long, value_name = "HEX")]
     pub expect_hash: Option<String>,
+    /// Replace the inventory even if it is read-only (the new list keeps its mode, so it
+    /// stays read-only). Without it a read-only inventory is refused.
+    #[arg(long)]
+    pub allow_read_only: bool,
 }
 
 #[derive(Debug, Subcommand)]
@@ -327,7 +331,10 @@ mod tests {
         }
         let a = Arguments::try_parse_from(["stockfit", "take", "x.toml", "--stock", "s.csv"]);
         match a.unwrap().command {
-            Command::Take(t) => assert_eq!((t.build, t.yes, t.expect_hash), (1, false, None)),
+            Command::Take(t) => {
+                assert_eq!((t.build, t.yes, t.expect_hash), (1, false, None));
+                assert!(!t.allow_read_only);
+            }
             other => panic!("{other:?}"),
         }
         assert!(Arguments::try_parse_from(["stockfit", "take", "x.toml"]).is_err());

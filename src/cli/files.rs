@@ -1,18 +1,20 @@
 //! Reading the files a run names: the spec and inventories, bounded in size, with the file's
-//! name in every error. `pick`, `check`, `stock` and `take` all load through here.
+//! name in every error. `pick`, `check`, `stock` and `take` all load through here, and every
+//! file read is recorded ([`inputs`]) so that no output of the run can be one of them.
 
 use super::failure::Failure;
 use anyhow::{anyhow, Context};
 use std::fs::File;
-use std::io::Read;
+use std::io::{self, Read};
 use std::path::{Path, PathBuf};
+use std::sync::Mutex;
 use stockfit::spec::{self, Spec};
 use stockfit::stock::inventory::{self, Inventory, MAX_INVENTORY_BYTES};
 
 /// Reads a whole file of at most `limit` bytes. The size is checked with the file's metadata
 /// first, and the read itself stops one byte past the limit (a file may grow, or be a device
 /// without a size), so memory stays bounded whatever the path names.
-pub fn read_bounded(path: &Path, limit: usize, what: &str) -> Result<Vec<u8>, Failure> {
+pub fn read_bounded(path: &Path, limit: usize, what: &'static str) -> Result<Vec<u8>, Failure> {
     let too_big = |size: String| {
         Failure::input(anyhow!(
             "the {what} {} is {size}, more than the {} this tool reads; is this the right file?",
@@ -25,6 +27,7 @@ pub fn read_bounded(path: &Path, limit: usize, what: &str) -> Result<Vec<u8>, Fa
     let meta = file
         .metadata()
         .with_context(|| format!("cannot read the {what} {}", path.display()))?;
+    record_input(path, what, &meta);
     if meta.is_dir() {
         return Err(Failure::input(anyhow!(
             "the {what} {} is a folder, not a file",
@@ -42,6 +45,104 @@ pub fn read_bounded(path: &Path, limit: usize, what: &str) -> Result<Vec<u8>, Fa
         return Err(too_big("larger than that".into()));
     }
     Ok(bytes)
+}
+
+/// A file as the outputs check compares it: its path resolved (links followed, `.` and `..`
+/// gone), and where the file exists, its device and inode, which name it through hard links
+/// too (Unix; elsewhere the resolved path alone).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct FileId {
+    /// The path as the user wrote it, for messages.
+    pub given: PathBuf,
+    /// What the file is ("spec", "inventory"), for messages.
+    pub what: &'static str,
+    /// The resolved path: `canonicalize`, or for a file that does not exist yet, its
+    /// resolved folder joined with its name.
+    pub resolved: PathBuf,
+    /// Device and inode of an existing file.
+    pub inode: Option<(u64, u64)>,
+}
+
+impl FileId {
+    /// The same file: the same resolved path, or the same device and inode.
+    pub fn same(&self, other: &FileId) -> bool {
+        self.resolved == other.resolved || (self.inode.is_some() && self.inode == other.inode)
+    }
+}
+
+#[cfg(unix)]
+fn inode_of(meta: &std::fs::Metadata) -> Option<(u64, u64)> {
+    use std::os::unix::fs::MetadataExt;
+    Some((meta.dev(), meta.ino()))
+}
+
+#[cfg(not(unix))]
+fn inode_of(_meta: &std::fs::Metadata) -> Option<(u64, u64)> {
+    None
+}
+
+/// Identifies `path` as a file to compare: an existing file by its resolved path and inode;
+/// a file not written yet by its resolved folder (which must exist) and name.
+pub fn identify(path: &Path, what: &'static str) -> io::Result<FileId> {
+    match std::fs::canonicalize(path) {
+        Ok(resolved) => Ok(FileId {
+            given: path.to_path_buf(),
+            what,
+            inode: std::fs::metadata(&resolved)
+                .ok()
+                .as_ref()
+                .and_then(inode_of),
+            resolved,
+        }),
+        Err(e) if e.kind() == io::ErrorKind::NotFound => {
+            let name = path
+                .file_name()
+                .ok_or_else(|| io::Error::new(io::ErrorKind::InvalidInput, "names no file"))?;
+            let folder = match path.parent() {
+                Some(p) if !p.as_os_str().is_empty() => p,
+                _ => Path::new("."),
+            };
+            let folder = std::fs::canonicalize(folder).map_err(|e| {
+                io::Error::new(e.kind(), format!("its folder {}: {e}", folder.display()))
+            })?;
+            if !folder.is_dir() {
+                return Err(io::Error::new(
+                    io::ErrorKind::NotADirectory,
+                    format!("{} is not a folder", folder.display()),
+                ));
+            }
+            Ok(FileId {
+                given: path.to_path_buf(),
+                what,
+                resolved: folder.join(name),
+                inode: None,
+            })
+        }
+        Err(e) => Err(e),
+    }
+}
+
+/// Every file the run has read so far. A registry rather than a list handed around, so that
+/// a loader added later cannot be forgotten by the check that no output overwrites an input.
+static INPUTS: Mutex<Vec<FileId>> = Mutex::new(Vec::new());
+
+fn record_input(path: &Path, what: &'static str, meta: &std::fs::Metadata) {
+    let resolved = std::fs::canonicalize(path).unwrap_or_else(|_| path.to_path_buf());
+    let id = FileId {
+        given: path.to_path_buf(),
+        what,
+        resolved,
+        inode: inode_of(meta),
+    };
+    let mut list = INPUTS.lock().unwrap_or_else(|p| p.into_inner());
+    if !list.iter().any(|f| f.same(&id)) {
+        list.push(id);
+    }
+}
+
+/// The files read so far (the spec, every inventory), each once.
+pub fn inputs() -> Vec<FileId> {
+    INPUTS.lock().unwrap_or_else(|p| p.into_inner()).clone()
 }
 
 fn human_bytes(n: u64) -> String {

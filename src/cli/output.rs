@@ -1,11 +1,15 @@
 //! The files a run writes: one list of the outputs asked for (`--json`, `--spice`, `--plot`,
-//! `--schematic`, `--bom`, `--report`), used both to write them and to say, when no build
-//! meets the spec, which were not written.
+//! `--schematic`, `--bom`, `--report`), used to check them before the search ([`check`]: no
+//! output is an input of the run or another output, every folder exists), to write them
+//! (each whole, `write::output`, after all are drawn) and to say, when no build meets the
+//! spec, which were not written.
 
 use super::args::Output;
+use super::console::{self, say_raw};
 use super::failure::Failure;
-use anyhow::Context;
-use std::io::Write;
+use super::files::{self, FileId};
+use super::write;
+use anyhow::{anyhow, Context};
 use std::path::PathBuf;
 use stockfit::circuit::Circuit;
 use stockfit::report::{bom, html, json, plot, schematic, spice};
@@ -35,6 +39,18 @@ impl Kind {
             Kind::Schematic => "schematic",
             Kind::Bom => "BOM",
             Kind::Report => "HTML report",
+        }
+    }
+
+    /// The flag that names it.
+    fn flag(self) -> &'static str {
+        match self {
+            Kind::Json => "--json",
+            Kind::Spice => "--spice",
+            Kind::Plot => "--plot",
+            Kind::Schematic => "--schematic",
+            Kind::Bom => "--bom",
+            Kind::Report => "--report",
         }
     }
 }
@@ -76,12 +92,87 @@ pub fn json_to_stdout(output: &Output) -> bool {
     output.json.as_deref() == Some("-")
 }
 
+/// Checks the outputs before anything is written (and before the search, so a typo costs
+/// nothing): each file output's folder exists, and no output is a file the run has read (the
+/// spec, an inventory: `files::inputs`) or another output — compared by resolved path and,
+/// for existing files, by device and inode, so a symbolic or hard link to an input counts as
+/// the input. A clash is bad input (exit 2) naming both.
+pub fn check(output: &Output) -> Result<(), Failure> {
+    let inputs = files::inputs();
+    let mut outputs: Vec<(Kind, FileId)> = Vec::new();
+    for (kind, target) in requested(output) {
+        let Target::File(path) = target else { continue };
+        if let Ok(meta) = std::fs::metadata(&path) {
+            let read_only = meta.is_file()
+                && (meta.permissions().readonly()
+                    || std::fs::OpenOptions::new().write(true).open(&path).is_err());
+            let what = if meta.is_dir() {
+                "a folder"
+            } else if read_only {
+                "a read-only file"
+            } else {
+                ""
+            };
+            if !what.is_empty() {
+                return Err(Failure::input(anyhow!(
+                    "{} {}: that is {what}; nothing was written: name another file for the {}",
+                    kind.flag(),
+                    console::shown(&path),
+                    kind.noun()
+                )));
+            }
+        }
+        let id = files::identify(&path, kind.noun()).map_err(|e| {
+            Failure::input(anyhow!(
+                "{} {}: cannot write the {} there: {e}; nothing was written",
+                kind.flag(),
+                console::shown(&path),
+                kind.noun()
+            ))
+        })?;
+        if let Some(input) = inputs.iter().find(|i| i.same(&id)) {
+            return Err(Failure::input(anyhow!(
+                "{} {}: that is the {} {} this run reads{}; nothing was written: name another \
+                 file for the {}",
+                kind.flag(),
+                console::shown(&path),
+                input.what,
+                console::shown(&input.given),
+                through_link(&id, input),
+                kind.noun()
+            )));
+        }
+        if let Some((other, first)) = outputs.iter().find(|(_, o)| o.same(&id)) {
+            return Err(Failure::input(anyhow!(
+                "{} {} and {} {} are the same file{}; nothing was written: give each output a \
+                 file of its own",
+                other.flag(),
+                console::shown(&first.given),
+                kind.flag(),
+                console::shown(&path),
+                through_link(&id, first)
+            )));
+        }
+        outputs.push((kind, id));
+    }
+    Ok(())
+}
+
+/// " (through a link)" when two names of one file differ after resolving.
+fn through_link(a: &FileId, b: &FileId) -> &'static str {
+    if a.resolved == b.resolved {
+        ""
+    } else {
+        " (the same file through a link)"
+    }
+}
+
 fn write(target: &Target, kind: Kind, text: &str) -> Result<(), Failure> {
     match target {
         Target::Stdout => {
-            let mut out = std::io::stdout().lock();
-            // A closed pipe (`… | head`) is not an error worth reporting.
-            let _ = writeln!(out, "{text}");
+            // Through the console: a failed write is exit 2 at the end of the run, a closed
+            // pipe is quiet.
+            say_raw!("{text}\n");
             Ok(())
         }
         Target::File(path) => {
@@ -90,8 +181,10 @@ fn write(target: &Target, kind: Kind, text: &str) -> Result<(), Failure> {
             } else {
                 text.to_string()
             };
-            std::fs::write(path, bytes)
-                .with_context(|| format!("cannot write the {} {}", kind.noun(), path.display()))
+            write::output(path, bytes.as_bytes())
+                .with_context(|| {
+                    format!("cannot write the {} {}", kind.noun(), console::shown(path))
+                })
                 .map_err(Failure::input)
         }
     }
@@ -114,6 +207,9 @@ pub fn write_builds(output: &Output, b: &Builds) -> Result<(), Failure> {
     let Some(best) = b.ranked.first() else {
         return Ok(());
     };
+    // Every output is drawn before the first is written, so that one that cannot be drawn
+    // leaves none written.
+    let mut texts = Vec::new();
     for (kind, target) in requested(output) {
         let text = match kind {
             Kind::Json => json::builds(b.spec, b.circuit, b.ranked, b.proven),
@@ -123,7 +219,10 @@ pub fn write_builds(output: &Output, b: &Builds) -> Result<(), Failure> {
             Kind::Bom => bom::csv(b.circuit, &best.build, Some(b.stock))?,
             Kind::Report => html::report(b.spec, b.circuit, b.ranked, Some(b.stock), b.stock_text)?,
         };
-        write(&target, kind, &text)?;
+        texts.push((kind, target, text));
+    }
+    for (kind, target, text) in &texts {
+        write(target, *kind, text)?;
     }
     Ok(())
 }
@@ -138,14 +237,14 @@ pub fn write_diagnosis(
     for (kind, target) in requested(output) {
         match (kind, &target) {
             (Kind::Json, _) => write(&target, kind, &json::diagnosis(spec, circuit, d))?,
-            (Kind::Spice, Target::File(p)) => eprintln!(
+            (Kind::Spice, Target::File(p)) => console::eprint(format_args!(
                 "note: no build meets the spec, so no netlist was written to {}",
                 p.display()
-            ),
-            (_, Target::File(p)) => eprintln!(
+            )),
+            (_, Target::File(p)) => console::eprint(format_args!(
                 "note: no build meets the spec, so nothing was written to {}",
                 p.display()
-            ),
+            )),
             (_, Target::Stdout) => {}
         }
     }

@@ -1,13 +1,13 @@
 //! What each subcommand does: read files, call the library (`stockfit::pick`), print, write.
 
 use super::args::{Command, Output};
+use super::console::{self, say, say_raw, tell};
 use super::failure::{Failure, EXIT_NO_BUILD, EXIT_OK};
 use super::files::{load_inventory, load_spec};
 use super::output::{self, Builds};
 use super::progress::Bar;
 use anyhow::{anyhow, Context};
 use std::io::IsTerminal;
-use std::io::Write;
 use std::path::Path;
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Arc;
@@ -19,17 +19,9 @@ use stockfit::report::table;
 use stockfit::search::{self, Ranked, Stop};
 use stockfit::series::Series;
 use stockfit::spec::Spec;
+use stockfit::stock::pool::Pools;
 use stockfit::value::{self, Unit};
 use stockfit::vocab::PartKind;
-
-/// Print to stdout; a closed pipe (`stockfit … | head`) is not an error worth a panic.
-macro_rules! say {
-    () => { let _ = writeln!(std::io::stdout().lock()); };
-    ($($t:tt)*) => { let _ = writeln!(std::io::stdout().lock(), $($t)*); };
-}
-macro_rules! say_raw {
-    ($($t:tt)*) => { let _ = write!(std::io::stdout().lock(), $($t)*); };
-}
 
 /// The built-in example for `stockfit demo`.
 pub const DEMO_SPEC: &str = include_str!("../../examples/hydrophone-preamp-9v.toml");
@@ -136,7 +128,7 @@ fn stop_for(output: &Output) -> Stop {
         if set.swap(true, Ordering::SeqCst) {
             std::process::exit(130);
         }
-        eprintln!(
+        tell!(
             "\ninterrupted: stopping the search; the builds found so far follow (not proven best)"
         );
     });
@@ -172,6 +164,8 @@ fn pick(
 ) -> Result<i32, Failure> {
     let circuit = circuit::circuit_for(spec.stage);
     let Resolved { stock, description } = resolve_stock(spec, base, stock_over)?;
+    // Every input is read now: no output may be one of them (nor another output).
+    output::check(output)?;
     let entries = split_entries(locks, "--lock")?;
     let locked =
         pick::resolve_locks(spec, circuit, &stock, &entries).map_err(|e| in_spec(spec_path, e))?;
@@ -192,7 +186,7 @@ fn pick(
         Ok(p) => p,
         Err(stockfit::Error::Search(e @ search::SearchError::NoCandidates { .. })) => {
             bar.finish();
-            eprintln!("error: {e}");
+            tell!("error: {e}");
             return Ok(EXIT_NO_BUILD);
         }
         Err(e) => return Err(Failure::input(e)),
@@ -200,7 +194,7 @@ fn pick(
     bar.finish();
     if std::env::var_os("STOCKFIT_STATS").is_some() {
         let s = &picked.stats;
-        eprintln!(
+        tell!(
             "search: gain ≤ {:?}, root bound {:.4}; {:?} candidates per slot, {} nodes {:?}, {} builds evaluated ({:?} rejected early, {:?} by the full analysis), {:.3} s",
             s.gain_max,
             s.root_bound,
@@ -271,6 +265,7 @@ fn check(
 ) -> Result<i32, Failure> {
     let circuit = circuit::circuit_for(spec.stage);
     let Resolved { stock, description } = resolve_stock(spec, base, stock_over)?;
+    output::check(output)?;
     let entries = split_entries(set, "--set")?;
     let opts = yield_options(spec, output);
     let ranked: Ranked =
@@ -327,7 +322,7 @@ fn series(name: &str, from: &str, to: &str) -> Result<i32, Failure> {
         })
         .collect();
     say!("{}", text.join("\n"));
-    eprintln!(
+    tell!(
         "{} values of {} (IEC 60063, {} % tolerance class)",
         values.len(),
         s.name(),
@@ -339,7 +334,8 @@ fn series(name: &str, from: &str, to: &str) -> Result<i32, Failure> {
 fn stock_summary(file: &Path) -> Result<i32, Failure> {
     let inv = load_inventory(file)?;
     let s = inv.summary();
-    say!("{}: {} lines", file.display(), inv.lines.len());
+    let pools = Pools::new(&inv);
+    say!("{}: {} lines", console::shown(file), inv.lines.len());
     for k in [&s.resistors, &s.capacitors] {
         let unit = match k.kind {
             PartKind::Resistor => Unit::Ohm,
@@ -388,11 +384,34 @@ fn stock_summary(file: &Path) -> Result<i32, Failure> {
             );
         }
         for d in &k.duplicates {
+            // At most ten rows each: a value on 100 000 rows is a line, not a page.
+            let shown = &d.rows[..d.rows.len().min(10)];
+            let more = match d.rows.len() - shown.len() {
+                0 => String::new(),
+                n => format!(" and {n} more"),
+            };
             say!(
-                "    note: {} {} appears on several rows {:?}",
+                "    note: {} {} appears on several rows {:?}{more}",
                 value::format(d.value, unit),
                 value::format(d.tolerance, Unit::Percent),
-                d.rows
+                shown
+            );
+        }
+        // Rows of the same part (ratings, dielectric and cost too) are one line to the search,
+        // their pieces pooled (`stock::pool`); rows that only share value and tolerance are not.
+        let pooled = k
+            .duplicates
+            .iter()
+            .filter(|d| {
+                let first = pools.representative(d.rows[0]);
+                d.rows.iter().all(|&r| pools.representative(r) == first)
+            })
+            .count();
+        if !k.duplicates.is_empty() {
+            say!(
+                "    pooled: {pooled} (the same part on each row); kept apart: {} (ratings, \
+                 dielectric or cost differ)",
+                k.duplicates.len() - pooled
             );
         }
     }

@@ -3,13 +3,16 @@
 //! slots, value, tolerance, quantity, rating, polarity and dielectric, the inventory's location
 //! and note, unit and line cost, and a total row.
 //!
-//! As CSV ([`csv()`]) it follows RFC 4180 (quoted where needed, CRLF line ends), and every cell
-//! that begins with `=`, `+`, `-`, `@`, a tab or a carriage return is prefixed with a single
-//! quote, as the OWASP "CSV Injection" guidance advises, so that a note typed into an inventory
-//! cannot run as a formula when the BOM is opened in a spreadsheet.
+//! As CSV ([`csv()`]) it follows RFC 4180 (CRLF line ends) and the OWASP "CSV Injection"
+//! guidance, so that a note typed into an inventory cannot run as a formula when the BOM is
+//! opened in a spreadsheet, whichever separator the spreadsheet splits on: every text cell is
+//! quoted, control characters (line breaks, tabs, NUL, ESC …) are escaped as visible text, and
+//! a formula character (`=`, `+`, `-`, `@`) at the start of a cell or after a `,` or `;` inside
+//! it gets a single quote before it ([`sanitise::spreadsheet_cell`]).
 
 use super::common::RenderError;
 use super::designators;
+use super::sanitise;
 use crate::build::{Build, LineKey, Piece};
 use crate::circuit::Circuit;
 use crate::stock::inventory::Line;
@@ -40,11 +43,16 @@ pub struct BomRow {
     pub polarized: bool,
     /// Capacitor dielectric as the inventory writes it, where given.
     pub dielectric: Option<String>,
-    /// 1-based data row of the inventory CSV.
+    /// 1-based data row of the inventory CSV (of a pool of identical lines, its
+    /// representative row, as in `Piece::line`).
     pub inventory_row: Option<usize>,
-    /// Where the pieces are kept, from the inventory.
+    /// The rows the pieces come off, in file order: `inventory_row` alone, or the rows of its
+    /// pool that give them (`stock::pool`, the rows `stockfit take` deducts from).
+    pub inventory_rows: Vec<usize>,
+    /// Where the pieces are kept, from the inventory (of each row they come off, each once,
+    /// joined by `; `).
     pub location: Option<String>,
-    /// The inventory's note for the line.
+    /// The inventory's note for the line (as the location, for pooled rows).
     pub note: Option<String>,
     /// Price of one piece in the inventory's currency, where given.
     pub unit_cost: Option<f64>,
@@ -139,6 +147,7 @@ pub fn rows(stage: &dyn Circuit, build: &Build, stock: Option<&Stock>) -> Vec<Bo
                     polarized: piece.polarized,
                     dielectric: piece.dielectric.clone(),
                     inventory_row: piece.line,
+                    inventory_rows: piece.line.into_iter().collect(),
                     location: line.and_then(|l| l.location.clone()),
                     note: line.and_then(|l| l.note.clone()),
                     unit_cost: if part.locked { None } else { piece.unit_cost },
@@ -149,6 +158,9 @@ pub fn rows(stage: &dyn Circuit, build: &Build, stock: Option<&Stock>) -> Vec<Bo
         }
     }
     let mut out: Vec<BomRow> = rows.into_iter().map(|(_, r)| r).collect();
+    for r in out.iter_mut().filter(|r| !r.locked) {
+        draw_from_pool(r, stock);
+    }
     for r in &mut out {
         r.designators.sort_by_key(|d| number(d));
         r.line_cost = if r.locked {
@@ -164,6 +176,39 @@ pub fn rows(stage: &dyn Circuit, build: &Build, stock: Option<&Stock>) -> Vec<Bo
         )
     });
     out
+}
+
+/// The rows of an inventory line's pool that give its pieces, in file order (as
+/// `pick::takings` draws them), with their locations and notes, each distinct text once.
+fn draw_from_pool(r: &mut BomRow, stock: Option<&Stock>) {
+    let (Some(stock), Some(row)) = (stock, r.inventory_row) else {
+        return;
+    };
+    let (Some(pools), Source::Inventory(inv)) = (stock.pools(r.kind), stock.source(r.kind)) else {
+        return;
+    };
+    let drawn: Vec<usize> = pools
+        .draw(row, u32::try_from(r.quantity).unwrap_or(u32::MAX))
+        .into_iter()
+        .map(|(row, _)| row)
+        .collect();
+    if drawn.len() < 2 && drawn.first().is_none_or(|&d| d == row) {
+        return;
+    }
+    let texts = |field: fn(&Line) -> &Option<String>| {
+        let mut seen: Vec<&str> = Vec::new();
+        for d in &drawn {
+            if let Some(t) = inv.lines.get(d - 1).and_then(|l| field(l).as_deref()) {
+                if !seen.contains(&t) {
+                    seen.push(t);
+                }
+            }
+        }
+        (!seen.is_empty()).then(|| seen.join("; "))
+    };
+    r.location = texts(|l| &l.location);
+    r.note = texts(|l| &l.note);
+    r.inventory_rows = drawn;
 }
 
 /// Total cost of the rows with a known cost, and how many rows have none.
@@ -190,14 +235,9 @@ pub fn money(x: f64) -> String {
     }
 }
 
-/// The cell as written: one that a spreadsheet would read as a formula or a control gets a
-/// leading `'` (OWASP CSV Injection: `=`, `+`, `-`, `@`, tab, carriage return).
+/// The cell as written to the CSV: see [`sanitise::spreadsheet_cell`].
 pub fn neutralise(cell: &str) -> String {
-    if cell.starts_with(['=', '+', '-', '@', '\t', '\r']) {
-        format!("'{cell}")
-    } else {
-        cell.to_string()
-    }
+    sanitise::spreadsheet_cell(cell)
 }
 
 /// The column names of the CSV, in order.
@@ -262,7 +302,11 @@ pub fn cells(item: usize, r: &BomRow) -> Vec<String> {
         }
         .into(),
         r.dielectric.clone().unwrap_or_default(),
-        r.inventory_row.map_or(String::new(), |q| q.to_string()),
+        r.inventory_rows
+            .iter()
+            .map(usize::to_string)
+            .collect::<Vec<_>>()
+            .join(", "),
         r.location.clone().unwrap_or_default(),
         note,
         r.unit_cost.map_or(String::new(), money),
@@ -278,8 +322,11 @@ pub fn csv(
     stock: Option<&Stock>,
 ) -> Result<String, RenderError> {
     let rows = rows(stage, build, stock);
+    // Every cell that is not a number is quoted (OWASP: "ensure that each cell field is
+    // enclosed in double quotes"); numbers stay bare so that spreadsheets read them as numbers.
     let mut w = ::csv::WriterBuilder::new()
         .terminator(::csv::Terminator::CRLF)
+        .quote_style(::csv::QuoteStyle::NonNumeric)
         .from_writer(Vec::new());
     let e = |e: ::csv::Error| RenderError::Csv(e.to_string());
     w.write_record(HEADER.iter().map(|h| neutralise(h)))
@@ -451,8 +498,9 @@ C,10u,20%,5,25V,,yes,electrolytic,0.15,box 3,\r\n";
         // (The inventory loader trims cells, so a leading tab cannot come from a file;
         // `neutralise_cases` covers it.)
         assert_eq!(note(4), "note with a tab");
-        // Quotes, commas and a newline come back whole through RFC 4180 quoting.
-        assert_eq!(note(3), "says \"hi\", then\nnext line");
+        // Quotes and commas come back whole through RFC 4180 quoting; the line break is
+        // escaped, so that a reader splitting lines naively sees no new row.
+        assert_eq!(note(3), "says \"hi\", then\\nnext line");
         // No cell of any row starts with a formula character.
         for row in &table {
             for cell in row {
@@ -501,8 +549,9 @@ C,10u,20%,5,25V,,yes,electrolytic,0.15,box 3,\r\n";
             ("+1", "'+1"),
             ("-1", "'-1"),
             ("@SUM(A1)", "'@SUM(A1)"),
-            ("\tx", "'\tx"),
-            ("\rx", "'\rx"),
+            ("\tx", "\\tx"),
+            ("\rx", "\\rx"),
+            ("a;=1", "a;'=1"),
             ("a=1", "a=1"),
             ("", ""),
         ] {

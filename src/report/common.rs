@@ -15,7 +15,10 @@ pub enum RenderError {
 }
 
 /// Text for HTML and SVG: the five XML character escapes, so that text from a user's files
-/// (inventory notes, locations) is shown as text and never read as markup.
+/// (inventory notes, locations) is shown as text and never read as markup; and control
+/// characters other than tab and line feed shown as visible escapes (`\x1b`), since XML 1.0
+/// does not allow them in a document and HTML counts them as parse errors (XML 1.0 §2.2,
+/// WHATWG HTML "control-character-in-input-stream").
 pub fn escape(text: &str) -> String {
     let mut out = String::with_capacity(text.len());
     for c in text.chars() {
@@ -25,7 +28,10 @@ pub fn escape(text: &str) -> String {
             '>' => out.push_str("&gt;"),
             '"' => out.push_str("&quot;"),
             '\'' => out.push_str("&#39;"),
-            c => out.push(c),
+            '\n' | '\t' => out.push(c),
+            c => out.push_str(&super::sanitise::escape_controls(
+                c.encode_utf8(&mut [0; 4]),
+            )),
         }
     }
     out
@@ -39,5 +45,6 @@ mod tests {
             super::escape("<a href=\"x\">&'</a>"),
             "&lt;a href=&quot;x&quot;&gt;&amp;&#39;&lt;/a&gt;"
         );
+        assert_eq!(super::escape("a\u{1b}[2J\nb\0"), "a\\x1b[2J\nb\\0");
     }
 }

@@ -9,6 +9,7 @@ pub mod designators;
 pub mod html;
 pub mod json;
 pub mod plot;
+pub mod sanitise;
 pub mod schematic;
 pub mod spice;
 pub mod table;

@@ -115,10 +115,13 @@ fn table_label(part: &crate::build::Part) -> String {
     if part.kind != crate::vocab::PartKind::Capacitor {
         return label;
     }
-    let mut kinds: Vec<&str> = part
+    // The dielectric is text from the inventory: shown with its control characters escaped,
+    // so that it cannot drive the terminal (`report::sanitise`).
+    let mut kinds: Vec<std::borrow::Cow<str>> = part
         .pieces
         .iter()
         .filter_map(|p| p.dielectric.as_deref())
+        .map(super::sanitise::escape_controls)
         .collect();
     kinds.dedup();
     if !kinds.is_empty() {

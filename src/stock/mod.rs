@@ -1,11 +1,13 @@
 //! The parts source: a standard series or an inventory, and the realisations of a slot.
 //!
 //! A series offers every value in a range, in unlimited pieces at one tolerance; an inventory
-//! offers its lines with their quantities. Either way a slot's candidates are realisations: one
-//! piece, or (with `combine`) two pieces in series or in parallel.
+//! offers its lines with their quantities, identical lines pooled into one ([`pool`]). Either
+//! way a slot's candidates are realisations: one piece, or (with `combine`) two pieces in
+//! series or in parallel.
 
 pub mod edit;
 pub mod inventory;
+pub mod pool;
 pub mod sha256;
 
 use crate::build::{Arrangement, LineKey, Part, Piece};
@@ -13,6 +15,7 @@ use crate::series::Series;
 use crate::vocab::Combine;
 use crate::vocab::PartKind;
 use inventory::{Inventory, Line};
+use pool::Pools;
 use std::collections::HashMap;
 use std::sync::Arc;
 
@@ -69,8 +72,9 @@ pub struct Stock {
     pub capacitor_range: (f64, f64),
     /// How a slot may be realised (one piece, or a series or parallel pair).
     pub combine: Combine,
-    /// Pieces on hand by inventory row (index = row), per kind: resistors, capacitors.
-    qty: [Vec<u32>; 2],
+    /// The pools of identical lines of each kind's inventory ([`pool`]): resistors,
+    /// capacitors; `None` for a series.
+    pools: [Option<Arc<Pools>>; 2],
 }
 
 fn piece_of(line: &Line) -> Piece {
@@ -87,31 +91,31 @@ fn piece_of(line: &Line) -> Piece {
 }
 
 impl Stock {
-    /// A stock from one source per kind and the spec's limits; records each inventory row's
-    /// quantity on hand.
+    /// A stock from one source per kind and the spec's limits; pools each inventory's
+    /// identical lines (once when both kinds come from one inventory).
     pub fn new(resistors: Source, capacitors: Source, spec: Limits) -> Stock {
-        let mut qty: [Vec<u32>; 2] = [Vec::new(), Vec::new()];
-        for (k, kind, source) in [
-            (0, PartKind::Resistor, &resistors),
-            (1, PartKind::Capacitor, &capacitors),
-        ] {
-            if let Source::Inventory(inv) = source {
-                for line in inv.lines.iter().filter(|l| l.kind == kind) {
-                    if qty[k].len() <= line.row {
-                        qty[k].resize(line.row + 1, 0);
-                    }
-                    qty[k][line.row] = line.qty;
-                }
-            }
-        }
+        let pools_of = |s: &Source| match s {
+            Source::Inventory(inv) => Some(Arc::new(Pools::new(inv))),
+            Source::Series { .. } => None,
+        };
+        let r = pools_of(&resistors);
+        let c = match (&resistors, &capacitors) {
+            (Source::Inventory(a), Source::Inventory(b)) if Arc::ptr_eq(a, b) => r.clone(),
+            _ => pools_of(&capacitors),
+        };
         Stock {
             resistors,
             capacitors,
             resistor_range: spec.resistor_range,
             capacitor_range: spec.capacitor_range,
             combine: spec.combine,
-            qty,
+            pools: [r, c],
         }
+    }
+
+    /// The pools of identical lines of this kind's inventory; `None` for a series.
+    pub fn pools(&self, kind: PartKind) -> Option<&Pools> {
+        self.pools[usize::from(kind == PartKind::Capacitor)].as_deref()
     }
 
     /// Where the parts of this kind come from.
@@ -130,19 +134,18 @@ impl Stock {
         }
     }
 
-    /// Pieces on hand of a line; `None` means unlimited (a series value).
+    /// Pieces on hand of a line — for an inventory row, of the pool it belongs to; `None`
+    /// means unlimited (a series value).
     pub fn quantity(&self, key: LineKey) -> Option<u32> {
         match key {
-            LineKey::Row(kind, row) => {
-                let k = usize::from(kind == PartKind::Capacitor);
-                Some(self.qty[k].get(row).copied().unwrap_or(0))
-            }
+            LineKey::Row(kind, row) => Some(self.pools(kind).map_or(0, |p| p.total(row))),
             LineKey::Value(..) => None,
         }
     }
 
-    /// Single pieces of one kind within the range, ascending by value. Inventory lines with
-    /// nothing on hand are left out.
+    /// Single pieces of one kind within the range, ascending by value: one per pool of
+    /// identical inventory lines, carrying the pool's representative row ([`pool`]). Lines
+    /// with nothing on hand are left out.
     pub fn pieces(&self, kind: PartKind) -> Vec<Piece> {
         let (lo, hi) = self.range(kind);
         let eps = 1e-9;
@@ -152,13 +155,20 @@ impl Stock {
                 .into_iter()
                 .map(|v| Piece::plain(v, *tolerance))
                 .collect(),
-            Source::Inventory(inv) => inv
-                .lines
-                .iter()
-                .filter(|l| l.kind == kind && l.qty > 0)
-                .filter(|l| l.value >= lo * (1.0 - eps) && l.value <= hi * (1.0 + eps))
-                .map(piece_of)
-                .collect(),
+            Source::Inventory(inv) => {
+                let pools = self.pools(kind);
+                let offered = |l: &Line| {
+                    pools.map_or(l.qty > 0, |p| {
+                        p.representative(l.row) == l.row && p.total(l.row) > 0
+                    })
+                };
+                inv.lines
+                    .iter()
+                    .filter(|l| l.kind == kind && offered(l))
+                    .filter(|l| l.value >= lo * (1.0 - eps) && l.value <= hi * (1.0 + eps))
+                    .map(piece_of)
+                    .collect()
+            }
         };
         pieces.sort_by(|a, b| a.value.total_cmp(&b.value));
         pieces
@@ -216,17 +226,22 @@ impl Stock {
 
     /// The inventory piece of a given value (and tolerance, when given), so that a part named
     /// by value carries its line's ratings; among several lines the widest tolerance is taken
-    /// (the cautious choice). `None` for a series or when no line matches.
+    /// (the cautious choice). The piece carries its pool's representative row, as the
+    /// search's pieces do. `None` for a series or when no line matches.
     pub fn find_piece(&self, kind: PartKind, value: f64, tolerance: Option<f64>) -> Option<Piece> {
         let Source::Inventory(inv) = self.source(kind) else {
             return None;
         };
-        inv.lines
+        let line = inv
+            .lines
             .iter()
             .filter(|l| l.kind == kind && (l.value - value).abs() <= 1e-9 * value.abs())
             .filter(|l| tolerance.is_none_or(|t| (l.tolerance - t).abs() <= 1e-12))
-            .max_by(|a, b| a.tolerance.total_cmp(&b.tolerance).then(b.row.cmp(&a.row)))
-            .map(piece_of)
+            .max_by(|a, b| a.tolerance.total_cmp(&b.tolerance).then(b.row.cmp(&a.row)))?;
+        let rep = self
+            .pools(kind)
+            .map_or(line.row, |p| p.representative(line.row));
+        inv.lines.get(rep - 1).map(piece_of)
     }
 
     /// True when the pieces of all parts together fit the quantities on hand.
@@ -307,5 +322,32 @@ mod tests {
         let part = &c[0];
         assert!(stock.fits(&[part]));
         assert!(!stock.fits(&[part, part]));
+    }
+
+    #[test]
+    fn identical_rows_are_one_pooled_candidate() {
+        // Three rows of one 10 kΩ piece each (row 2 written another way, row 3 in another
+        // drawer) are one line of three pieces: one single candidate and one series pair.
+        let csv = "kind,value,tolerance,qty,location
+resistor,10k,1%,1,A
+                   r,10000,1%,1,B
+r,4k7,1%,0,C
+r,10k,1%,1,D
+";
+        let inv = Arc::new(Inventory::parse_str(csv).unwrap());
+        let stock = Stock::new(
+            Source::Inventory(inv.clone()),
+            e12(),
+            stock_spec(Combine::Series),
+        );
+        let c = stock.candidates(PartKind::Resistor);
+        assert_eq!(c.len(), 1, "{c:?}");
+        assert_eq!(c[0].pieces[0].line, Some(1));
+        assert_eq!(stock.quantity(LineKey::Row(PartKind::Resistor, 4)), Some(3));
+        let part = &c[0];
+        assert!(stock.fits(&[part, part, part]));
+        assert!(!stock.fits(&[part, part, part, part]));
+        let found = stock.find_piece(PartKind::Resistor, 10e3, None).unwrap();
+        assert_eq!(found.line, Some(1));
     }
 }
