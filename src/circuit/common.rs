@@ -24,6 +24,21 @@ pub fn divider_out<T: Num>(supply: f64, r_hi: T, r_lo: T) -> T {
     )
 }
 
+/// How far the op-amp's errors move the output DC of a divider-biased stage either way at
+/// worst case: I_b·|R_fb − R_p| + (I_os/2)·(R_fb + R_p) + V_os, the half range of [`dc_out`]
+/// over the eight sign corners of `DcErrors::corners` (V_out − V_div = s_b·I_b·(R_fb − R_p) −
+/// s_o·(I_os/2)·(R_fb + R_p) + s_v·V_os). Zero in nominal mode, which judges one corner.
+pub fn dc_error<T: Num>(spec: &Spec, r_hi: T, r_lo: T, r_fb: T) -> T {
+    if !spec.worst_case() {
+        return T::c(0.0);
+    }
+    let a = &spec.amplifier;
+    let rp = parallel(r_hi, r_lo);
+    T::c(a.input_bias_current) * (r_fb - rp).abs()
+        + T::c(a.input_offset_current / 2.0) * (r_fb + rp)
+        + T::c(a.input_offset_voltage)
+}
+
 /// The current the divider draws, V_s/(R_hi + R_lo): falling in both.
 pub fn divider_current<T: Num>(supply: f64, r_hi: T, r_lo: T) -> T {
     T::monotone(|[hi, lo]| supply / (hi + lo), [r_hi, r_lo], [false, false])

@@ -89,20 +89,23 @@ fn gain<T: Num>(spec: &Spec, v: &[T]) -> T {
 /// The figures of [`Circuit::figures`], over plain values or intervals.
 fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
     let (hi, lo, fb) = (v[R_BIAS_HI], v[R_BIAS_LO], v[R_FB]);
-    let plain = |resistance, capacitance| NetworkFigure {
+    let plain = |resistance, capacitance, cap_slot| NetworkFigure {
         resistance,
         capacitance,
         plain: true,
+        cap_slot,
+        shelf: None,
     };
     Figures {
         gain: gain(spec, v),
         input_resistance: v[R_IN],
         offset: common::offset_error(spec, hi, lo, fb),
         dc_out: common::dc_out(spec, hi, lo, fb, &DcErrors::centre(spec)),
+        dc_error: common::dc_error(spec, hi, lo, fb),
         bias_current: Some(common::divider_current(spec.supply, hi, lo)),
         networks: vec![
-            plain(T::c(spec.source_resistance) + v[R_IN], v[C_IN]),
-            plain(T::c(spec.load), v[C_OUT]),
+            plain(T::c(spec.source_resistance) + v[R_IN], v[C_IN], C_IN),
+            plain(T::c(spec.load), v[C_OUT], C_OUT),
         ],
     }
 }

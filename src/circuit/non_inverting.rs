@@ -138,21 +138,26 @@ fn gain<T: Num>(spec: &Spec, v: &[T]) -> T {
 fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
     let (hi, lo, fb) = (v[R_BIAS_HI], v[R_BIAS_LO], v[R_FB]);
     let rp = common::parallel(hi, lo);
-    let network = |resistance, capacitance, plain| NetworkFigure {
+    let network = |resistance, capacitance, plain, cap_slot, shelf| NetworkFigure {
         resistance,
         capacitance,
         plain,
+        cap_slot,
+        shelf,
     };
+    // The gain leg's shelf: 1 + R_fb/R_g (rising in R_fb, falling in R_g).
+    let ng = T::monotone(|[f, g]| 1.0 + f / g, [fb, v[R_G]], [true, false]);
     Figures {
         gain: gain(spec, v),
         input_resistance: rp,
         offset: common::offset_error(spec, hi, lo, fb),
         dc_out: common::dc_out(spec, hi, lo, fb, &DcErrors::centre(spec)),
+        dc_error: common::dc_error(spec, hi, lo, fb),
         bias_current: Some(common::divider_current(spec.supply, hi, lo)),
         networks: vec![
-            network(T::c(spec.source_resistance) + rp, v[C_IN], true),
-            network(v[R_G], v[C_G], false),
-            network(T::c(spec.load), v[C_OUT], true),
+            network(T::c(spec.source_resistance) + rp, v[C_IN], true, C_IN, None),
+            network(v[R_G], v[C_G], false, C_G, Some(ng)),
+            network(T::c(spec.load), v[C_OUT], true, C_OUT, None),
         ],
     }
 }

@@ -17,6 +17,12 @@ pub struct NetworkFigure<T> {
     pub capacitance: T,
     /// A plain buffered first-order high-pass (see above).
     pub plain: bool,
+    /// The slot of its capacitor.
+    pub cap_slot: usize,
+    /// For a shelving network that is not plain (a gain leg: gain NG at mid-band, 1 at DC),
+    /// its mid-band-to-DC gain ratio NG: its loss is 10·log10(NG²(1 + x²)/(NG² + x²)),
+    /// x = 1/(2πfRC). `None` otherwise.
+    pub shelf: Option<T>,
 }
 
 /// The scalar figures of a build that the objective's circuit terms and the generic search
@@ -34,6 +40,9 @@ pub struct Figures<T> {
     /// The output DC with the op-amp errors at their centre (`DcErrors::centre`, capacitors
     /// open): inside the range the worst case takes over the op-amp's error corners.
     pub dc_out: T,
+    /// How far the op-amp's errors can move the output DC either way at worst case (0 in
+    /// nominal mode): the output's DC range at every tolerance corner spans `dc_out ± dc_error`.
+    pub dc_error: T,
     /// The current a bias network draws from the supply, where the circuit has one.
     pub bias_current: Option<T>,
     /// The coupling networks, in the order of `Circuit::networks`.

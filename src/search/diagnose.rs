@@ -7,7 +7,7 @@
 //! judged against the real spec — shows what else fails.
 
 use super::dfs::search;
-use super::request::{Ranked, Request, SearchError};
+use super::request::{ranking_spec, ruled_out, Ranked, Request, SearchError};
 use crate::analysis::{self, Check};
 use crate::build::{Build, Part};
 use crate::spec::Spec;
@@ -558,7 +558,20 @@ pub fn diagnose(req: &Request) -> Result<Diagnosis, SearchError> {
     let mut blockers = Vec::new();
     let mut closest_builds: Vec<Ranked> = Vec::new();
     let mut untried = Vec::new();
-    for knob in KNOBS {
+    // The requirements the spec alone rules out go first: they are the likely blockers, and
+    // their boundary costs a single search.
+    let ranking = ranking_spec(req.spec, req.stage);
+    let blamed = |knob: &Knob| -> bool {
+        if !ruled_out(&ranking) {
+            return false;
+        }
+        let mut relaxed = req.spec.clone();
+        (knob.set)(&mut relaxed, None);
+        !ruled_out(&ranking_spec(&relaxed, req.stage))
+    };
+    let mut order: Vec<&Knob> = KNOBS.iter().filter(|k| blamed(k)).collect();
+    order.extend(KNOBS.iter().filter(|k| !blamed(k)));
+    for knob in order {
         let Some(limit) = (knob.get)(req.spec) else {
             continue;
         };
@@ -639,16 +652,57 @@ fn try_knob(
     let (mut bad, mut good) = (limit, limit);
     let step = if knob.larger_is_stricter { 0.5 } else { 2.0 };
     let mut closest = None;
-    for _ in 0..12 {
-        good *= step;
-        (knob.set)(&mut relaxed, Some(good));
-        match best_under(req, &relaxed)? {
-            Err(e) => return Ok(Err(e)),
-            Ok(Some(b)) => {
-                closest = Some(b);
+    // Where the spec alone rules builds out (the amplifier's gain limit, the slew rate, the
+    // swing), the boundary is found without searching: bisect on the screen, then search once
+    // just past it.
+    if ruled_out(&ranking_spec(req.spec, req.stage)) {
+        let screened = |v: f64, relaxed: &mut Spec| {
+            (knob.set)(relaxed, Some(v));
+            ruled_out(&ranking_spec(relaxed, req.stage))
+        };
+        let mut far = limit;
+        let mut open = false;
+        for _ in 0..40 {
+            far *= step;
+            if !screened(far, &mut relaxed) {
+                open = true;
                 break;
             }
-            Ok(None) => bad = good,
+            bad = far;
+        }
+        if open {
+            let (mut lo, mut hi) = (bad, far);
+            for _ in 0..40 {
+                let mid = (lo * hi).sqrt();
+                if screened(mid, &mut relaxed) {
+                    lo = mid;
+                } else {
+                    hi = mid;
+                }
+            }
+            bad = lo;
+            good = hi;
+            (knob.set)(&mut relaxed, Some(hi));
+            match best_under(req, &relaxed)? {
+                Err(e) => return Ok(Err(e)),
+                Ok(Some(b)) => closest = Some(b),
+                Ok(None) => bad = hi,
+            }
+        }
+    }
+    if closest.is_none() {
+        good = bad;
+        for _ in 0..12 {
+            good *= step;
+            (knob.set)(&mut relaxed, Some(good));
+            match best_under(req, &relaxed)? {
+                Err(e) => return Ok(Err(e)),
+                Ok(Some(b)) => {
+                    closest = Some(b);
+                    break;
+                }
+                Ok(None) => bad = good,
+            }
         }
     }
     let Some(mut closest) = closest else {

@@ -204,8 +204,24 @@ impl<'a> GenericPlan<'a> {
     }
 }
 
+/// Whether the box of every slot's whole range (its tolerance ends at worst case) passes the
+/// relaxed requirements: false proves that no build from these candidates can pass.
+pub fn box_feasible(spec: &Spec, circuit: &dyn Circuit, ranges: &[SlotRange]) -> bool {
+    let wide: Vec<Iv> = ranges
+        .iter()
+        .map(|r| {
+            if spec.worst_case() {
+                Iv::new(r.ends.0, r.ends.1)
+            } else {
+                Iv::new(r.nominal.0, r.nominal.1)
+            }
+        })
+        .collect();
+    feasible(spec, &circuit.figure_bounds(spec, &wide))
+}
+
 /// The relaxed requirements on the widened box: false when one surely fails.
-fn feasible(spec: &Spec, w: &Figures<Iv>) -> bool {
+pub fn feasible(spec: &Spec, w: &Figures<Iv>) -> bool {
     let s = SLACK;
     if let Some(t) = spec.gain_tolerance {
         let g = spec.gain.abs();
@@ -255,7 +271,9 @@ fn feasible(spec: &Spec, w: &Figures<Iv>) -> bool {
     let (a, b) = (w.dc_out.lo, w.dc_out.hi);
     if a.is_finite() && b.is_finite() {
         let t = spec.bias_target().clamp(a, b);
-        let swing = (t - spec.headroom.0).min(spec.supply - spec.headroom.1 - t);
+        // The op-amp's errors spread the DC range by at least their least over the box.
+        let spread = w.dc_error.lo.max(0.0);
+        let swing = (t - spec.headroom.0).min(spec.supply - spec.headroom.1 - t) - spread;
         let need = if let Some(out) = spec.output_peak {
             out * (1.0 - s) - s
         } else if let Some(inp) = spec.input_peak {
