@@ -76,6 +76,15 @@ fn both_pairs_match_brute_force() {
     check(case_strategy("both", 2, 1), 10, 1);
 }
 
+/// Stocks with several capacitor values: the open coupling capacitors that share one loss
+/// budget are bounded together (`shared_budget_bound`), which only a choice among several
+/// values exercises — a bound that counted the slot being walked among the open ones cut
+/// the best build of the hydrophone example.
+#[test]
+fn several_capacitor_values_match_brute_force() {
+    check(case_strategy("single", 2, 5), 80, 3);
+}
+
 /// A fixed case whose scores are exact decimal sums (costs of 0.05, weights of 0.1), where a
 /// bound can equal the N-th best to the last bit: a search that turned such a tie into a cut
 /// lost builds (the quantity trap of tests/data/cli-qty-one-10k.*, top 5).

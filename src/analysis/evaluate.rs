@@ -328,6 +328,24 @@ pub fn evaluate(
     build: &Build,
     stock: Option<&Stock>,
 ) -> Evaluation {
+    evaluate_with(spec, stage, build, stock, true)
+}
+
+/// [`evaluate`] without the −3 dB corners (found by bisection at every vertex, for the
+/// reports): the same checks, passes and score — every check's verdict reads the losses at the
+/// band's edges, not the corners — for the search to judge a complete build by. Its metrics
+/// hold no corners, so a reported build is evaluated again in full.
+pub fn judge(spec: &Spec, stage: &dyn Circuit, build: &Build, stock: Option<&Stock>) -> Evaluation {
+    evaluate_with(spec, stage, build, stock, false)
+}
+
+fn evaluate_with(
+    spec: &Spec,
+    stage: &dyn Circuit,
+    build: &Build,
+    stock: Option<&Stock>,
+    corners: bool,
+) -> Evaluation {
     let slots = stage.slots();
     let parts: Vec<&Part> = build.parts.iter().collect();
     let v = build.values();
@@ -344,15 +362,26 @@ pub fn evaluate(
         .iter()
         .map(|x| stage.input_resistance(spec, x))
         .fold(f64::INFINITY, f64::min);
-    let low = response::low_corner(stage, spec, &v, &opamp);
-    let high = response::high_corner(stage, spec, &v, &opamp);
-    let low_worst = response::worst_low_corner(stage, spec, &vertices, &opamp, low);
-    let high_worst = if opamp.gbw.is_some() {
-        response::worst_high_corner(stage, spec, &vertices, &opamp, high)
+    let (low, high, low_worst, high_worst) = if corners {
+        let low = response::low_corner(stage, spec, &v, &opamp);
+        let high = response::high_corner(stage, spec, &v, &opamp);
+        let low_worst = response::worst_low_corner(stage, spec, &vertices, &opamp, low);
+        let high_worst = if opamp.gbw.is_some() {
+            response::worst_high_corner(stage, spec, &vertices, &opamp, high)
+        } else {
+            None
+        };
+        (low, high, low_worst, high_worst)
     } else {
-        None
+        (None, None, None, None)
     };
     let loss_at = |x: &[f64], f: f64| response::loss_db(stage, spec, x, &opamp, f);
+    // A passband at all: the band's centre less than 3 dB down at every vertex (where a low
+    // corner exists to be checked).
+    let centre = (f_lo * f_hi).sqrt();
+    let passband = vertices
+        .iter()
+        .all(|x| loss_at(x, centre) < common::THREE_DB);
     let low_loss = loss_at(&v, f_lo);
     let low_loss_worst = vertices
         .iter()
@@ -474,7 +503,18 @@ pub fn evaluate(
         cost: build.cost(),
         networks,
     };
-    let checks = checks(spec, &metrics, &caps, &power, stock.map(|s| s.fits(&parts)));
+    let mut checks = checks(spec, &metrics, &caps, &power, stock.map(|s| s.fits(&parts)));
+    // The corner checks' verdicts: the band's edge at most 3 dB down at every vertex (the
+    // corner lies past the edge exactly then, `response::low_corner` guards it), so that the
+    // verdict needs no corner and `judge` gives the same as `evaluate`.
+    let edge_ok = |loss: f64| loss <= common::THREE_DB * (1.0 + 1e-12);
+    for c in checks.iter_mut() {
+        match c.name.as_str() {
+            "low_corner" => c.pass = passband && edge_ok(metrics.band_low_loss_worst_db),
+            "high_corner" => c.pass = edge_ok(metrics.band_high_loss_worst_db),
+            _ => {}
+        }
+    }
     let pass = checks.iter().all(|c| c.pass);
     Evaluation {
         score: score(spec, stage, build),

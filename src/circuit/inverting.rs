@@ -20,7 +20,7 @@ use super::types::{CapBias, DcErrors, DcPoint, Network, OpAmp, SlotDef};
 use crate::build::SlotValue;
 use crate::interval::{Cx, Iv, Num};
 use crate::objective::Figures;
-use crate::objective::NetworkFigure;
+use crate::objective::{NetworkFigure, Networks};
 use crate::spec::Spec;
 use crate::vocab::PartKind;
 use crate::vocab::StageKind;
@@ -89,13 +89,6 @@ fn gain<T: Num>(spec: &Spec, v: &[T]) -> T {
 /// The figures of [`Circuit::figures`], over plain values or intervals.
 fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
     let (hi, lo, fb) = (v[R_BIAS_HI], v[R_BIAS_LO], v[R_FB]);
-    let plain = |resistance, capacitance, cap_slot| NetworkFigure {
-        resistance,
-        capacitance,
-        plain: true,
-        cap_slot,
-        shelf: None,
-    };
     Figures {
         gain: gain(spec, v),
         input_resistance: v[R_IN],
@@ -103,11 +96,23 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
         dc_out: common::dc_out(spec, hi, lo, fb, &DcErrors::centre(spec)),
         dc_error: common::dc_error(spec, hi, lo, fb),
         bias_current: Some(common::divider_current(spec.supply, hi, lo)),
-        networks: vec![
-            plain(T::c(spec.source_resistance) + v[R_IN], v[C_IN], C_IN),
-            plain(T::c(spec.load), v[C_OUT], C_OUT),
-        ],
+        networks: networks(spec, v),
     }
+}
+
+/// The coupling networks of [`figures`]: c_in with the source and r_in, c_out with the load.
+fn networks<T: Num>(spec: &Spec, v: &[T]) -> Networks<T> {
+    let plain = |resistance, capacitance, cap_slot| NetworkFigure {
+        resistance,
+        capacitance,
+        plain: true,
+        cap_slot,
+        shelf: None,
+    };
+    smallvec::smallvec![
+        plain(T::c(spec.source_resistance) + v[R_IN], v[C_IN], C_IN),
+        plain(T::c(spec.load), v[C_OUT], C_OUT),
+    ]
 }
 
 impl Inverting {
@@ -307,6 +312,10 @@ impl Circuit for Inverting {
 
     fn figure_bounds(&self, spec: &Spec, v: &[Iv]) -> Figures<Iv> {
         figures(spec, v)
+    }
+
+    fn network_bounds(&self, spec: &Spec, v: &[Iv]) -> Networks<Iv> {
+        networks(spec, v)
     }
 
     fn drawing(&self) -> &dyn Drawing {

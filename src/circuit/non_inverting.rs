@@ -20,7 +20,7 @@ use super::types::{CapBias, DcErrors, DcPoint, Network, OpAmp, SlotDef};
 use crate::build::SlotValue;
 use crate::interval::{Cx, Iv, Num};
 use crate::objective::Figures;
-use crate::objective::NetworkFigure;
+use crate::objective::{NetworkFigure, Networks};
 use crate::spec::Spec;
 use crate::vocab::PartKind;
 use crate::vocab::StageKind;
@@ -138,15 +138,6 @@ fn gain<T: Num>(spec: &Spec, v: &[T]) -> T {
 fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
     let (hi, lo, fb) = (v[R_BIAS_HI], v[R_BIAS_LO], v[R_FB]);
     let rp = common::parallel(hi, lo);
-    let network = |resistance, capacitance, plain, cap_slot, shelf| NetworkFigure {
-        resistance,
-        capacitance,
-        plain,
-        cap_slot,
-        shelf,
-    };
-    // The gain leg's shelf: 1 + R_fb/R_g (rising in R_fb, falling in R_g).
-    let ng = T::monotone(|[f, g]| 1.0 + f / g, [fb, v[R_G]], [true, false]);
     Figures {
         gain: gain(spec, v),
         input_resistance: rp,
@@ -154,12 +145,28 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
         dc_out: common::dc_out(spec, hi, lo, fb, &DcErrors::centre(spec)),
         dc_error: common::dc_error(spec, hi, lo, fb),
         bias_current: Some(common::divider_current(spec.supply, hi, lo)),
-        networks: vec![
-            network(T::c(spec.source_resistance) + rp, v[C_IN], true, C_IN, None),
-            network(v[R_G], v[C_G], false, C_G, Some(ng)),
-            network(T::c(spec.load), v[C_OUT], true, C_OUT, None),
-        ],
+        networks: networks(spec, v),
     }
+}
+
+/// The coupling networks of [`figures`]: c_in with the source and the divider, the gain leg
+/// (c_g with r_g, a shelf of ratio 1 + R_fb/R_g — rising in R_fb, falling in R_g), c_out with
+/// the load.
+fn networks<T: Num>(spec: &Spec, v: &[T]) -> Networks<T> {
+    let rp = common::parallel(v[R_BIAS_HI], v[R_BIAS_LO]);
+    let network = |resistance, capacitance, plain, cap_slot, shelf| NetworkFigure {
+        resistance,
+        capacitance,
+        plain,
+        cap_slot,
+        shelf,
+    };
+    let ng = T::monotone(|[f, g]| 1.0 + f / g, [v[R_FB], v[R_G]], [true, false]);
+    smallvec::smallvec![
+        network(T::c(spec.source_resistance) + rp, v[C_IN], true, C_IN, None),
+        network(v[R_G], v[C_G], false, C_G, Some(ng)),
+        network(T::c(spec.load), v[C_OUT], true, C_OUT, None),
+    ]
 }
 
 impl NonInverting {
@@ -506,6 +513,10 @@ impl Circuit for NonInverting {
 
     fn figure_bounds(&self, spec: &Spec, v: &[Iv]) -> Figures<Iv> {
         figures(spec, v)
+    }
+
+    fn network_bounds(&self, spec: &Spec, v: &[Iv]) -> Networks<Iv> {
+        networks(spec, v)
     }
 
     fn drawing(&self) -> &dyn Drawing {

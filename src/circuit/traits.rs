@@ -66,6 +66,12 @@ pub trait Circuit: Send + Sync {
     /// every build whose values lie in the intervals (the generic plan's bounds).
     fn figure_bounds(&self, spec: &Spec, v: &[Iv]) -> Figures<Iv>;
 
+    /// The coupling networks of [`Circuit::figure_bounds`] alone (the search's shared loss
+    /// budget reads them at most nodes): the same intervals, without the other figures.
+    fn network_bounds(&self, spec: &Spec, v: &[Iv]) -> crate::objective::Networks<Iv> {
+        self.figure_bounds(spec, v).networks
+    }
+
     /// The highest worst-case |gain| a build of this circuit can have and still pass the
     /// band-top requirements with the spec's amplifier (`None`: no limit known). A search
     /// relaxation: it must hold for every build the exact analysis passes.

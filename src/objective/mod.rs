@@ -19,7 +19,7 @@ pub mod offset;
 pub mod part_count;
 pub mod term;
 
-pub use term::{Figures, NetworkFigure, Scope, Term};
+pub use term::{Figures, NetworkFigure, Networks, Scope, Term};
 
 use crate::build::Piece;
 use crate::interval::Iv;

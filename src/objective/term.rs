@@ -6,6 +6,9 @@ use crate::interval::Iv;
 use crate::spec::Spec;
 use crate::vocab::{Goal, PartKind};
 
+/// A circuit's coupling networks (a few; kept inline, no allocation per figure).
+pub type Networks<T> = smallvec::SmallVec<[NetworkFigure<T>; 4]>;
+
 /// One coupling network as the generic plan sees it: the resistance and capacitance of its
 /// corner 1/(2πRC), and whether it is a plain first-order high-pass buffered from the rest
 /// (then its loss at a frequency and its corner bound the whole response's from below).
@@ -46,7 +49,7 @@ pub struct Figures<T> {
     /// The current a bias network draws from the supply, where the circuit has one.
     pub bias_current: Option<T>,
     /// The coupling networks, in the order of `Circuit::networks`.
-    pub networks: Vec<NetworkFigure<T>>,
+    pub networks: Networks<T>,
 }
 
 /// Where a term's points come from.

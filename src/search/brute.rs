@@ -34,6 +34,7 @@ pub fn brute_force(req: &Request) -> Result<Outcome, SearchError> {
             quick_rejects: Default::default(),
             full_rejects: Default::default(),
             evaluated,
+            joint_bounds: Default::default(),
         },
     })
 }

@@ -56,8 +56,13 @@ struct LineUse {
 
 struct Dfs<'a> {
     req: &'a Request<'a>,
+    /// Per joint bound (lines, loss budget): how often it ran and how often it raised the
+    /// bound (`worth`).
+    joint_use: [std::cell::Cell<(u64, u64)>; 2],
     /// Solved duals of the shared loss budget, by networks and budget (`shared_budget_bound`).
-    dual_cache: std::cell::RefCell<std::collections::HashMap<Vec<u64>, f64>>,
+    dual_cache: std::cell::RefCell<
+        std::collections::HashMap<DualKey, f64, std::hash::BuildHasherDefault<WordHasher>>,
+    >,
     /// Every slot's range of candidates (for interval figures of a partial build).
     ranges: &'a [generic::SlotRange],
     /// The plan the walks follow: the circuit's own or the generic one.
@@ -103,6 +108,9 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
     };
     let mut outcome = search_tight(&tight, progress)?;
     outcome.stats.gain_max = ranking.derived.gain_max;
+    for r in &mut outcome.builds {
+        r.evaluation = analysis::evaluate(req.spec, req.stage, &r.build, Some(req.stock));
+    }
     primary_scores(req.spec, req.stage, &mut outcome.builds);
     Ok(outcome)
 }
@@ -142,12 +150,11 @@ fn search_tight(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Out
         }
     }
     // What every slot may be: its candidates' range (a locked slot: its part).
+    let kind_ranges = [0, 1].map(|k| owned[k].as_ref().and_then(generic::SlotRange::of_table));
     let ranges = (0..n)
         .map(|i| match locked[i] {
             Some(p) => generic::SlotRange::of([p.slot_value()]),
-            None => owned[kind_index(slots[i].kind)]
-                .as_ref()
-                .and_then(|t| generic::SlotRange::of(t.reals.iter().map(|r| t.slot_value(r)))),
+            None => kind_ranges[kind_index(slots[i].kind)],
         })
         .collect::<Option<Vec<_>>>()
         .ok_or_else(|| no_candidates(req, 0))?;
@@ -291,6 +298,7 @@ fn explore<'a>(
     let mut dfs = Dfs {
         req,
         dual_cache: Default::default(),
+        joint_use: Default::default(),
         ranges,
         plan,
         tables,
@@ -336,6 +344,10 @@ fn explore<'a>(
         if done || !dfs.cut_hit || dfs.stats.truncated || !root.is_finite() {
             break;
         }
+    }
+    for (total, c) in dfs.stats.joint_bounds.iter_mut().zip(&dfs.joint_use) {
+        let (calls, useful) = c.get();
+        *total = (total.0 + calls, total.1 + useful);
     }
     *stats = dfs.stats;
     dfs.top
@@ -544,7 +556,7 @@ impl<'a> Dfs<'a> {
         // with no line yet, their targets for the bound of the lines they need together.
         let mut own = [0.0f64; 2];
         let mut open = [false; 2];
-        let mut joint: [Vec<(f64, f64)>; 2] = [Vec::new(), Vec::new()];
+        let mut joint: [smallvec::SmallVec<[(f64, f64); 6]>; 2] = Default::default();
         let mut eligible = [0, 1].map(|k| self.kind_lines[k] == 0 && except != Some(k));
         for l in level..self.levels.len() {
             let lv = self.levels[l];
@@ -581,28 +593,46 @@ impl<'a> Dfs<'a> {
                 0.0
             };
             let mut kind_total = own[k] + first_line;
-            if eligible[k] && (2..=6).contains(&joint[k].len()) {
+            if eligible[k] && (2..=6).contains(&joint[k].len()) && self.worth(0) {
                 let table = self.tables[k].expect("table");
                 let dp = shared_lines_bound(spec, table, &joint[k], lambda);
+                self.note_gain(0, dp - kind_total);
                 kind_total = kind_total.max(dp);
             }
-            if k == kind_index(PartKind::Capacitor) {
+            if k == kind_index(PartKind::Capacitor) && self.worth(1) {
                 if let Some((shared, covered)) = self.shared_budget_bound(level) {
                     let others: f64 = (level..self.levels.len())
                         .filter(|&l| {
                             let lv = self.levels[l];
                             self.locked[lv.slot].is_none()
                                 && self.req.stage.slots()[lv.slot].kind == PartKind::Capacitor
-                                && !covered.contains(&lv.slot)
+                                && covered >> lv.slot & 1 == 0
                         })
                         .map(|l| self.level_floor(l))
                         .sum();
-                    kind_total = kind_total.max(shared + others + first_line);
+                    let joint_total = shared + others + first_line;
+                    self.note_gain(1, joint_total - kind_total);
+                    kind_total = kind_total.max(joint_total);
                 }
             }
             total += kind_total;
         }
         total
+    }
+
+    /// Whether the joint bound `which` (0: the lines of "large enough" slots, 1: the shared
+    /// loss budget) is still worth its cost: it always is for the first few thousand times;
+    /// after that only while at least one in a hundred raised the bound. A bound left out is
+    /// only a weaker bound, never a wrong one.
+    fn worth(&self, which: usize) -> bool {
+        let (calls, useful) = self.joint_use[which].get();
+        calls < 4096 || useful * 100 >= calls
+    }
+
+    /// Count one use of joint bound `which` that raised the bound by `gain` points.
+    fn note_gain(&self, which: usize, gain: f64) {
+        let (calls, useful) = self.joint_use[which].get();
+        self.joint_use[which].set((calls + 1, useful + u64::from(gain > 1e-3)));
     }
 
     /// A level's own lower bound: its least slot points, and for a one-slot group the least
@@ -630,19 +660,34 @@ impl<'a> Dfs<'a> {
     /// network's points are at least a piece plus `capacitance` points per decade of its
     /// capacitor's low end C, its loss at least that at the largest resistance the partial
     /// build allows; the networks share no part, so their worst losses add. Returns the bound
-    /// and the capacitor slots it covers; `None` with fewer than two open networks.
-    fn shared_budget_bound(&self, level: usize) -> Option<(f64, Vec<usize>)> {
+    /// and the capacitor slots it covers (a mask of slot indices); `None` with fewer than two open networks.
+    fn shared_budget_bound(&self, level: usize) -> Option<(f64, u64)> {
         use crate::circuit::common::{loss_budget, SLACK};
         use crate::interval::Iv;
         use crate::vocab::Goal;
         let spec = self.req.spec;
         let budget = loss_budget(spec)?;
-        let open: Vec<usize> = (level..self.levels.len())
-            .map(|l| self.levels[l].slot)
-            .filter(|&s| self.locked[s].is_none() && self.vals[s].is_none())
-            .collect();
+        // The open slots are those of the levels from `level` on with no part yet — not any
+        // slot without a value: the slot being walked has none while its rest is bounded,
+        // and its points are counted apart.
+        let mut open_mask = 0u64;
+        let mut open_caps = 0;
+        for l in level..self.levels.len() {
+            let s = self.levels[l].slot;
+            if s >= 64 {
+                return None;
+            }
+            if self.locked[s].is_none() && self.vals[s].is_none() {
+                open_mask |= 1 << s;
+                open_caps += usize::from(self.req.stage.slots()[s].kind == PartKind::Capacitor);
+            }
+        }
+        if open_caps < 2 {
+            return None;
+        }
+        let is_open = |s: usize| open_mask >> s & 1 == 1;
         let worst = spec.worst_case();
-        let bx: Vec<Iv> = (0..self.ranges.len())
+        let bx: smallvec::SmallVec<[Iv; 12]> = (0..self.ranges.len())
             .map(|i| match self.vals[i] {
                 Some(v) if worst => Iv::new(v.min, v.max),
                 Some(v) => Iv::point(v.value),
@@ -650,33 +695,29 @@ impl<'a> Dfs<'a> {
                 None => Iv::new(self.ranges[i].nominal.0, self.ranges[i].nominal.1),
             })
             .collect();
-        let figures = self.req.stage.figure_bounds(spec, &bx);
+        let networks = self.req.stage.network_bounds(spec, &bx);
         let f = spec.band.0;
         let tau = 2.0 * std::f64::consts::PI;
         let mut left = budget * (1.0 + SLACK) + SLACK;
-        // (slot, a = log10 of the C whose corner is the band's edge, log10 low, log10 high,
-        // shelf ratio or ∞ for a plain section)
-        let mut nets: Vec<(usize, f64, f64, f64, f64)> = Vec::new();
-        for n in figures
-            .networks
-            .iter()
-            .filter(|n| n.plain || n.shelf.is_some())
-        {
+        // Per open network: (slot, its largest resistance rounded up, its smallest shelf ratio
+        // rounded down, ∞ for a plain section). Rounded the safe way — a larger resistance
+        // and a smaller ratio only lower the bound — to 2⁻⁸ relative (`round_bits`), so that
+        // the nodes below one choice share a solved dual, looked up before any logarithm.
+        let mut nets: smallvec::SmallVec<[(usize, f64, f64); 4]> = Default::default();
+        for n in networks.iter().filter(|n| n.plain || n.shelf.is_some()) {
             // A shelf loses least at its smallest ratio; a plain section is a shelf of ∞.
             let shelf = n.shelf.map_or(f64::INFINITY, |s| s.lo.max(1.0));
             let r = n.resistance.hi;
             if !(r.is_finite() && r > 0.0) {
                 return None;
             }
-            if open.contains(&n.cap_slot) {
-                let a = (1.0 / (tau * r * f)).log10();
-                let range = &self.ranges[n.cap_slot];
-                let mut lo = if worst { range.ends.0 } else { range.nominal.0 };
-                if let Some(max) = spec.corner_low_max {
-                    lo = lo.max(1.0 / (tau * r * max * (1.0 + SLACK)));
-                }
-                let hi = if worst { range.ends.1 } else { range.nominal.1 };
-                nets.push((n.cap_slot, a, lo.log10(), hi.log10(), shelf));
+            if is_open(n.cap_slot) {
+                let shelf = if shelf.is_finite() {
+                    round_bits(shelf, false)
+                } else {
+                    shelf
+                };
+                nets.push((n.cap_slot, round_bits(r, true), shelf));
             } else if self.vals[n.cap_slot].is_some() {
                 // Spent already: the least loss the chosen capacitor allows.
                 let z = (1.0 / (tau * r * n.capacitance.hi * f)).powi(2);
@@ -686,40 +727,39 @@ impl<'a> Dfs<'a> {
         if nets.len() < 2 {
             return None;
         }
-        let covered: Vec<usize> = nets.iter().map(|n| n.0).collect();
-        // Rounded the safe way — a (log10 C at the corner) down, the shelf ratio down, the
-        // budget left up: each lowers the bound — onto a grid, so that the nodes below one
-        // choice share a solved dual.
-        let down = |x: f64, step: f64| (x / step).floor() * step;
-        let up = |x: f64, step: f64| (x / step).ceil() * step;
-        for n in nets.iter_mut() {
-            n.1 = down(n.1, 0.005);
-            if n.4.is_finite() {
-                n.4 = 10f64.powf(down(n.4.log10(), 0.002));
-            }
-        }
-        let left = up(left, 0.001);
-        let key: Vec<u64> = nets
+        let covered = nets.iter().fold(0u64, |m, n| m | 1 << n.0);
+        let left = (left / 0.001).ceil() * 0.001;
+        let key: DualKey = nets
             .iter()
-            .flat_map(|n| [n.1.to_bits(), n.2.to_bits(), n.3.to_bits(), n.4.to_bits()])
+            .flat_map(|n| [n.0 as u64, n.1.to_bits(), n.2.to_bits()])
             .chain([left.to_bits()])
             .collect();
         if let Some(&v) = self.dual_cache.borrow().get(&key) {
             return Some((v, covered));
         }
+        // (a = log10 of the C whose corner is the band's edge at that resistance, log10 of
+        // the capacitor's low end and high end, shelf ratio)
+        let shared: smallvec::SmallVec<[(f64, f64, f64, f64); 4]> = nets
+            .iter()
+            .map(|&(slot, r, shelf)| {
+                let range = &self.ranges[slot];
+                let mut lo = if worst { range.ends.0 } else { range.nominal.0 };
+                if let Some(max) = spec.corner_low_max {
+                    lo = lo.max(1.0 / (tau * r * max * (1.0 + SLACK)));
+                }
+                let hi = if worst { range.ends.1 } else { range.nominal.1 };
+                let a = (1.0 / (tau * r * f)).log10();
+                (a, lo.log10(), hi.log10(), shelf)
+            })
+            .collect();
         let pc = spec.goals.weight(Goal::PartCount);
         let w = spec.goals.weight(Goal::Capacitance);
-        let shared: Vec<(f64, f64, f64, f64)> = nets
-            .iter()
-            .map(|&(_, a, lo, hi, shelf)| (a, lo, hi, shelf))
-            .collect();
         let bound = shared_budget_dual(pc, w, left, &shared);
-        let best = (bound, 0.0f64);
-        if best.0.is_nan() {
+        if bound.is_nan() {
             return None;
         }
         // +∞: some network cannot meet the budget left at all.
-        let bound = best.0 * (1.0 - 1e-9);
+        let bound = bound * (1.0 - 1e-9);
         let mut cache = self.dual_cache.borrow_mut();
         if cache.len() > 100_000 {
             cache.clear();
@@ -825,8 +865,9 @@ impl<'a> Dfs<'a> {
             *self.stats.quick_rejects.entry(check).or_insert(0) += 1;
             return;
         }
+        // The verdict and score without the corners; the builds reported get them at the end.
         let evaluation =
-            analysis::evaluate(self.req.spec, self.req.stage, &build, Some(self.req.stock));
+            analysis::judge(self.req.spec, self.req.stage, &build, Some(self.req.stock));
         debug_assert!(
             (evaluation.score - acc).abs() <= 1e-9 * acc.abs().max(1.0),
             "search shares {acc} != objective {}",
@@ -871,20 +912,22 @@ fn shared_lines_bound(spec: &Spec, table: &Table, slots: &[(f64, f64)], lambda: 
         p
     };
     let n = slots.len();
-    let cost = |mask: usize| -> f64 {
-        let members: Vec<&(f64, f64)> = (0..n)
-            .filter(|i| mask >> i & 1 == 1)
-            .map(|i| &slots[i])
-            .collect();
-        if members.len() == 1 {
-            return lambda + members[0].1;
-        }
-        let top = members.iter().map(|m| m.0).fold(0.0, f64::max);
-        let floor = piece_at_least(top / f);
-        lambda + members.iter().map(|m| m.1.max(floor)).sum::<f64>()
-    };
     let full = (1usize << n) - 1;
-    let mut best = vec![f64::INFINITY; full + 1];
+    // Every block's cost once (at most 2⁶ of them, no allocation): a slot alone pays its own
+    // bound and a line; slots sharing a line pay at least one piece of the largest value
+    // among them.
+    let mut cost = [0.0f64; 64];
+    for (mask, c) in cost.iter_mut().enumerate().take(full + 1).skip(1) {
+        let members = (0..n).filter(|i| mask >> i & 1 == 1);
+        *c = if mask.count_ones() == 1 {
+            lambda + slots[mask.trailing_zeros() as usize].1
+        } else {
+            let top = members.clone().map(|i| slots[i].0).fold(0.0, f64::max);
+            let floor = piece_at_least(top / f);
+            lambda + members.map(|i| slots[i].1.max(floor)).sum::<f64>()
+        };
+    }
+    let mut best = [f64::INFINITY; 64];
     best[0] = 0.0;
     for mask in 1..=full {
         let low = mask & mask.wrapping_neg();
@@ -893,7 +936,7 @@ fn shared_lines_bound(spec: &Spec, table: &Table, slots: &[(f64, f64)], lambda: 
         let mut sub = rest;
         loop {
             let block = sub | low;
-            let v = cost(block) + best[mask ^ block];
+            let v = cost[block] + best[mask ^ block];
             if v < best[mask] {
                 best[mask] = v;
             }
@@ -998,6 +1041,48 @@ fn shared_budget_dual(pc: f64, w: f64, left: f64, nets: &[(f64, f64, f64, f64)])
         fixed + dual.max(at_lo)
     };
     bound
+}
+
+/// The key of a solved dual: the networks' slots and rounded figures and the budget left,
+/// as bits.
+type DualKey = smallvec::SmallVec<[u64; 13]>;
+
+/// A positive finite `x` with its mantissa cut to 8 bits (2⁻⁸ relative): rounded `up` or
+/// down, exactly (no arithmetic beyond the bits), so that nearby values share a key.
+fn round_bits(x: f64, up: bool) -> f64 {
+    const DROP: u32 = 52 - 8;
+    let bits = x.to_bits();
+    let mask = (1u64 << DROP) - 1;
+    if bits & mask == 0 {
+        return x;
+    }
+    let down = bits & !mask;
+    // One step up of the kept bits (a carry into the exponent is still the next value up).
+    f64::from_bits(if up { down + (1 << DROP) } else { down })
+}
+
+/// A hasher for keys of whole words (the dual cache's): multiply-rotate per word (the
+/// "FxHash" mixing step), far cheaper than the default SipHash for a cache local to one search.
+#[derive(Default)]
+struct WordHasher(u64);
+
+impl std::hash::Hasher for WordHasher {
+    fn finish(&self) -> u64 {
+        self.0
+    }
+    fn write(&mut self, bytes: &[u8]) {
+        for chunk in bytes.chunks(8) {
+            let mut w = [0u8; 8];
+            w[..chunk.len()].copy_from_slice(chunk);
+            self.write_u64(u64::from_le_bytes(w));
+        }
+    }
+    fn write_u64(&mut self, x: u64) {
+        self.0 = (self.0.rotate_left(5) ^ x).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
+    }
+    fn write_usize(&mut self, x: usize) {
+        self.write_u64(x as u64);
+    }
 }
 
 /// The loss in dB at the band's edge of a section with z = (f_c/f)² — a plain first-order

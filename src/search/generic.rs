@@ -43,6 +43,36 @@ pub struct SlotRange {
 }
 
 impl SlotRange {
+    /// A range holding every realisation of a table, from its nominal values and its pieces'
+    /// widest tolerance: a pair's relative deviation is at most its pieces' larger one (series
+    /// and parallel combinations are weighted means of the pieces' deviations), so the ends
+    /// lie within value·(1 ± that tolerance).
+    pub fn of_table(table: &super::table::Table) -> Option<SlotRange> {
+        let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+        for r in &table.reals {
+            if r.value < lo {
+                lo = r.value;
+            }
+            if r.value > hi {
+                hi = r.value;
+            }
+        }
+        if lo > hi {
+            return None;
+        }
+        let tol = table
+            .pieces
+            .iter()
+            .map(|p| p.piece.tolerance)
+            .fold(0.0, f64::max);
+        Some(SlotRange {
+            nominal: (lo, hi),
+            ends: (lo * (1.0 - tol), hi * (1.0 + tol)),
+            below: tol,
+            above: tol,
+        })
+    }
+
     /// The range of a list of candidates (`None` when empty).
     pub fn of(values: impl IntoIterator<Item = SlotValue>) -> Option<SlotRange> {
         let mut r: Option<SlotRange> = None;

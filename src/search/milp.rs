@@ -59,6 +59,9 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
         ..*req
     };
     let mut outcome = search_ranked(&r, progress)?;
+    for b in &mut outcome.builds {
+        b.evaluation = analysis::evaluate(req.spec, req.stage, &b.build, Some(req.stock));
+    }
     super::request::primary_scores(req.spec, req.stage, &mut outcome.builds);
     Ok(outcome)
 }
@@ -180,7 +183,7 @@ fn search_ranked(
                 "the solver's choice takes more pieces than the inventory holds".into(),
             ));
         }
-        let evaluation = analysis::evaluate(spec, stage, &build, Some(req.stock));
+        let evaluation = analysis::judge(spec, stage, &build, Some(req.stock));
         stats.evaluated += 1;
         if evaluation.pass && floor > evaluation.score + 1e-9 * evaluation.score.abs().max(1.0) {
             return Err(SearchError::Solver(format!(

@@ -69,6 +69,9 @@ pub struct Stats {
     pub gain_max: Option<f64>,
     /// Complete builds judged by the exact analysis.
     pub evaluated: u64,
+    /// The joint bounds of the open slots (the lines of "large enough" slots, the shared
+    /// loss budget): how often each ran and how often it raised the bound.
+    pub joint_bounds: [(u64, u64); 2],
 }
 
 /// What a search answers: the best builds, best first, and what it did.
