@@ -282,8 +282,9 @@ impl NonInverting {
     /// of the loss budget taken by the input network. The leg is not a plain high-pass (its
     /// zero eases the loss). With x = 1/(ωC), |G|² = ((R_g+R_fb)² + x²)/(R_g² + x²); loss ≤ L
     /// (q = 10^(L/10)) solves to x² ≤ A·B·(q−1)/(A − q·B) with A = (R_g+R_fb)², B = R_g², at
-    /// nominal R_fb, R_g (one vertex of the worst case, so a relaxation).
-    fn gain_leg_need(spec: &Spec, r_fb: &SlotValue, r_g: &SlotValue, spent: f64) -> Option<f64> {
+    /// nominal R_fb, R_g (one vertex of the worst case, so a relaxation). `r_fb` is R_fb's
+    /// nominal value, or a lower bound of it: the need grows with A, so with R_fb.
+    fn gain_leg_need(spec: &Spec, r_fb: f64, r_g: &SlotValue, spent: f64) -> Option<f64> {
         let by_corner = needed_capacitance(spec, end(spec, r_g, false), false);
         let by_loss = common::loss_budget(spec).map(|max| {
             let left = max * (1.0 + SLACK) + SLACK - spent;
@@ -291,7 +292,7 @@ impl NonInverting {
                 return f64::INFINITY;
             }
             let q = 10f64.powf(left / 10.0);
-            let (a, b) = ((r_g.value + r_fb.value).powi(2), r_g.value.powi(2));
+            let (a, b) = ((r_g.value + r_fb).powi(2), r_g.value.powi(2));
             if a <= q * b {
                 return 0.0;
             }
@@ -728,7 +729,15 @@ impl SearchPlan for NonInverting {
             Which::CapG => {
                 let spent = Self::in_loss(spec, parts).unwrap_or(0.0);
                 let need = match (get(parts, R_FB), get(parts, R_G)) {
-                    (Some(f), Some(g)) => Self::gain_leg_need(spec, f, g, spent),
+                    (Some(f), Some(g)) => Self::gain_leg_need(spec, f.value, g, spent),
+                    // r_g chosen, r_fb open: the gain window's floor bounds R_fb's nominal
+                    // value from below (the worst-case lowest gain is under the nominal one,
+                    // and a divider's attenuation only lowers it further, so
+                    // 1 + R_fb/R_g ≥ floor), and the need grows with R_fb.
+                    (None, Some(g)) => {
+                        let rho = (Self::gain_floor(spec) - 1.0).max(0.0);
+                        Self::gain_leg_need(spec, rho * g.value, g, spent)
+                    }
                     // Before the gain pair: the corner limit against the largest r_g.
                     _ => {
                         let form = GainForm {
