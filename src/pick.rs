@@ -332,7 +332,7 @@ pub fn pick(
     }
     let proven = !outcome.stats.truncated;
     let diagnosis = if outcome.builds.is_empty() {
-        Some(diagnose::diagnose(&req)?)
+        Some(diagnose::diagnose(&req, progress)?)
     } else {
         None
     };

@@ -1,18 +1,56 @@
-//! The progress bar on a terminal: shown once a search has run for a second, fed by the
-//! library's progress callback, cleared when the search ends.
+//! The progress bar on a terminal: shown once the work has run for a second, fed by the
+//! library's progress callback through every phase (the search's top slot, its node counts at
+//! any depth, the diagnosis, the MILP engine's solves), ticking on its own so the clock moves
+//! between reports, cleared when the work ends.
 
 use indicatif::{ProgressBar, ProgressStyle};
 use std::time::{Duration, Instant};
 use stockfit::circuit::Circuit;
 use stockfit::search::Progress;
 
-/// A progress bar that appears only on a terminal, and only for a search that takes a while.
+/// Which phase the bar is drawing, so a change of phase restyles it.
+#[derive(Clone, Copy, PartialEq, Eq)]
+enum Phase {
+    Search,
+    Diagnosis,
+    Milp,
+}
+
+/// A progress bar that appears only on a terminal, and only for work that takes a while.
 pub struct Bar<'a> {
     show: bool,
     started: Instant,
-    bar: Option<ProgressBar>,
+    bar: Option<(ProgressBar, Phase)>,
     circuit: &'a dyn Circuit,
     top: usize,
+}
+
+/// "1.2 M" for large counts, the count itself below ten thousand.
+fn count(n: u64) -> String {
+    match n {
+        0..=9_999 => n.to_string(),
+        10_000..=999_999 => format!("{:.0} k", n as f64 / 1e3),
+        _ => format!("{:.1} M", n as f64 / 1e6),
+    }
+}
+
+fn best(top: usize, best: f64) -> String {
+    match (best.is_finite(), top) {
+        (true, 1) => format!("best so far {best:.4} points"),
+        (true, _) => format!("{}{} best so far {best:.4} points", top, ordinal(top)),
+        (false, 1) => "no build so far".to_string(),
+        (false, _) => format!("fewer than {top} builds so far"),
+    }
+}
+
+fn ordinal(n: usize) -> &'static str {
+    match (n % 10, n % 100) {
+        (_, 11..=13) => "th",
+        (1, _) => "st",
+        (2, _) => "nd",
+        (3, _) => "rd",
+        _ => "th",
+    }
 }
 
 impl<'a> Bar<'a> {
@@ -27,54 +65,98 @@ impl<'a> Bar<'a> {
         }
     }
 
-    /// What the search reports.
-    pub fn update(&mut self, p: Progress) {
-        if !self.show {
-            return;
+    /// The bar for `phase`, made (or restyled) on the first report of that phase.
+    fn bar(&mut self, phase: Phase) -> &ProgressBar {
+        if self.bar.as_ref().is_some_and(|(_, p)| *p != phase) {
+            if let Some((b, _)) = self.bar.take() {
+                b.finish_and_clear();
+            }
         }
-        if self.bar.is_none() && self.started.elapsed() > Duration::from_secs(1) {
-            let b = match p {
-                Progress::Walk { total, .. } => {
-                    let b = ProgressBar::new(total as u64);
-                    if let Ok(style) = ProgressStyle::with_template(
-                        "searching {msg} {wide_bar} {pos}/{len} ({eta})",
-                    ) {
-                        b.set_style(style);
-                    }
-                    b
-                }
-                Progress::Milp { .. } => ProgressBar::new_spinner(),
+        let (b, _) = self.bar.get_or_insert_with(|| {
+            let (b, template) = match phase {
+                Phase::Search => (
+                    ProgressBar::new(1),
+                    "searching {prefix} {wide_bar} {pos}/{len} · {msg} [{elapsed}]",
+                ),
+                Phase::Diagnosis => (
+                    ProgressBar::new(1),
+                    "nothing passes; trying each requirement alone: {prefix} {wide_bar} {pos}/{len} [{elapsed}]",
+                ),
+                Phase::Milp => (ProgressBar::new_spinner(), "{spinner} {msg} [{elapsed}]"),
             };
-            self.bar = Some(b);
-        }
-        let Some(b) = &self.bar else {
+            if let Ok(style) = ProgressStyle::with_template(template) {
+                b.set_style(style);
+            }
+            // The clock and spinner move between reports too.
+            b.enable_steady_tick(Duration::from_millis(200));
+            (b, phase)
+        });
+        b
+    }
+
+    /// What the library reports.
+    pub fn update(&mut self, p: Progress) {
+        if !self.show || self.started.elapsed() < Duration::from_secs(1) {
             return;
-        };
+        }
+        let top = self.top;
         match p {
             Progress::Walk { slot, done, total } => {
-                b.set_message(format!("{} candidates", self.circuit.slots()[slot].name));
+                let name = self.circuit.slots()[slot].name;
+                let b = self.bar(Phase::Search);
+                b.set_prefix(format!("{name} candidates"));
                 b.set_length(total as u64);
                 b.set_position(done as u64);
             }
-            Progress::Milp { solved, best } => {
-                let best = if best.is_finite() {
-                    format!("{best:.4} points")
-                } else {
-                    "none yet".to_string()
-                };
+            Progress::Nodes {
+                nodes,
+                judged,
+                best: b_,
+            } => {
+                let b = self.bar(Phase::Search);
                 b.set_message(format!(
-                    "MILP: {solved} models solved, {}th best so far {best}",
-                    self.top
+                    "{} nodes, {} builds judged, {}",
+                    count(nodes),
+                    count(judged),
+                    best(top, b_)
                 ));
-                b.tick();
+            }
+            Progress::Diagnosis { tried, total, key } => {
+                let b = self.bar(Phase::Diagnosis);
+                b.set_prefix(key.to_string());
+                b.set_length(total as u64);
+                b.set_position(tried as u64);
+            }
+            Progress::Milp { solved, best: b_ } => {
+                let b = self.bar(Phase::Milp);
+                b.set_message(format!("MILP: {solved} models solved, {}", best(top, b_)));
             }
         }
     }
 
     /// Clear the bar.
     pub fn finish(&mut self) {
-        if let Some(b) = self.bar.take() {
+        if let Some((b, _)) = self.bar.take() {
             b.finish_and_clear();
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn counts_read_as_a_person_would() {
+        assert_eq!(count(512), "512");
+        assert_eq!(count(45_300), "45 k");
+        assert_eq!(count(2_140_000), "2.1 M");
+        assert_eq!(best(5, 2.19123), "5th best so far 2.1912 points");
+        assert_eq!(best(1, f64::INFINITY), "no build so far");
+        assert_eq!(best(3, f64::INFINITY), "fewer than 3 builds so far");
+        assert_eq!(best(1, 0.5), "best so far 0.5000 points");
+        assert_eq!(ordinal(2), "nd");
+        assert_eq!(ordinal(12), "th");
+        assert_eq!(ordinal(21), "st");
     }
 }

@@ -59,6 +59,10 @@ struct Dfs<'a> {
     /// Per joint bound (lines, loss budget): how often it ran and how often it raised the
     /// bound (`worth`).
     joint_use: [std::cell::Cell<(u64, u64)>; 2],
+    /// A raise of a bound by more than this counts as useful (`note_gain`): a thousandth of
+    /// the smallest goal weight, so that a ranking by tie-break weights alone (10⁻⁶ of the
+    /// defaults, `request::TIE_BREAK`) keeps the joint bounds that pay at its own scale.
+    raise_eps: f64,
     /// Solved duals of the shared loss budget, by networks and budget (`shared_budget_bound`).
     dual_cache: std::cell::RefCell<
         std::collections::HashMap<DualKey, f64, std::hash::BuildHasherDefault<WordHasher>>,
@@ -299,6 +303,7 @@ fn explore<'a>(
         req,
         dual_cache: Default::default(),
         joint_use: Default::default(),
+        raise_eps: raise_eps(spec),
         ranges,
         plan,
         tables,
@@ -410,10 +415,21 @@ impl<'a> Dfs<'a> {
                 break;
             }
             // A clock read every 1 024 nodes: far below a millisecond between looks.
-            if self.stats.nodes % 1024 == 0 && self.req.stop.armed() && self.req.stop.now() {
-                self.stats.truncated = true;
-                self.stats.stopped = true;
-                break;
+            if self.stats.nodes % 1024 == 0 {
+                if self.req.stop.armed() && self.req.stop.now() {
+                    self.stats.truncated = true;
+                    self.stats.stopped = true;
+                    break;
+                }
+                // Every 32 768 nodes (a few milliseconds), whatever the level: a deep search
+                // whose top slot moves slowly still shows counts that move.
+                if self.stats.nodes % 32_768 == 0 && self.stats.nodes > 0 {
+                    (self.progress)(Progress::Nodes {
+                        nodes: self.stats.nodes,
+                        judged: self.stats.evaluated,
+                        best: self.top.bound(),
+                    });
+                }
             }
             let Some(item) = walk.next_below(self.bound() - acc - rest) else {
                 if !walk.exhausted() {
@@ -429,7 +445,9 @@ impl<'a> Dfs<'a> {
                 }
             }
             read += 1;
-            if first && read % 4096 == 0 {
+            // Every 64 reads of the top slot: a short series (E12 has 61 values over five
+            // decades) still moves the bar, a long table costs a call per 64 reads.
+            if first && read % 64 == 0 {
                 (self.progress)(Progress::Walk {
                     slot: lv.slot,
                     done: read,
@@ -632,7 +650,7 @@ impl<'a> Dfs<'a> {
     /// Count one use of joint bound `which` that raised the bound by `gain` points.
     fn note_gain(&self, which: usize, gain: f64) {
         let (calls, useful) = self.joint_use[which].get();
-        self.joint_use[which].set((calls + 1, useful + u64::from(gain > 1e-3)));
+        self.joint_use[which].set((calls + 1, useful + u64::from(gain > self.raise_eps)));
     }
 
     /// A level's own lower bound: its least slot points, and for a one-slot group the least
@@ -1046,6 +1064,21 @@ fn shared_budget_dual(pc: f64, w: f64, left: f64, nets: &[(f64, f64, f64, f64)])
 /// The key of a solved dual: the networks' slots and rounded figures and the budget left,
 /// as bits.
 type DualKey = smallvec::SmallVec<[u64; 13]>;
+
+/// A thousandth of the smallest positive goal weight of the ranking spec (10⁻³ with the
+/// defaults' unit weights), the least raise of a bound that counts as paying.
+fn raise_eps(spec: &Spec) -> f64 {
+    let least = crate::vocab::Goal::ALL
+        .iter()
+        .map(|&g| spec.goals.weight(g))
+        .filter(|&w| w > 0.0)
+        .fold(f64::INFINITY, f64::min);
+    if least.is_finite() {
+        1e-3 * least.min(1.0)
+    } else {
+        1e-3
+    }
+}
 
 /// A positive finite `x` with its mantissa cut to 8 bits (2⁻⁸ relative): rounded `up` or
 /// down, exactly (no arithmetic beyond the bits), so that nearby values share a key.

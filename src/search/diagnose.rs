@@ -7,7 +7,7 @@
 //! judged against the real spec — shows what else fails.
 
 use super::dfs::search;
-use super::request::{ranking_spec, ruled_out, Ranked, Request, SearchError};
+use super::request::{ranking_spec, ruled_out, Progress, Ranked, Request, SearchError};
 use crate::analysis::{self, Check};
 use crate::build::{Build, Part};
 use crate::spec::Spec;
@@ -547,7 +547,10 @@ pub const DIAGNOSIS_TIME: std::time::Duration = std::time::Duration::from_millis
 
 /// Explain an infeasible request: a few dozen bounded searches at most, and at most
 /// [`DIAGNOSIS_TIME`] (or the request's own stop, when sooner).
-pub fn diagnose(req: &Request) -> Result<Diagnosis, SearchError> {
+pub fn diagnose(
+    req: &Request,
+    progress: &mut dyn FnMut(Progress),
+) -> Result<Diagnosis, SearchError> {
     SEARCHES_LEFT.with(|n| n.set(DIAGNOSIS_SEARCHES));
     let deadline = std::time::Instant::now() + DIAGNOSIS_TIME;
     let stop = super::request::Stop {
@@ -571,7 +574,13 @@ pub fn diagnose(req: &Request) -> Result<Diagnosis, SearchError> {
     };
     let mut order: Vec<&Knob> = KNOBS.iter().filter(|k| blamed(k)).collect();
     order.extend(KNOBS.iter().filter(|k| !blamed(k)));
-    for knob in order {
+    let total = order.len();
+    for (tried, knob) in order.into_iter().enumerate() {
+        progress(Progress::Diagnosis {
+            tried,
+            total,
+            key: knob.key,
+        });
         let Some(limit) = (knob.get)(req.spec) else {
             continue;
         };
@@ -762,7 +771,7 @@ mod tests {
             search(&req, &mut |_| {}).unwrap().builds.is_empty(),
             "infeasible"
         );
-        diagnose(&req).unwrap()
+        diagnose(&req, &mut |_| {}).unwrap()
     }
 
     #[test]

@@ -34,6 +34,26 @@ pub enum Progress {
         /// Its candidates in all.
         total: usize,
     },
+    /// The walk search, now and then whatever level it is at: nodes visited, builds judged
+    /// and the N-th best score so far (∞ until N builds), so a deep search still moves.
+    Nodes {
+        /// Search nodes visited so far.
+        nodes: u64,
+        /// Complete builds judged so far.
+        judged: u64,
+        /// The N-th best score found, ∞ until N builds are found.
+        best: f64,
+    },
+    /// The diagnosis after a search that found nothing: requirements tried so far, of how
+    /// many, and the key of the one being tried.
+    Diagnosis {
+        /// Requirements tried so far.
+        tried: usize,
+        /// Requirements to try.
+        total: usize,
+        /// The spec key of the requirement being tried now.
+        key: &'static str,
+    },
     /// The MILP engine: models solved so far, and the N-th best score found (∞ until N).
     Milp {
         /// Models solved so far.

@@ -301,7 +301,8 @@ impl Sorted {
 
 /// Split ids 0..n into buckets of nearly equal key, so that each bucket's walk reads a bound
 /// close to the true key: at most `MAX_BUCKETS` buckets, each at most `width` wide, the width
-/// doubling from 0.01 points until they fit; each bucket sorted by coordinate.
+/// doubling from 0.01 points (or from the keys' span / 1024 when they span less) until they
+/// fit; each bucket sorted by coordinate.
 fn bucketed(coord: &[f64], key: &[f64]) -> Vec<Sorted> {
     let (count, bucket) = buckets_of(key);
     let mut parts: Vec<Vec<u32>> = count.iter().map(|&c| Vec::with_capacity(c)).collect();
@@ -340,7 +341,16 @@ fn buckets_of(key: &[f64]) -> (Vec<usize>, Vec<u8>) {
             }
         }
     }
-    let mut width = 0.01;
+    // 0.01 points is fine against the default weights; keys that all lie within it (goals
+    // weighted only at the tie-break scale, 10⁻⁶ of the defaults) start from a width to their
+    // own span, or every candidate would share one bucket and the walk would read its keys
+    // as the least of them.
+    let span = keys[keys.len() - 1] - keys[0];
+    let mut width = if span < 0.01 && span > 0.0 {
+        span / 1024.0
+    } else {
+        0.01
+    };
     let starts = loop {
         let mut starts = vec![keys[0]];
         for &k in &keys {
