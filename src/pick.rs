@@ -321,7 +321,9 @@ pub fn pick(
         stop: options.stop.clone(),
     };
     let mut outcome = search::run(&req, options.engine, progress)?;
-    for r in &mut outcome.builds {
+    let total = outcome.builds.len();
+    for (done, r) in outcome.builds.iter_mut().enumerate() {
+        progress(Progress::Figures { done, total });
         analysis::complete(
             spec,
             circuit,

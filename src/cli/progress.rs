@@ -13,6 +13,7 @@ use stockfit::search::Progress;
 enum Phase {
     Search,
     Diagnosis,
+    Figures,
     Milp,
 }
 
@@ -36,10 +37,10 @@ fn count(n: u64) -> String {
 
 fn best(top: usize, best: f64) -> String {
     match (best.is_finite(), top) {
-        (true, 1) => format!("best so far {best:.4} points"),
-        (true, _) => format!("{}{} best so far {best:.4} points", top, ordinal(top)),
-        (false, 1) => "no build so far".to_string(),
-        (false, _) => format!("fewer than {top} builds so far"),
+        (true, 1) => format!("best {best:.4} points"),
+        (true, _) => format!("{}{} best {best:.4} points", top, ordinal(top)),
+        (false, 1) => "none passes yet".to_string(),
+        (false, _) => format!("fewer than {top} pass yet"),
     }
 }
 
@@ -72,18 +73,27 @@ impl<'a> Bar<'a> {
                 b.finish_and_clear();
             }
         }
+        let started = self.started;
         let (b, _) = self.bar.get_or_insert_with(|| {
             let (b, template) = match phase {
+                // The message last: `wide_msg` takes the width left and is cut to it, so
+                // the bar stays one line on a narrow terminal.
                 Phase::Search => (
-                    ProgressBar::new(1),
-                    "searching {prefix} {wide_bar} {pos}/{len} · {msg} [{elapsed}]",
+                    ProgressBar::new(0),
+                    "searching {prefix} {pos}/{len} {bar:12} [{elapsed}] {wide_msg}",
                 ),
                 Phase::Diagnosis => (
-                    ProgressBar::new(1),
-                    "nothing passes; trying each requirement alone: {prefix} {wide_bar} {pos}/{len} [{elapsed}]",
+                    ProgressBar::new(0),
+                    "nothing passes; trying each requirement alone {pos}/{len} {bar:12} [{elapsed}] {wide_msg}",
                 ),
-                Phase::Milp => (ProgressBar::new_spinner(), "{spinner} {msg} [{elapsed}]"),
+                Phase::Figures => (
+                    ProgressBar::new(0),
+                    "noise, DC budget and yield of each build {pos}/{len} {bar:12} [{elapsed}]",
+                ),
+                Phase::Milp => (ProgressBar::new_spinner(), "{spinner} [{elapsed}] {wide_msg}"),
             };
+            // The clock counts from the start of the work, not from the bar.
+            let b = b.with_elapsed(started.elapsed());
             if let Ok(style) = ProgressStyle::with_template(template) {
                 b.set_style(style);
             }
@@ -104,7 +114,7 @@ impl<'a> Bar<'a> {
             Progress::Walk { slot, done, total } => {
                 let name = self.circuit.slots()[slot].name;
                 let b = self.bar(Phase::Search);
-                b.set_prefix(format!("{name} candidates"));
+                b.set_prefix(name.to_string());
                 b.set_length(total as u64);
                 b.set_position(done as u64);
             }
@@ -115,7 +125,7 @@ impl<'a> Bar<'a> {
             } => {
                 let b = self.bar(Phase::Search);
                 b.set_message(format!(
-                    "{} nodes, {} builds judged, {}",
+                    "{} nodes · {} judged · {}",
                     count(nodes),
                     count(judged),
                     best(top, b_)
@@ -123,9 +133,14 @@ impl<'a> Bar<'a> {
             }
             Progress::Diagnosis { tried, total, key } => {
                 let b = self.bar(Phase::Diagnosis);
-                b.set_prefix(key.to_string());
+                b.set_message(key.to_string());
                 b.set_length(total as u64);
                 b.set_position(tried as u64);
+            }
+            Progress::Figures { done, total } => {
+                let b = self.bar(Phase::Figures);
+                b.set_length(total as u64);
+                b.set_position(done as u64);
             }
             Progress::Milp { solved, best: b_ } => {
                 let b = self.bar(Phase::Milp);
@@ -151,10 +166,10 @@ mod tests {
         assert_eq!(count(512), "512");
         assert_eq!(count(45_300), "45 k");
         assert_eq!(count(2_140_000), "2.1 M");
-        assert_eq!(best(5, 2.19123), "5th best so far 2.1912 points");
-        assert_eq!(best(1, f64::INFINITY), "no build so far");
-        assert_eq!(best(3, f64::INFINITY), "fewer than 3 builds so far");
-        assert_eq!(best(1, 0.5), "best so far 0.5000 points");
+        assert_eq!(best(5, 2.19123), "5th best 2.1912 points");
+        assert_eq!(best(1, f64::INFINITY), "none passes yet");
+        assert_eq!(best(3, f64::INFINITY), "fewer than 3 pass yet");
+        assert_eq!(best(1, 0.5), "best 0.5000 points");
         assert_eq!(ordinal(2), "nd");
         assert_eq!(ordinal(12), "th");
         assert_eq!(ordinal(21), "st");

@@ -360,8 +360,9 @@ fn explore<'a>(
 
 impl<'a> Dfs<'a> {
     /// Search from `level` on with `acc` points so far; `plan` is this level's walk plan when
-    /// the screen before it (`screen_next`) has already made it.
-    fn descend(&mut self, level: usize, acc: f64, plan: Option<WalkPlan<'a>>) {
+    /// the screen before it (`screen_next`) has already made it, with the bound of the levels
+    /// after it that the screen computed.
+    fn descend(&mut self, level: usize, acc: f64, pre: Option<(WalkPlan<'a>, f64)>) {
         if level == self.levels.len() {
             self.leaf(acc);
             return;
@@ -393,13 +394,19 @@ impl<'a> Dfs<'a> {
         // candidate is taken. First the cheap static bound; the look-ahead of the open
         // one-slot groups (which asks the stage) only once a candidate passes that.
         let mut rest = self.rest_static[level + 1] + self.lines_lb(level + 1, Some(ki));
-        let plan = plan.unwrap_or_else(|| {
-            self.plan
-                .walk(spec, lv.group, lv.k, &self.vals)
-                .inside_window()
-        });
-        let mut walk = Walk::new(spec, table, plan, &self.used[ki], self.bound() - acc - rest);
         let mut tight = false;
+        let plan = match pre {
+            Some((plan, tight_rest)) => {
+                rest = rest.max(tight_rest);
+                tight = true;
+                plan
+            }
+            None => self
+                .plan
+                .walk(spec, lv.group, lv.k, &self.vals)
+                .inside_window(),
+        };
+        let mut walk = Walk::new(spec, table, plan, &self.used[ki], self.bound() - acc - rest);
         let lambda = crate::objective::line_weight(spec);
         let first = self.whole
             && self.levels[..level]
@@ -447,7 +454,7 @@ impl<'a> Dfs<'a> {
             read += 1;
             // Every 64 reads of the top slot: a short series (E12 has 61 values over five
             // decades) still moves the bar, a long table costs a call per 64 reads.
-            if first && read % 64 == 0 {
+            if first && (read % 64 == 0 || read == 1) {
                 (self.progress)(Progress::Walk {
                     slot: lv.slot,
                     done: read,
@@ -501,9 +508,13 @@ impl<'a> Dfs<'a> {
     /// bisections, `Walk::floor`) can still lead under the bound, with this slot chosen and
     /// `score` so far. Most first slots of a pair on a large stock are dropped here, and most
     /// complete gain pairs before the divider's walk, for much less than a walk costs.
-    /// `None` when nothing can follow; else the next slot's walk plan when one was made, for
-    /// its walk to use.
-    fn screen_next(&mut self, level: usize, score: f64) -> Option<Option<WalkPlan<'a>>> {
+    /// `None` when nothing can follow; else the next slot's walk plan when one was made, with
+    /// the bound of the levels after it given the parts chosen so far (`rest_lb`, which its
+    /// walk would compute at its first candidate), for its walk to use. That bound is asked
+    /// only once the cheap static one lets the next slot through, and screens again: most
+    /// gain-leg resistors whose coupling capacitor would cost too much stop here rather than
+    /// after a walk is built.
+    fn screen_next(&mut self, level: usize, score: f64) -> Option<Option<(WalkPlan<'a>, f64)>> {
         let Some(&next) = self.levels.get(level + 1) else {
             return Some(None);
         };
@@ -525,7 +536,24 @@ impl<'a> Dfs<'a> {
             limit,
             &mut self.hints[level + 1],
         );
-        self.admits(score + floor + rest).then_some(Some(plan))
+        if !self.admits(score + floor + rest) {
+            return None;
+        }
+        let tight = self.rest_lb(level + 2, Some(ki)).max(rest);
+        if tight > rest {
+            let limit = self.bound() - score - tight;
+            let floor = Walk::floor(
+                table,
+                &plan,
+                &self.used[ki],
+                limit,
+                &mut self.hints[level + 1],
+            );
+            if !self.admits(score + floor + tight) {
+                return None;
+            }
+        }
+        Some(Some((plan, tight)))
     }
 
     /// The score a node must stay under: the N-th best build so far, and this round's cut.

@@ -543,7 +543,7 @@ fn stock_words(req: &Request, kind: PartKind, end: &str, value: f64) -> String {
 
 /// How long a diagnosis may take in all: a few dozen bounded searches, stopped when the time
 /// is spent (the requirements not tried by then are said to be so).
-pub const DIAGNOSIS_TIME: std::time::Duration = std::time::Duration::from_millis(400);
+pub const DIAGNOSIS_TIME: std::time::Duration = std::time::Duration::from_millis(300);
 
 /// Explain an infeasible request: a few dozen bounded searches at most, and at most
 /// [`DIAGNOSIS_TIME`] (or the request's own stop, when sooner).

@@ -54,6 +54,14 @@ pub enum Progress {
         /// The spec key of the requirement being tried now.
         key: &'static str,
     },
+    /// After the search: the figures of the builds found (noise, DC budget, yield) completed
+    /// so far, of how many.
+    Figures {
+        /// Builds whose figures are complete.
+        done: usize,
+        /// Builds to complete.
+        total: usize,
+    },
     /// The MILP engine: models solved so far, and the N-th best score found (∞ until N).
     Milp {
         /// Models solved so far.
