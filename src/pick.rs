@@ -320,24 +320,28 @@ pub fn pick(
         plan: options.plan,
         stop: options.stop.clone(),
     };
-    let mut outcome = search::run(&req, options.engine, progress)?;
-    let total = outcome.builds.len();
-    for (done, r) in outcome.builds.iter_mut().enumerate() {
-        progress(Progress::Figures { done, total });
-        analysis::complete(
-            spec,
-            circuit,
-            &r.build,
-            &mut r.evaluation,
-            options.yield_options.as_ref(),
-        );
-    }
-    let proven = !outcome.stats.truncated;
-    let diagnosis = if outcome.builds.is_empty() {
-        Some(diagnose::diagnose(&req, progress)?)
-    } else {
-        None
-    };
+    // The search and the diagnosis's relaxed searches share their candidate tables.
+    let (outcome, proven, diagnosis) = search::with_tables_kept(|| -> Result<_, Error> {
+        let mut outcome = search::run(&req, options.engine, &mut *progress)?;
+        let total = outcome.builds.len();
+        for (done, r) in outcome.builds.iter_mut().enumerate() {
+            progress(Progress::Figures { done, total });
+            analysis::complete(
+                spec,
+                circuit,
+                &r.build,
+                &mut r.evaluation,
+                options.yield_options.as_ref(),
+            );
+        }
+        let proven = !outcome.stats.truncated;
+        let diagnosis = if outcome.builds.is_empty() {
+            Some(diagnose::diagnose(&req, &mut *progress)?)
+        } else {
+            None
+        };
+        Ok((outcome, proven, diagnosis))
+    })?;
     Ok(Picked {
         builds: outcome.builds,
         stats: outcome.stats,

@@ -1634,3 +1634,49 @@ fn top_3_is_the_start_of_top_5() {
         assert_eq!(three[..], five[..three.len()], "{}", spec.display());
     }
 }
+
+/// `--time-limit` stops a long search and prints the best builds found so far, marked as not
+/// proven best in the table and in the JSON (`proven_best: false`), with exit 0 since they
+/// pass; without the limit the same spec is searched to the end (`proven_best: true`). The
+/// spec is a two-part E96 stage over 10 Ω–10 MΩ (330 268 realisations per resistor slot)
+/// asked for its best 1 000 builds: about 2 s of CPU in a release build, several in a test
+/// build, so 1.5 s stops it, and the single-part seed search finds builds well before.
+#[test]
+fn a_time_limit_stops_the_search_and_says_the_builds_are_not_proven() {
+    let spec = data("slow-noninverting-e96-both.toml");
+    let r = run(&[
+        "pick",
+        p(&spec),
+        "--top",
+        "1000",
+        "--yield",
+        "0",
+        "--time-limit",
+        "1.5",
+        "--json",
+        "-",
+        "--quiet",
+    ]);
+    r.expect_code(0, "pick --time-limit 1.5");
+    let doc = r.json();
+    assert_eq!(doc["proven_best"], Value::Bool(false), "{}", r.stdout);
+    assert!(!builds(&doc).is_empty());
+    let table = run(&[
+        "pick",
+        p(&spec),
+        "--top",
+        "1000",
+        "--yield",
+        "0",
+        "--time-limit",
+        "1.5",
+    ]);
+    table.expect_code(0, "pick --time-limit 1.5 (table)");
+    assert!(
+        table.stdout.contains("Not proven best"),
+        "{}",
+        &table.stdout[..table.stdout.len().min(2000)]
+    );
+    let proven = pick_json(&spec, &["--top", "3", "--yield", "0"]);
+    assert_eq!(proven["proven_best"], Value::Bool(true));
+}

@@ -22,6 +22,7 @@ use crate::analysis;
 use crate::build::{Build, LineKey, Part, SlotValue};
 use crate::circuit::{SearchPlan, WalkPlan};
 use crate::spec::Spec;
+use crate::stock::Stock;
 use crate::vocab::{Combine, PartKind};
 
 /// Rounds of the rising cut before the last, uncut one.
@@ -100,6 +101,61 @@ struct Dfs<'a> {
     hints: Vec<Vec<usize>>,
 }
 
+thread_local! {
+    /// The candidate tables of the searches inside one [`with_tables_kept`] scope, by kind and
+    /// goal weights; `None` outside such a scope.
+    static TABLES: std::cell::RefCell<Option<TableCache>> = const { std::cell::RefCell::new(None) };
+}
+
+/// Tables kept for reuse: (kind, the ranking weights' bits) and the table.
+type TableCache = Vec<((usize, [u64; 6]), std::rc::Rc<Table>)>;
+
+/// Run `f` with the candidate tables of its searches kept and shared: every search of one
+/// pick (the search, then the diagnosis's few dozen relaxed searches) reads the same stock
+/// with the same goal weights — a table depends on nothing else (`Table::new`: the stock's
+/// pieces, range and `combine`, the slot points and the line weight) — so it is built once,
+/// not once per search (a two-part E96 table is 330 000 realisations). The scope is one
+/// stock: the caller passes the same `Stock` to every search inside it.
+pub fn with_tables_kept<R>(f: impl FnOnce() -> R) -> R {
+    // A scope inside a scope keeps the outer one's tables (and its end clears them).
+    if TABLES.with(|t| t.borrow().is_some()) {
+        return f();
+    }
+    struct Clear;
+    impl Drop for Clear {
+        fn drop(&mut self) {
+            TABLES.with(|t| *t.borrow_mut() = None);
+        }
+    }
+    TABLES.with(|t| *t.borrow_mut() = Some(Vec::new()));
+    let _clear = Clear;
+    f()
+}
+
+/// The kind's table for `spec` from `stock`: the kept one inside [`with_tables_kept`], else
+/// a new one.
+fn cached_table(spec: &Spec, stock: &Stock, kind: PartKind) -> std::rc::Rc<Table> {
+    let key = (
+        kind_index(kind),
+        crate::vocab::Goal::ALL.map(|g| spec.goals.weight(g).to_bits()),
+    );
+    let hit = TABLES.with(|t| {
+        t.borrow()
+            .as_ref()
+            .and_then(|c| c.iter().find(|(k, _)| *k == key).map(|(_, t)| t.clone()))
+    });
+    if let Some(t) = hit {
+        return t;
+    }
+    let table = std::rc::Rc::new(Table::new(spec, stock, kind));
+    TABLES.with(|t| {
+        if let Some(c) = t.borrow_mut().as_mut() {
+            c.push((key, table.clone()));
+        }
+    });
+    table
+}
+
 /// Run the exact search. `progress` is called now and then with how far the first walk is.
 pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
     // What the spec implies as a whole (the amplifier's gain limit), derived once for the
@@ -139,7 +195,7 @@ fn search_tight(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Out
     }
     // A table per kind that an unlocked slot needs; the first empty one (in slot order, as
     // `slot_candidates` reports it) is an error.
-    let mut owned: [Option<Table>; 2] = [None, None];
+    let mut owned: [Option<std::rc::Rc<Table>>; 2] = [None, None];
     for (i, def) in slots.iter().enumerate() {
         if locked[i].is_some() {
             continue;
@@ -148,13 +204,13 @@ fn search_tight(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Out
         if owned[k].is_none() {
             too_many(req, def.kind)?;
         }
-        let table = owned[k].get_or_insert_with(|| Table::new(spec, req.stock, def.kind));
+        let table = owned[k].get_or_insert_with(|| cached_table(spec, req.stock, def.kind));
         if table.reals.is_empty() {
             return Err(no_candidates(req, i));
         }
     }
     // What every slot may be: its candidates' range (a locked slot: its part).
-    let kind_ranges = [0, 1].map(|k| owned[k].as_ref().and_then(generic::SlotRange::of_table));
+    let kind_ranges = [0, 1].map(|k| owned[k].as_deref().and_then(generic::SlotRange::of_table));
     let ranges = (0..n)
         .map(|i| match locked[i] {
             Some(p) => generic::SlotRange::of([p.slot_value()]),
@@ -217,7 +273,7 @@ fn search_tight(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Out
         );
     }
     if !stats.truncated {
-        let tables = [owned[0].as_ref(), owned[1].as_ref()];
+        let tables = [owned[0].as_deref(), owned[1].as_deref()];
         top = explore(
             req,
             &kept_ranges,

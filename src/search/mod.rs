@@ -15,7 +15,7 @@ pub mod request;
 pub mod table;
 pub mod walk;
 
-pub use dfs::search;
+pub use dfs::{search, with_tables_kept};
 pub use request::*;
 
 /// Run the exact search with the chosen engine.

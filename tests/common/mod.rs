@@ -25,6 +25,16 @@ pub struct Case {
 
 pub const E12: [f64; 12] = [1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2];
 
+/// The `[goals]` tables a case draws from (see `case_strategy`).
+const GOALS: [&str; 6] = [
+    "[goals]\ncost = 0.5\n",
+    "[goals]\ncost = 0.5\n",
+    "[goals]\ncost = 0.5\n",
+    "[goals]\ngain_error = 1.0\noffset = 0.0\npart_count = 0.0\nbom_lines = 0.0\ncapacitance = 0.0\ncost = 0.0\n",
+    "[goals]\ngain_error = 0.0\noffset = 0.0\ncost = 0.5\n",
+    "[goals]\npart_count = 0.0\ncapacitance = 0.0\nbom_lines = 2.0\n",
+];
+
 pub fn case_strategy(
     combine: &'static str,
     n_res: usize,
@@ -98,7 +108,12 @@ pub fn case_strategy(
                 t += &format!(
                     "[stock]\nresistor_range = [1, 1e8]\ncapacitor_range = [1e-12, 0.01]\ncombine = \"{combine}\"\n"
                 );
-                t += "[goals]\ncost = 0.5\n";
+                // The goal weights, from the supply's digits rather than a draw of their own
+                // (a new draw would change every case's stream; goals change no case's
+                // feasibility): half the cases the defaults with cost counted, the others
+                // zero weights — gain error alone, or some goals off — where the ranking
+                // rests on the tie-break weights and the bounds must still prune (issue 13).
+                t += GOALS[(supply * 1e3) as usize % GOALS.len()];
                 let tols = ["1%", "5%", "0.1%"];
                 let mut csv = String::from("kind,value,tolerance,qty,voltage,polarized,unit_cost\n");
                 for (m, e, q, tt) in &res {
