@@ -245,6 +245,10 @@ pub struct Derived {
     /// The highest worst-case |gain| any passing build can have: above it the amplifier's
     /// gain–bandwidth product loses too much at the band's top (`Circuit::gain_limit`).
     pub gain_max: Option<f64>,
+    /// The least tolerance of any resistor a build can have (the stock's pieces and the
+    /// locked parts; a pair's is between its pieces'), 0 when not derived: at worst case a
+    /// gain resistor's ends are at least this far from its nominal value.
+    pub resistor_tolerance_min: f64,
 }
 
 /// One problem in a spec, with its place.

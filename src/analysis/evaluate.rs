@@ -229,6 +229,70 @@ pub fn quick_fail(spec: &Spec, stage: &dyn Circuit, build: &Build) -> bool {
     quick_failure(spec, stage, build).is_some()
 }
 
+/// The checks of [`quick_failure`] that read resistors only — the gain window and the input
+/// resistance at every vertex of the resistors, the slew rate, the swing around the DC range,
+/// the divider current — for a circuit whose mid-band gain, input resistance and DC point
+/// read no capacitor (`Circuit::dc_from_resistors`): `parts` may then hold any capacitor
+/// (the search puts placeholders in the slots still open). The name of the first failing,
+/// as `quick_failure` would give it for every completion of these resistors.
+pub fn dc_failure(spec: &Spec, stage: &dyn Circuit, parts: &[&Part]) -> Option<&'static str> {
+    debug_assert!(stage.dc_from_resistors());
+    const REL: f64 = 1e-9;
+    let vertices = common::vertices_where(spec, parts, |p| p.kind == PartKind::Resistor);
+    let mut gain_max: f64 = 0.0;
+    for x in &vertices {
+        let g = stage.mid_gain(spec, x).abs();
+        gain_max = gain_max.max(g);
+        if let Some(t) = spec.gain_tolerance {
+            let target = spec.gain.abs();
+            if g < target * (1.0 - t) * (1.0 - REL) || g > target * (1.0 + t) * (1.0 + REL) {
+                return Some("gain");
+            }
+        }
+        if let Some(min) = spec.input_resistance_min {
+            if stage.input_resistance(spec, x) < min * (1.0 - REL) {
+                return Some("input_resistance");
+            }
+        }
+    }
+    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
+        if sr / (2.0 * std::f64::consts::PI * peak) < spec.band.1 * (1.0 - REL) {
+            return Some("slew_rate");
+        }
+    }
+    let error_corners = if spec.worst_case() {
+        DcErrors::corners(spec)
+    } else {
+        vec![DcErrors::nominal(spec)]
+    };
+    let (mut dc_min, mut dc_max, mut current) = (f64::INFINITY, f64::NEG_INFINITY, 0.0f64);
+    for x in &vertices {
+        for e in &error_corners {
+            let p = stage.dc(spec, x, e);
+            dc_min = dc_min.min(p.v_out);
+            dc_max = dc_max.max(p.v_out);
+            current = current.max(p.divider_current);
+        }
+    }
+    let swing = common::swing(spec, dc_min, dc_max);
+    let short = |value: f64, limit: f64| value < limit - REL * limit.abs().max(1e-12);
+    let fails_swing = match (spec.output_peak, spec.input_peak) {
+        (_, Some(inp)) => short(swing / gain_max, inp),
+        (Some(out), None) => short(swing, out),
+        (None, None) => short(swing, 0.0),
+    };
+    if fails_swing {
+        return Some("swing");
+    }
+    if spec
+        .bias_current_max
+        .is_some_and(|max| current > max * (1.0 + REL))
+    {
+        return Some("divider_current");
+    }
+    None
+}
+
 /// The name of the check [`quick_fail`] finds failing (`None`: none of its checks fails).
 pub fn quick_failure(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Option<&'static str> {
     const REL: f64 = 1e-9;

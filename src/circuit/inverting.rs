@@ -154,6 +154,10 @@ impl Circuit for Inverting {
         "single-supply inverting amplifier: AC-coupled input through r_in, feedback r_fb, + input on a bias divider, AC-coupled output"
     }
 
+    fn dc_from_resistors(&self) -> bool {
+        true
+    }
+
     fn mid_gain(&self, spec: &Spec, v: &[f64]) -> f64 {
         gain(spec, v)
     }

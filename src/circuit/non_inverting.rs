@@ -319,6 +319,10 @@ impl Circuit for NonInverting {
         "single-supply non-inverting amplifier: AC-coupled input onto the bias divider, feedback r_fb, gain leg r_g + c_g to ground, AC-coupled output"
     }
 
+    fn dc_from_resistors(&self) -> bool {
+        true
+    }
+
     fn mid_gain(&self, spec: &Spec, v: &[f64]) -> f64 {
         gain(spec, v)
     }

@@ -230,6 +230,19 @@ impl GainForm {
     fn r_fb_for(&self, g: f64, r_other: f64) -> f64 {
         (g / self.att - self.plus).max(0.0) * (self.offset + r_other)
     }
+    /// The least r_fb (nominal) whose worst-case lowest |gain| can reach `g` when every
+    /// resistor is at least `t` from its nominal value: att·(plus + R_fb(1−t)/(offset +
+    /// r_other(1+t))) ≥ g. With t = 0, [`GainForm::r_fb_for`].
+    fn r_fb_least(&self, g: f64, r_other: f64, t: f64) -> f64 {
+        (g / self.att - self.plus).max(0.0) * (self.offset + r_other * (1.0 + t)) / (1.0 - t)
+    }
+    /// The largest r_fb (nominal) whose worst-case highest |gain| can stay at most `g`:
+    /// att·(plus + R_fb(1+t)/(offset + r_other(1−t))) ≤ g (the box's highest gain is at
+    /// least that of the point with r_fb at its high end, r_other at its low end and the rest
+    /// nominal).
+    fn r_fb_most(&self, g: f64, r_other: f64, t: f64) -> f64 {
+        (g / self.att - self.plus).max(0.0) * (self.offset + r_other * (1.0 - t)) / (1.0 + t)
+    }
     /// The r_other that gives |gain| `g` with this r_fb (∞ when none does).
     fn r_other_for(&self, g: f64, r_fb: f64) -> f64 {
         let d = g / self.att - self.plus;
@@ -275,20 +288,26 @@ pub fn gain_fb<'s>(
     let (g_lo, g_hi) = gain_window(spec);
     let mode = form.r_fb_for(spec.gain.abs(), r_other);
     // The gain rises with r_fb: the window of r_fb values whose gain is inside the
-    // window (a hair wider, so rounding never drops one the bound would pass).
+    // window (a hair wider, so rounding never drops one the bound would pass). The window's
+    // ends are worst-case limits (the gain tolerance, the amplifier's highest gain): at
+    // worst case every resistor's ends lie at least the stock's least tolerance from its
+    // nominal value, which narrows the nominal window by that spread on each side (a 5 %
+    // stock: about 10 % of gain, a thousand two-part E96 values per r_in).
+    let t = if spec.worst_case() {
+        spec.derived.resistor_tolerance_min.clamp(0.0, 0.5)
+    } else {
+        0.0
+    };
     let window = (
-        form.r_fb_for(g_lo, r_other) * (1.0 - 1e-9),
-        form.r_fb_for(g_hi, r_other) * (1.0 + 1e-9),
+        form.r_fb_least(g_lo, r_other, t) * (1.0 - 1e-9),
+        form.r_fb_most(g_hi, r_other, t) * (1.0 + 1e-9),
     );
     let w_off = spec.goals.weight(crate::vocab::Goal::Offset) / 0.1;
     let b = spec.amplifier.input_bias_current;
     let c = spec.amplifier.input_offset_current / 2.0;
     // The gain rises with r_fb: past the window on the walk's side, every farther value
     // is out too.
-    let outside = move |v: f64, up: bool| {
-        let gain = form.gain(v, r_other);
-        (up && gain > g_hi) || (!up && gain < g_lo)
-    };
+    let outside = move |v: f64, up: bool| (up && v > window.1) || (!up && v < window.0);
     let f_gain = move |v: f64| {
         crate::objective::gain::points(spec, form.gain(v, r_other).copysign(spec.gain))
     };

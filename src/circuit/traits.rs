@@ -28,6 +28,14 @@ pub trait Circuit: Send + Sync {
 
     /// Mid-band gain from source EMF to load with an ideal op-amp (capacitors shorted), V/V.
     fn mid_gain(&self, spec: &Spec, v: &[f64]) -> f64;
+    /// True when `mid_gain`, `input_resistance` and `dc` read no capacitor (coupling
+    /// capacitors: shorted at mid-band, open at DC), so the search may judge the DC checks
+    /// (gain window, input resistance, swing, divider current) once the resistors are
+    /// chosen (`analysis::dc_failure`). A filter whose passband gain is a capacitor ratio
+    /// keeps the default, false.
+    fn dc_from_resistors(&self) -> bool {
+        false
+    }
     /// Noise gain 1/β at mid-band, which sets the bandwidth with a finite GBW.
     fn noise_gain(&self, spec: &Spec, v: &[f64]) -> f64;
     /// Resistance the source sees at mid-band.

@@ -195,7 +195,7 @@ fn pick(
     if std::env::var_os("STOCKFIT_STATS").is_some() {
         let s = &picked.stats;
         tell!(
-            "search: gain ≤ {:?}, root bound {:.4}; {:?} candidates per slot, {} nodes {:?}, {} builds evaluated ({:?} rejected early, {:?} by the full analysis), joint bounds (runs, raised) {:?}, {:.3} s",
+            "search: gain ≤ {:?}, root bound {:.4}; {:?} candidates per slot, {} nodes {:?}, {} builds evaluated ({:?} rejected early, {:?} by the full analysis), joint bounds (runs, raised) {:?}, DC screens (runs, cut) {:?}, {:.3} s",
             s.gain_max,
             s.root_bound,
             s.candidates,
@@ -205,6 +205,7 @@ fn pick(
             s.quick_rejects,
             s.full_rejects,
             s.joint_bounds,
+            s.dc_screens,
             started.elapsed().as_secs_f64()
         );
     }

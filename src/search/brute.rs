@@ -35,6 +35,7 @@ pub fn brute_force(req: &Request) -> Result<Outcome, SearchError> {
             full_rejects: Default::default(),
             evaluated,
             joint_bounds: Default::default(),
+            dc_screens: (0, 0),
         },
     })
 }

@@ -64,6 +64,12 @@ struct Dfs<'a> {
     /// the smallest goal weight, so that a ranking by tie-break weights alone (10⁻⁶ of the
     /// defaults, `request::TIE_BREAK`) keeps the joint bounds that pay at its own scale.
     raise_eps: f64,
+    /// The level whose choice completes the resistors, when the circuit's DC checks read
+    /// resistors only and open levels follow (`Circuit::dc_from_resistors`): there
+    /// `dc_passes` judges them for every completion at once.
+    dc_level: Option<usize>,
+    /// The DC screen's (runs, cuts), to keep it only while it pays.
+    dc_use: (u64, u64),
     /// Solved duals of the shared loss budget, by networks and budget (`shared_budget_bound`).
     dual_cache: std::cell::RefCell<
         std::collections::HashMap<DualKey, f64, std::hash::BuildHasherDefault<WordHasher>>,
@@ -160,7 +166,8 @@ fn cached_table(spec: &Spec, stock: &Stock, kind: PartKind) -> std::rc::Rc<Table
 pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
     // What the spec implies as a whole (the amplifier's gain limit), derived once for the
     // relaxations; the analysis never reads it, so every figure is the spec's own.
-    let ranking = ranking_spec(req.spec, req.stage);
+    let mut ranking = ranking_spec(req.spec, req.stage);
+    ranking.derived.resistor_tolerance_min = resistor_tolerance_min(req);
     let tight = Request {
         spec: &ranking,
         stop: req.stop.clone(),
@@ -173,6 +180,30 @@ pub fn search(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outco
     }
     primary_scores(req.spec, req.stage, &mut outcome.builds);
     Ok(outcome)
+}
+
+/// The least tolerance of any resistor a build of `req` can have: the least of the stock's
+/// resistor pieces and the locked resistors (a pair's tolerance lies between its pieces':
+/// series and parallel both average the pieces' relative deviations).
+fn resistor_tolerance_min(req: &Request) -> f64 {
+    let stock = req
+        .stock
+        .pieces(PartKind::Resistor)
+        .iter()
+        .map(|p| p.tolerance)
+        .fold(f64::INFINITY, f64::min);
+    let locked = req
+        .locks
+        .iter()
+        .filter(|(_, p)| p.kind == PartKind::Resistor)
+        .map(|(_, p)| p.tolerance())
+        .fold(f64::INFINITY, f64::min);
+    let t = stock.min(locked);
+    if t.is_finite() && t > 0.0 {
+        t
+    } else {
+        0.0
+    }
 }
 
 fn search_tight(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Outcome, SearchError> {
@@ -355,11 +386,18 @@ fn explore<'a>(
         rest_kinds[l] = rest_kinds[l + 1] | bits;
     }
     let n_levels = levels.len();
+    let open = |l: &Level| locked[l.slot].is_none();
+    let dc_level = levels
+        .iter()
+        .rposition(|l| open(l) && slots[l.slot].kind == PartKind::Resistor)
+        .filter(|&l| stage.dc_from_resistors() && levels[l + 1..].iter().any(open));
     let mut dfs = Dfs {
         req,
         dual_cache: Default::default(),
         joint_use: Default::default(),
         raise_eps: raise_eps(spec),
+        dc_level,
+        dc_use: (0, 0),
         ranges,
         plan,
         tables,
@@ -406,6 +444,8 @@ fn explore<'a>(
             break;
         }
     }
+    dfs.stats.dc_screens.0 += dfs.dc_use.0;
+    dfs.stats.dc_screens.1 += dfs.dc_use.1;
     for (total, c) in dfs.stats.joint_bounds.iter_mut().zip(&dfs.joint_use) {
         let (calls, useful) = c.get();
         *total = (total.0 + calls, total.1 + useful);
@@ -540,7 +580,7 @@ impl<'a> Dfs<'a> {
                     // parts only tighten it); the next level's walk tightens it again.
                     let score = acc + own + if lv.last { share } else { 0.0 };
                     let lb = score + if lv.last { 0.0 } else { share };
-                    if self.admits(lb + rest) {
+                    if self.admits(lb + rest) && self.dc_passes(level) {
                         if let Some(next) = self.screen_next(level, score) {
                             self.descend(level + 1, score, next);
                         }
@@ -610,6 +650,36 @@ impl<'a> Dfs<'a> {
             }
         }
         Some(Some((plan, tight)))
+    }
+
+    /// At the level that completes the resistors (`dc_level`): whether the DC checks pass
+    /// (`analysis::dc_failure`, with placeholders in the open capacitor slots, which those
+    /// checks do not read). A failure there fails every completion at its leaf, so the
+    /// capacitors are not walked. Run while it pays: always for the first few thousand
+    /// times, then while at least one in a hundred cuts.
+    fn dc_passes(&mut self, level: usize) -> bool {
+        if self.dc_level != Some(level) {
+            return true;
+        }
+        let (runs, cuts) = self.dc_use;
+        if runs >= 4096 && cuts * 100 < runs {
+            return true;
+        }
+        let slots = self.req.stage.slots();
+        let placeholder = Part::locked(PartKind::Capacitor, 1e-6, 0.0);
+        let parts: Vec<Part> = (0..slots.len())
+            .map(|i| match (self.locked[i], &self.chosen[i]) {
+                (Some(p), _) => p.clone(),
+                (None, Some(r)) => self.tables[kind_index(slots[i].kind)]
+                    .expect("table")
+                    .part(r),
+                (None, None) => placeholder.clone(),
+            })
+            .collect();
+        let refs: Vec<&Part> = parts.iter().collect();
+        let fails = analysis::dc_failure(self.req.spec, self.req.stage, &refs).is_some();
+        self.dc_use = (runs + 1, cuts + u64::from(fails));
+        !fails
     }
 
     /// The score a node must stay under: the N-th best build so far, and this round's cut.

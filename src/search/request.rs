@@ -100,6 +100,9 @@ pub struct Stats {
     /// The joint bounds of the open slots (the lines of "large enough" slots, the shared
     /// loss budget): how often each ran and how often it raised the bound.
     pub joint_bounds: [(u64, u64); 2],
+    /// The DC checks judged once a build's resistors are chosen (`analysis::dc_failure`):
+    /// how often, and how often they cut the capacitors' subtree.
+    pub dc_screens: (u64, u64),
 }
 
 /// What a search answers: the best builds, best first, and what it did.
@@ -404,6 +407,7 @@ pub fn ranking_spec(spec: &Spec, stage: &dyn Circuit) -> Spec {
     }
     r.derived = crate::spec::Derived {
         gain_max: stage.gain_limit(spec),
+        resistor_tolerance_min: spec.derived.resistor_tolerance_min,
     };
     r
 }
