@@ -232,6 +232,14 @@ impl Spec {
             .or(self.input_peak.map(|v| v * self.gain.abs()))
     }
 
+    /// The output peak a build must carry when its highest |gain| is `gain_mag`: `output_peak`,
+    /// or `input_peak` × `gain_mag`. The slew-rate check and the SNR read it at the build's
+    /// worst-case highest |gain|, where the required input peak swings the output furthest
+    /// (issue 12, part 8), not at the target gain.
+    pub fn output_peak_at(&self, gain_mag: f64) -> Option<f64> {
+        self.output_peak.or(self.input_peak.map(|v| v * gain_mag))
+    }
+
     /// True when requirements are judged at worst case ([`ToleranceMode::Worst`]).
     pub fn worst_case(&self) -> bool {
         self.tolerance_mode == ToleranceMode::Worst

@@ -253,7 +253,8 @@ pub fn quick_failure(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Option<
             }
         }
     }
-    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
+    // At the worst-case highest |gain| (the vertices' largest), as `checks` judges it.
+    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.output_peak_at(gain_max)) {
         if sr / (2.0 * std::f64::consts::PI * peak) < spec.band.1 * (1.0 - REL) {
             return Some("slew_rate");
         }
@@ -676,8 +677,10 @@ fn checks(
             Unit::Volt,
         )),
     }
-    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
-        // Full-power bandwidth SR / (2π V_peak) must reach the band's top (any op-amp text).
+    let gain_mag_max = m.gain_min.abs().max(m.gain_max.abs());
+    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.output_peak_at(gain_mag_max)) {
+        // Full-power bandwidth SR / (2π V_peak) must reach the band's top (any op-amp text),
+        // with V_peak the required input peak at the worst-case highest |gain|.
         out.push(Check::new(
             "slew_rate",
             "full-power bandwidth at the required peak".into(),

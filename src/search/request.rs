@@ -393,7 +393,14 @@ pub fn ruled_out(spec: &Spec) -> bool {
             return true;
         }
     }
-    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
+    // The output peak at the least worst-case highest |gain| a build can have: the window's
+    // floor (without a window, any gain may pass, so an input peak rules nothing out).
+    let peak = match (spec.output_peak, spec.input_peak, spec.gain_tolerance) {
+        (Some(out), _, _) => Some(out),
+        (None, Some(inp), Some(t)) => Some(inp * spec.gain.abs() * (1.0 - t)),
+        _ => None,
+    };
+    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, peak) {
         if sr / (2.0 * std::f64::consts::PI * peak) < spec.band.1 * (1.0 - SLACK) {
             return true;
         }
