@@ -251,3 +251,77 @@ fn capacitor_dc_sense_agrees_with_ngspice_op() {
         .unwrap();
     assert!((v - 0.5).abs() < 1e-6, "ngspice {v} V");
 }
+
+/// IEC 60063 values are the same numbers for capacitors: a range written in farads lists
+/// capacitances (it was refused: "expected a resistance").
+#[test]
+fn series_lists_capacitor_values() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = run_in(
+        dir.path(),
+        &["series", "E6", "--from", "1nF", "--to", "1uF"],
+    );
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let values: Vec<&str> = out.stdout.lines().collect();
+    assert_eq!(values.len(), 19, "{}", out.stdout);
+    assert_eq!(values[0], "1 nF");
+    assert_eq!(values[1], "1.5 nF");
+    assert_eq!(values[18], "1 µF");
+    // Unit-free ranges are listed as before.
+    let out = run_in(
+        dir.path(),
+        &["series", "E6", "--from", "1k", "--to", "2.2k"],
+    );
+    assert_eq!(out.stdout, "1 k\n1.5 k\n2.2 k\n");
+}
+
+/// A missing inventory is reported with the spec, line and key that named it.
+#[test]
+fn a_missing_inventory_names_the_spec_line_and_key() {
+    let text =
+        inverting_spec("", "").replace("capacitors = \"E6\"", "capacitors = \"drawer/caps.csv\"");
+    let line = text
+        .lines()
+        .position(|l| l.starts_with("capacitors"))
+        .unwrap()
+        + 1;
+    let (dir, _) = spec_dir(&text);
+    let out = run_in(dir.path(), &["pick", "spec.toml", "-q"]);
+    assert_eq!(out.code, 2, "{}", out.stderr);
+    let want = format!(
+        "spec.toml: line {line}, `stock.capacitors` names the inventory \"drawer/caps.csv\""
+    );
+    assert!(out.stderr.contains(&want), "{}", out.stderr);
+    // A folder where the file should be: the same place.
+    std::fs::create_dir_all(dir.path().join("drawer/caps.csv")).unwrap();
+    let out = run_in(dir.path(), &["check", "spec.toml", "--set", "r_in=10k"]);
+    assert_eq!(out.code, 2, "{}", out.stderr);
+    assert!(out.stderr.contains(&want), "{}", out.stderr);
+}
+
+/// Spec problems come in the file's order, and an amplifier key under `[stage]` says where it
+/// belongs.
+#[test]
+fn spec_problems_in_line_order_and_amplifier_keys_pointed_home() {
+    let text = inverting_spec("gbw = \"1 MHz\"", "")
+        .replace("load = \"1k\"", "load = \"1m\"")
+        .replace("[stock]\n", "[stock]\nbogus = 1\n");
+    let (dir, _) = spec_dir(&text);
+    let out = run_in(dir.path(), &["pick", "spec.toml", "-q"]);
+    assert_eq!(out.code, 2, "{}", out.stderr);
+    let lines: Vec<usize> = out
+        .stderr
+        .lines()
+        .filter_map(|l| l.trim().strip_prefix("line "))
+        .filter_map(|l| l.split(',').next()?.parse().ok())
+        .collect();
+    assert_eq!(lines.len(), 3, "{}", out.stderr);
+    assert!(lines.windows(2).all(|w| w[0] < w[1]), "{}", out.stderr);
+    assert!(
+        out.stderr.contains("`gbw` belongs in `[amplifier]`"),
+        "{}",
+        out.stderr
+    );
+    // 1 mΩ as a load is refused with the likely intent (already so before part 8).
+    assert!(out.stderr.contains("write `M` for mega"), "{}", out.stderr);
+}

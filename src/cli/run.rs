@@ -36,8 +36,8 @@ pub fn run(command: Command) -> Result<i32, Failure> {
             top,
             output,
         } => {
-            let (parsed, base) = load_spec(&spec)?;
-            pick(&parsed, &spec, &base, stock.as_deref(), &lock, top, &output)
+            let (parsed, _) = load_spec(&spec)?;
+            pick(&parsed, &spec, stock.as_deref(), &lock, top, &output)
         }
         Command::Demo { top, output } => {
             let parsed = Spec::from_toml(DEMO_SPEC).context("the built-in demo spec")?;
@@ -45,7 +45,7 @@ pub fn run(command: Command) -> Result<i32, Failure> {
                 say!("Demo: examples/hydrophone-preamp-9v.toml (a 9 V piezo hydrophone preamp)\n");
             }
             let path = Path::new("examples/hydrophone-preamp-9v.toml");
-            pick(&parsed, path, Path::new("."), None, &[], top, &output)
+            pick(&parsed, path, None, &[], top, &output)
         }
         Command::Check {
             spec,
@@ -53,8 +53,8 @@ pub fn run(command: Command) -> Result<i32, Failure> {
             stock,
             output,
         } => {
-            let (parsed, base) = load_spec(&spec)?;
-            check(&parsed, &base, stock.as_deref(), &set, &output)
+            let (parsed, _) = load_spec(&spec)?;
+            check(&parsed, &spec, stock.as_deref(), &set, &output)
         }
         Command::Series { name, from, to } => series(&name, &from, &to),
         Command::Stock { file } => stock_summary(&file),
@@ -87,13 +87,46 @@ fn stock_override(over: Option<&str>) -> Result<Option<StockOverride>, Failure> 
 /// folder) or `--stock`.
 pub(super) fn resolve_stock(
     spec: &Spec,
-    base: &Path,
+    spec_path: &Path,
     over: Option<&str>,
 ) -> Result<Resolved, Failure> {
+    let base = spec_path.parent().unwrap_or(Path::new(""));
     let over = stock_override(over)?;
     pick::resolve_stock(spec, over.as_ref(), &mut |p| {
-        load_inventory(&base.join(p)).map(Arc::new)
+        load_inventory(&base.join(p))
+            .map(Arc::new)
+            .map_err(|f| named_by(f, spec, spec_path, p))
     })
+}
+
+/// An inventory the spec names that cannot be read: the error says which spec, line and key
+/// named it, so that the user knows where to fix the path.
+fn named_by(f: Failure, spec: &Spec, spec_path: &Path, file: &str) -> Failure {
+    use stockfit::spec::SourceSpec;
+    let names = |s: &SourceSpec| matches!(s, SourceSpec::File(f) if f == file);
+    let key = if names(&spec.stock.resistors) {
+        "resistors"
+    } else if names(&spec.stock.capacitors) {
+        "capacitors"
+    } else {
+        return f;
+    };
+    // The spec was read a moment ago; read again only to locate the key (bounded, as before).
+    let line = super::files::read_bounded(spec_path, stockfit::spec::MAX_SPEC_BYTES, "spec")
+        .ok()
+        .and_then(|b| String::from_utf8(b).ok())
+        .and_then(|t| stockfit::spec::key_line(&t, "stock", key));
+    let place = match line {
+        Some(l) => format!("line {l}, "),
+        None => String::new(),
+    };
+    Failure {
+        code: f.code,
+        error: f.error.context(format!(
+            "in {}: {place}`stock.{key}` names the inventory {file:?}",
+            console::shown(spec_path)
+        )),
+    }
 }
 
 /// `SLOT=VALUE` flags split at their `=`.
@@ -156,14 +189,13 @@ fn style() -> table::Style {
 fn pick(
     spec: &Spec,
     spec_path: &Path,
-    base: &Path,
     stock_over: Option<&str>,
     locks: &[String],
     top: usize,
     output: &Output,
 ) -> Result<i32, Failure> {
     let circuit = circuit::circuit_for(spec.stage);
-    let Resolved { stock, description } = resolve_stock(spec, base, stock_over)?;
+    let Resolved { stock, description } = resolve_stock(spec, spec_path, stock_over)?;
     // Every input is read now: no output may be one of them (nor another output).
     output::check(output)?;
     let entries = split_entries(locks, "--lock")?;
@@ -259,13 +291,13 @@ fn pick(
 
 fn check(
     spec: &Spec,
-    base: &Path,
+    spec_path: &Path,
     stock_over: Option<&str>,
     set: &[String],
     output: &Output,
 ) -> Result<i32, Failure> {
     let circuit = circuit::circuit_for(spec.stage);
-    let Resolved { stock, description } = resolve_stock(spec, base, stock_over)?;
+    let Resolved { stock, description } = resolve_stock(spec, spec_path, stock_over)?;
     output::check(output)?;
     let entries = split_entries(set, "--set")?;
     let opts = yield_options(spec, output);
@@ -304,9 +336,10 @@ fn series(name: &str, from: &str, to: &str) -> Result<i32, Failure> {
     let s = Series::parse(name).ok_or_else(|| {
         anyhow!("unknown series {name:?}; expected one of E3, E6, E12, E24, E48, E96, E192")
     })?;
-    // The range is unit-free: values may be written with any prefix, a unit letter is refused.
-    let lo = value::parse(from, Unit::Ohm).map_err(|e| anyhow!("--from {from}: {e}"))?;
-    let hi = value::parse(to, Unit::Ohm).map_err(|e| anyhow!("--to {to}: {e}"))?;
+    // The range is written with any prefix and either no unit, ohms or farads: the series are
+    // the same numbers for resistors and capacitors (IEC 60063). A capacitance on either end
+    // lists capacitances, each with its unit.
+    let (lo, hi, unit) = series_range(from, to)?;
     if !(lo > 0.0 && hi >= lo) {
         return Err(Failure::input(anyhow!(
             "--from and --to: expected 0 < from ≤ to"
@@ -316,10 +349,11 @@ fn series(name: &str, from: &str, to: &str) -> Result<i32, Failure> {
     let digits = if s.per_decade() > 24 { 3 } else { 2 };
     let text: Vec<String> = values
         .iter()
-        .map(|v| {
-            value::format_sig(*v, Unit::Ohm, digits)
+        .map(|v| match unit {
+            Unit::Farad => value::format_sig(*v, Unit::Farad, digits),
+            _ => value::format_sig(*v, Unit::Ohm, digits)
                 .replace(" Ω", "")
-                .replace('Ω', "")
+                .replace('Ω', ""),
         })
         .collect();
     say!("{}", text.join("\n"));
@@ -330,6 +364,31 @@ fn series(name: &str, from: &str, to: &str) -> Result<i32, Failure> {
         s.tolerance() * 100.0
     );
     Ok(EXIT_OK)
+}
+
+/// `--from` and `--to` of `series`: unit-free or resistances (listed without a unit, as
+/// before), or capacitances (listed in farads) when either end is written as one.
+fn series_range(from: &str, to: &str) -> Result<(f64, f64, Unit), Failure> {
+    let read = |flag: &str, text: &str| -> Result<(f64, Unit), Failure> {
+        match value::parse(text, Unit::Ohm) {
+            Ok(v) => Ok((v, Unit::Ohm)),
+            Err(e) => value::parse(text, Unit::Farad)
+                .map(|v| (v, Unit::Farad))
+                .map_err(|_| {
+                    Failure::input(anyhow!(
+                        "{flag} {text}: {e} (or a capacitance such as \"1n\" or \"100 nF\")"
+                    ))
+                }),
+        }
+    };
+    let (lo, lo_unit) = read("--from", from)?;
+    let (hi, hi_unit) = read("--to", to)?;
+    let unit = if lo_unit == Unit::Farad || hi_unit == Unit::Farad {
+        Unit::Farad
+    } else {
+        Unit::Ohm
+    };
+    Ok((lo, hi, unit))
 }
 
 fn stock_summary(file: &Path) -> Result<i32, Failure> {
