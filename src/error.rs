@@ -14,22 +14,22 @@ use thiserror::Error;
 #[derive(Debug, Error)]
 pub enum Error {
     /// The spec: every problem with its key and line.
-    #[error("{0}")]
+    #[error(transparent)]
     Spec(#[from] SpecErrors),
     /// An inventory CSV: every bad cell with its line and column.
-    #[error("{0}")]
+    #[error(transparent)]
     Inventory(#[from] InventoryError),
     /// A `--lock` or `--set` entry that names no slot of the circuit or has a bad value.
-    #[error("{0}")]
+    #[error(transparent)]
     Slot(#[from] SlotError),
     /// The search: a slot without candidates, a stock too large, the MILP solver.
-    #[error("{0}")]
+    #[error(transparent)]
     Search(#[from] SearchError),
     /// An output (plot, BOM, HTML) that cannot be drawn.
-    #[error("{0}")]
+    #[error(transparent)]
     Render(#[from] RenderError),
     /// An inventory edit (`take`) that cannot be made.
-    #[error("{0}")]
+    #[error(transparent)]
     Edit(#[from] EditError),
 }
 

@@ -325,3 +325,173 @@ fn spec_problems_in_line_order_and_amplifier_keys_pointed_home() {
     // 1 mΩ as a load is refused with the likely intent (already so before part 8).
     assert!(out.stderr.contains("write `M` for mega"), "{}", out.stderr);
 }
+
+/// `check` ends with a one-line verdict, marks no Pareto optimum on its single build, refuses
+/// a slot given twice with one clear message, and takes `--engine` and `--time-limit` as
+/// `pick` does.
+#[test]
+fn check_ends_with_a_verdict_and_marks_no_pareto() {
+    let (dir, _) = spec_dir(&inverting_spec("gain_tolerance = \"5%\"", ""));
+    let out = check_run(
+        dir.path(),
+        &["--yield", "100", "--engine", "milp", "--time-limit", "5"],
+    );
+    assert_eq!(out.code, 0, "{}{}", out.stdout, out.stderr);
+    let last = out.stdout.trim_end().lines().last().unwrap();
+    assert!(last.starts_with("Verdict: pass"), "{last}");
+    assert!(!out.stdout.contains('◆'), "{}", out.stdout);
+    assert!(!out.stdout.contains("Pareto"), "{}", out.stdout);
+    // A failing build: the verdict names the failing checks.
+    let (dir, _) = spec_dir(&inverting_spec(
+        "gain_tolerance = \"5%\"\ninput_peak = \"100 mV\"",
+        "slew_rate = \"0.127 V/us\"",
+    ));
+    let out = check_run(dir.path(), &["--yield", "0"]);
+    assert_eq!(out.code, 1);
+    let last = out.stdout.trim_end().lines().last().unwrap();
+    assert!(
+        last.starts_with("Verdict: FAIL") && last.contains("slew_rate"),
+        "{last}"
+    );
+    // A slot given twice: refused, the message said once.
+    let out = check_run(dir.path(), &["--set", "r_in=12k"]);
+    assert_eq!(out.code, 2);
+    assert_eq!(
+        out.stderr.matches("is given twice").count(),
+        1,
+        "{}",
+        out.stderr
+    );
+}
+
+fn example(name: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("examples")
+        .join(name)
+}
+
+/// `pick --build N` writes the netlist, BOM, plot, schematic and report of build N.
+#[test]
+fn pick_build_n_writes_that_builds_files() {
+    let dir = tempfile::tempdir().unwrap();
+    let spec = example("hydrophone-preamp-9v.toml");
+    let spec = spec.to_str().unwrap();
+    let common = ["pick", spec, "-q", "--yield", "50", "--top", "3"];
+    let mut args = common.to_vec();
+    args.extend([
+        "--build", "3", "--json", "j.json", "--spice", "b.cir", "--bom", "b.csv", "--report",
+        "r.html",
+    ]);
+    let out = run_in(dir.path(), &args);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    assert!(
+        out.stdout.contains("Build #3 (--build 3)"),
+        "{}",
+        out.stdout
+    );
+    let doc: Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join("j.json")).unwrap()).unwrap();
+    let third = &doc["builds"][2]["parts"];
+    let netlist = std::fs::read_to_string(dir.path().join("b.cir")).unwrap();
+    let bom = std::fs::read_to_string(dir.path().join("b.csv")).unwrap();
+    let html = std::fs::read_to_string(dir.path().join("r.html")).unwrap();
+    assert!(html.contains("Build #3 in detail"), "HTML detail");
+    // Each slot's value of build 3 in the netlist's part list (`*   slot = value (tol)`).
+    for (slot, part) in third.as_object().unwrap() {
+        let si = part["value"].as_f64().unwrap();
+        let line = netlist
+            .lines()
+            .find(|l| l.starts_with(&format!("*   {slot} = ")))
+            .unwrap_or_else(|| panic!("{slot} in\n{netlist}"));
+        let spice_value = line.split(" = ").nth(1).unwrap().split(' ').next().unwrap();
+        let parsed = stockfit::value::parse(
+            &spice_value.replace("meg", "M"),
+            if slot.starts_with('r') {
+                stockfit::value::Unit::Ohm
+            } else {
+                stockfit::value::Unit::Farad
+            },
+        )
+        .unwrap();
+        assert!((parsed - si).abs() <= 1e-9 * si, "{slot}: {line} vs {si}");
+        assert!(
+            bom.contains(&format!(",{}", format_si(si))),
+            "{slot} {si} in\n{bom}"
+        );
+    }
+    // Past the ranked builds: refused before the search.
+    let mut args = common.to_vec();
+    args.extend(["--build", "4"]);
+    let out = run_in(dir.path(), &args);
+    assert_eq!(out.code, 2);
+    assert!(out.stderr.contains("--top"), "{}", out.stderr);
+}
+
+/// A value as the BOM's `value_si` column writes it (shortest round-trip text).
+fn format_si(v: f64) -> String {
+    let text = format!("{v}");
+    text.strip_suffix(".0").map(str::to_string).unwrap_or(text)
+}
+
+/// The HTML report shows the yield as the terminal does: per build and per check.
+#[test]
+fn html_report_shows_the_yield() {
+    let (dir, _) = spec_dir(&inverting_spec("gain_tolerance = \"5%\"", ""));
+    let out = check_run(dir.path(), &["--yield", "200", "--report", "r.html"]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let html = std::fs::read_to_string(dir.path().join("r.html")).unwrap();
+    assert!(html.contains("<th>yield</th>"), "yield columns");
+    assert!(
+        html.contains("Monte Carlo yield 100.0 % (200 samples"),
+        "yield sentence"
+    );
+    assert!(
+        html.contains("<td class=\"num\">100.0 %</td>"),
+        "yield cells"
+    );
+}
+
+/// Table columns keep two spaces between them, a locked part's `*` counted: `3 MΩ*` filled
+/// the r_fb column and ran into r_g's value.
+#[test]
+fn table_columns_never_run_together() {
+    let dir = tempfile::tempdir().unwrap();
+    let spec = example("hydrophone-preamp-9v.toml");
+    let out = run_in(
+        dir.path(),
+        &[
+            "pick",
+            spec.to_str().unwrap(),
+            "-q",
+            "--yield",
+            "0",
+            "--top",
+            "2",
+            "--lock",
+            "r_fb=3M",
+        ],
+    );
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let lines: Vec<&str> = out.stdout.lines().collect();
+    let head = lines
+        .iter()
+        .position(|l| l.starts_with("#   c_in"))
+        .unwrap();
+    let starts: Vec<usize> = {
+        let chars: Vec<char> = lines[head].chars().collect();
+        (1..chars.len())
+            .filter(|&i| chars[i] != ' ' && chars[i - 1] == ' ')
+            .collect()
+    };
+    for row in &lines[head + 1..head + 3] {
+        let chars: Vec<char> = row.chars().collect();
+        for &s in &starts {
+            if s < chars.len() {
+                assert!(
+                    chars[s - 1] == ' ' && chars[s - 2] == ' ',
+                    "column at {s} runs into the one before: {row:?}"
+                );
+            }
+        }
+    }
+}

@@ -181,6 +181,10 @@ pub enum Command {
         /// How many builds to rank (1 to 1000).
         #[arg(long, default_value_t = 5, value_parser = parse_top)]
         top: usize,
+        /// Which ranked build the netlist, plot, schematic, BOM and the HTML report's detail
+        /// are of, and the terminal's detail (1 = the best); the JSON holds every ranked build.
+        #[arg(long, value_name = "N", value_parser = parse_build)]
+        build: Option<usize>,
         #[command(flatten)]
         output: Output,
     },
@@ -233,10 +237,15 @@ mod tests {
         .unwrap();
         match a.command {
             Command::Pick {
-                lock, top, output, ..
+                lock,
+                top,
+                build,
+                output,
+                ..
             } => {
                 assert_eq!(lock, vec!["r_in=47k", "c_in=1u"]);
                 assert_eq!(top, 3);
+                assert_eq!(build, None);
                 assert_eq!(output.json.as_deref(), Some("-"));
             }
             other => panic!("{other:?}"),

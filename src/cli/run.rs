@@ -34,10 +34,24 @@ pub fn run(command: Command) -> Result<i32, Failure> {
             stock,
             lock,
             top,
+            build,
             output,
         } => {
+            if let Some(n) = build.filter(|&n| n > top) {
+                return Err(Failure::input(anyhow!(
+                    "--build {n}: only {top} builds are ranked; raise --top to at least {n}"
+                )));
+            }
             let (parsed, _) = load_spec(&spec)?;
-            pick(&parsed, &spec, stock.as_deref(), &lock, top, &output)
+            let chosen = build.unwrap_or(1) - 1;
+            pick(
+                &parsed,
+                &spec,
+                stock.as_deref(),
+                &lock,
+                (top, chosen),
+                &output,
+            )
         }
         Command::Demo { top, output } => {
             let parsed = Spec::from_toml(DEMO_SPEC).context("the built-in demo spec")?;
@@ -45,7 +59,7 @@ pub fn run(command: Command) -> Result<i32, Failure> {
                 say!("Demo: examples/hydrophone-preamp-9v.toml (a 9 V piezo hydrophone preamp)\n");
             }
             let path = Path::new("examples/hydrophone-preamp-9v.toml");
-            pick(&parsed, path, None, &[], top, &output)
+            pick(&parsed, path, None, &[], (top, 0), &output)
         }
         Command::Check {
             spec,
@@ -191,7 +205,7 @@ fn pick(
     spec_path: &Path,
     stock_over: Option<&str>,
     locks: &[String],
-    top: usize,
+    (top, chosen): (usize, usize),
     output: &Output,
 ) -> Result<i32, Failure> {
     let circuit = circuit::circuit_for(spec.stage);
@@ -270,10 +284,29 @@ fn pick(
             );
             say!();
         }
+    }
+    // `--build N` past the builds found (fewer pass than --top asks for): nothing is written.
+    if chosen >= picked.builds.len() {
+        return Err(Failure::input(anyhow!(
+            "--build {}: only {} build{} meet{} the spec; nothing was written",
+            chosen + 1,
+            picked.builds.len(),
+            if picked.builds.len() == 1 { "" } else { "s" },
+            if picked.builds.len() == 1 { "s" } else { "" }
+        )));
+    }
+    if !quiet_stdout {
         say_raw!("{}", table::builds(spec, circuit, &picked.builds, style));
         say!();
-        say!("Best build (#1)");
-        say_raw!("{}", table::detail(spec, circuit, &picked.builds[0], style));
+        if chosen == 0 {
+            say!("Best build (#1)");
+        } else {
+            say!("Build #{} (--build {})", chosen + 1, chosen + 1);
+        }
+        say_raw!(
+            "{}",
+            table::detail(spec, circuit, &picked.builds[chosen], style)
+        );
     }
     output::write_builds(
         output,
@@ -284,6 +317,7 @@ fn pick(
             stock: &stock,
             stock_text: &description,
             proven: picked.proven,
+            chosen,
         },
     )?;
     Ok(EXIT_OK)
@@ -317,6 +351,11 @@ fn check(
         );
         say!();
         say_raw!("{}", table::detail(spec, circuit, &ranked, style));
+        say!();
+        say_raw!(
+            "{}",
+            table::fit_width(&table::verdict(&ranked.evaluation, style), table::WIDTH)
+        );
     }
     output::write_builds(
         output,
@@ -327,6 +366,7 @@ fn check(
             stock: &stock,
             stock_text: &description,
             proven: true,
+            chosen: 0,
         },
     )?;
     Ok(if pass { EXIT_OK } else { EXIT_NO_BUILD })
@@ -342,7 +382,8 @@ fn series(name: &str, from: &str, to: &str) -> Result<i32, Failure> {
     let (lo, hi, unit) = series_range(from, to)?;
     if !(lo > 0.0 && hi >= lo) {
         return Err(Failure::input(anyhow!(
-            "--from and --to: expected 0 < from ≤ to"
+            "--from {from} and --to {to}: expected 0 < from ≤ to (the defaults are 1 and 10; \
+             give both ends in the same unit)"
         )));
     }
     let values = s.values_in(lo, hi);

@@ -86,7 +86,7 @@ fn error_text(e: f64) -> String {
     }
 }
 
-fn yield_text(y: Option<f64>) -> String {
+pub(crate) fn yield_text(y: Option<f64>) -> String {
     // One decimal of a percent: 10,000 samples resolve about that well.
     y.map_or_else(|| "—".to_string(), |y| format!("{:.1} %", y * 100.0))
 }
@@ -146,9 +146,24 @@ pub fn unproven(style: Style) -> String {
 pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style) -> String {
     let mut out = String::new();
     let slots = stage.slots();
+    // A locked part's label carries its `*`, counted in the column's width, so that the next
+    // column keeps its two spaces (`2.4 MΩ* 1.6 MΩ ∥ 1.6 MΩ` ran together).
     let labels: Vec<Vec<String>> = ranked
         .iter()
-        .map(|r| r.build.parts.iter().map(table_label).collect())
+        .map(|r| {
+            r.build
+                .parts
+                .iter()
+                .map(|p| {
+                    let text = table_label(p);
+                    if p.locked {
+                        format!("{text}*")
+                    } else {
+                        text
+                    }
+                })
+                .collect()
+        })
         .collect();
     // Column widths from the content, so two-part labels get the room they need.
     let widths: Vec<usize> = (0..slots.len())
@@ -171,13 +186,7 @@ pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style)
     for (n, l) in labels.iter().enumerate() {
         let mut row = cell(&(n + 1).to_string(), 4);
         for (i, text) in l.iter().enumerate() {
-            let locked = ranked[n].build.parts[i].locked;
-            let t = if locked {
-                format!("{text}*")
-            } else {
-                text.clone()
-            };
-            row.push_str(&cell(&t, widths[i]));
+            row.push_str(&cell(text, widths[i]));
         }
         let _ = writeln!(out, "{}", row.trim_end());
     }
@@ -212,6 +221,8 @@ pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style)
         )
         .trim_end()
     );
+    // Pareto optimality compares builds: a single build is marked nothing.
+    let compared = ranked.len() > 1;
     let front = crate::search::pareto(ranked);
     for (n, r) in ranked.iter().enumerate() {
         let m = &r.evaluation.metrics;
@@ -221,7 +232,10 @@ pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style)
         );
         let row = format!(
             "{}{}{}{}{}{}{}{}{}{}",
-            cell(&format!("{}{}", n + 1, if front[n] { "◆" } else { "" }), 4),
+            cell(
+                &format!("{}{}", n + 1, if compared && front[n] { "◆" } else { "" }),
+                4
+            ),
             cell(&gain_text(m.gain), 9),
             cell(&error_text(m.gain_error), 9),
             cell(&format!("{} … {}", gain_text(lo), gain_text(hi)), 18),
@@ -237,11 +251,38 @@ pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style)
         );
         let _ = writeln!(out, "{}", row.trim_end());
     }
-    let _ = writeln!(
-        out,
-        "    ◆ Pareto-optimal over gain error, part count and cost"
-    );
+    if compared {
+        let _ = writeln!(
+            out,
+            "    ◆ Pareto-optimal over gain error, part count and cost"
+        );
+    }
     out
+}
+
+/// The one-line verdict that ends a `check` report: pass, or which checks fail.
+pub fn verdict(evaluation: &crate::analysis::Evaluation, style: Style) -> String {
+    let failed: Vec<&str> = evaluation
+        .checks
+        .iter()
+        .filter(|c| !c.pass)
+        .map(|c| c.name.as_str())
+        .collect();
+    if failed.is_empty() {
+        format!(
+            "{} this build meets every requirement ({} checks pass)\n",
+            style.bold("Verdict: pass —"),
+            evaluation.checks.len()
+        )
+    } else {
+        format!(
+            "{} {} of {} checks fail: {}\n",
+            style.bold("Verdict: FAIL —"),
+            failed.len(),
+            evaluation.checks.len(),
+            failed.join(", ")
+        )
+    }
 }
 
 fn value_text(c: &Check) -> (String, String, String) {
