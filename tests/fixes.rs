@@ -495,3 +495,26 @@ fn table_columns_never_run_together() {
         }
     }
 }
+
+/// `stock` groups repeated notes: one line per kind of note, with its count and the first
+/// values (the lab stock printed 135 note lines, one per repeated value).
+#[test]
+fn stock_groups_repeated_notes() {
+    let dir = tempfile::tempdir().unwrap();
+    let inv = Path::new(env!("CARGO_MANIFEST_DIR")).join("inventories/lab-stock.csv");
+    let out = run_in(dir.path(), &["stock", inv.to_str().unwrap()]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let notes: Vec<&str> = out.stdout.lines().filter(|l| l.contains("note:")).collect();
+    assert_eq!(notes.len(), 2, "{}", out.stdout);
+    assert!(
+        notes[0].contains("113 values appear on several rows"),
+        "{}",
+        out.stdout
+    );
+    assert!(out.stdout.contains("and 110 more"), "{}", out.stdout);
+    assert!(
+        out.stdout.lines().all(|l| l.chars().count() <= 100),
+        "{}",
+        out.stdout
+    );
+}

@@ -432,6 +432,56 @@ fn series_range(from: &str, to: &str) -> Result<(f64, f64, Unit), Failure> {
     Ok((lo, hi, unit))
 }
 
+/// The values shown in full in a grouped note, and the rows shown of each.
+const NOTE_EXAMPLES: usize = 3;
+const NOTE_ROWS: usize = 10;
+
+/// "3 values appear on several rows, pooled …: 10 Ω 1 % (rows 1, 141), … and 137 more".
+fn repeated_note(
+    group: &[&stockfit::stock::inventory::Duplicate],
+    how: &str,
+    unit: Unit,
+) -> String {
+    let shown: Vec<String> = group
+        .iter()
+        .take(NOTE_EXAMPLES)
+        .map(|d| {
+            let rows: Vec<String> = d
+                .rows
+                .iter()
+                .take(NOTE_ROWS)
+                .map(usize::to_string)
+                .collect();
+            let more = match d.rows.len().saturating_sub(NOTE_ROWS) {
+                0 => String::new(),
+                n => format!(" and {n} more"),
+            };
+            // A no-break space inside a quantity, so that wrapping never parts "1" from "%".
+            let keep = |t: String| t.replace(' ', "\u{a0}");
+            format!(
+                "{} {} (rows {}{more})",
+                keep(value::format(d.value, unit)),
+                keep(value::format(d.tolerance, Unit::Percent)),
+                rows.join(", ")
+            )
+        })
+        .collect();
+    let more = match group.len().saturating_sub(NOTE_EXAMPLES) {
+        0 => String::new(),
+        n => format!(" and {n} more"),
+    };
+    format!(
+        "{} value{} on several rows, {how}: {}{more}",
+        group.len(),
+        if group.len() == 1 {
+            " appears"
+        } else {
+            "s appear"
+        },
+        shown.join(", ")
+    )
+}
+
 fn stock_summary(file: &Path) -> Result<i32, Failure> {
     let inv = load_inventory(file)?;
     let s = inv.summary();
@@ -484,36 +534,24 @@ fn stock_summary(file: &Path) -> Result<i32, Failure> {
                 k.stock_value
             );
         }
-        for d in &k.duplicates {
-            // At most ten rows each: a value on 100 000 rows is a line, not a page.
-            let shown = &d.rows[..d.rows.len().min(10)];
-            let more = match d.rows.len() - shown.len() {
-                0 => String::new(),
-                n => format!(" and {n} more"),
-            };
-            say!(
-                "    note: {} {} appears on several rows {:?}{more}",
-                value::format(d.value, unit),
-                value::format(d.tolerance, Unit::Percent),
-                shown
-            );
-        }
-        // Rows of the same part (ratings, dielectric and cost too) are one line to the search,
-        // their pieces pooled (`stock::pool`); rows that only share value and tolerance are not.
-        let pooled = k
-            .duplicates
-            .iter()
-            .filter(|d| {
-                let first = pools.representative(d.rows[0]);
-                d.rows.iter().all(|&r| pools.representative(r) == first)
-            })
-            .count();
-        if !k.duplicates.is_empty() {
-            say!(
-                "    pooled: {pooled} (the same part on each row); kept apart: {} (ratings, \
-                 dielectric or cost differ)",
-                k.duplicates.len() - pooled
-            );
+        // Repeated values, one line per kind of note (a lab stock repeats hundreds): rows of
+        // the same part (ratings, dielectric and cost too) are one line to the search, their
+        // pieces pooled (`stock::pool`); rows that only share value and tolerance are not.
+        let (pooled, apart): (Vec<_>, Vec<_>) = k.duplicates.iter().partition(|d| {
+            let first = pools.representative(d.rows[0]);
+            d.rows.iter().all(|&r| pools.representative(r) == first)
+        });
+        for (group, how) in [
+            (
+                pooled,
+                "pooled as one line each (the same part on each row)",
+            ),
+            (apart, "kept apart (ratings, dielectric or cost differ)"),
+        ] {
+            if !group.is_empty() {
+                let note = format!("    note: {}", repeated_note(&group, how, unit));
+                say_raw!("{}", table::fit_width(&note, table::WIDTH));
+            }
         }
     }
     Ok(EXIT_OK)
