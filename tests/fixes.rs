@@ -518,3 +518,112 @@ fn stock_groups_repeated_notes() {
         out.stdout
     );
 }
+
+/// The unity-gain stage of tests/data/cli-qty-one-10k.toml on a stock with one 10 kΩ piece
+/// at 1 % and one at 0.1 % (invented): a divider of two 10 kΩ takes both, and which of its
+/// two slots gets the 0.1 % piece made two builds that print alike.
+const SWAP_CSV: &str = "kind,value,tolerance,qty,voltage,unit_cost
+resistor,10k,1%,1,,0
+resistor,10k,0.1%,1,,0
+resistor,22k,1%,5,,0.05
+resistor,47k,1%,5,,0.05
+resistor,100k,1%,5,,0.05
+capacitor,1u,10%,5,50V,0.05
+capacitor,10u,20%,5,25V,0.05
+capacitor,100u,20%,5,25V,0.05
+";
+
+fn swap_dir() -> tempfile::TempDir {
+    let spec = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data/cli-qty-one-10k.toml"),
+    )
+    .unwrap()
+    .replace("cli-qty-one-10k.csv", "inv.csv");
+    let (dir, _) = spec_dir(&spec);
+    std::fs::write(dir.path().join("inv.csv"), SWAP_CSV).unwrap();
+    dir
+}
+
+/// Per build: each slot's value, and each value's tolerances sorted (what a reader of the
+/// parts table can tell apart).
+fn look(build: &Value) -> Vec<String> {
+    let parts = build["parts"].as_object().unwrap();
+    let mut by_value: std::collections::BTreeMap<String, Vec<String>> = Default::default();
+    let mut out: Vec<String> = parts
+        .iter()
+        .map(|(slot, p)| {
+            by_value
+                .entry(p["value"].to_string())
+                .or_default()
+                .push(p["tolerance"].to_string());
+            format!("{slot}={}", p["value"])
+        })
+        .collect();
+    for (v, mut t) in by_value {
+        t.sort();
+        out.push(format!("{v}:{}", t.join("/")));
+    }
+    out
+}
+
+/// Builds that differ only by which slot gets which of two parts of one value count once.
+#[test]
+fn swapped_parts_of_one_value_count_once() {
+    let dir = swap_dir();
+    let out = run_in(
+        dir.path(),
+        &["pick", "spec.toml", "-q", "--yield", "0", "--json", "-"],
+    );
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let doc = json(&out);
+    let looks: Vec<Vec<String>> = doc["builds"].as_array().unwrap().iter().map(look).collect();
+    assert_eq!(looks.len(), 5);
+    for i in 0..looks.len() {
+        for j in i + 1..looks.len() {
+            assert_ne!(looks[i], looks[j], "builds {} and {} are one", i + 1, j + 1);
+        }
+    }
+}
+
+/// `--distinct SLOTS`: every two ranked builds differ in those slots' values.
+#[test]
+fn distinct_slots_make_real_alternatives() {
+    let dir = swap_dir();
+    let out = run_in(
+        dir.path(),
+        &[
+            "pick",
+            "spec.toml",
+            "-q",
+            "--yield",
+            "0",
+            "--json",
+            "-",
+            "--distinct",
+            "r_in,r_fb",
+        ],
+    );
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let doc = json(&out);
+    let keys: Vec<(f64, f64)> = doc["builds"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|b| {
+            (
+                b["parts"]["r_in"]["value"].as_f64().unwrap(),
+                b["parts"]["r_fb"]["value"].as_f64().unwrap(),
+            )
+        })
+        .collect();
+    assert!(keys.len() >= 3, "{keys:?}");
+    for i in 0..keys.len() {
+        for j in i + 1..keys.len() {
+            assert_ne!(keys[i], keys[j], "{keys:?}");
+        }
+    }
+    // An unknown slot is refused with the circuit's slots.
+    let out = run_in(dir.path(), &["pick", "spec.toml", "--distinct", "r_fx"]);
+    assert_eq!(out.code, 2);
+    assert!(out.stderr.contains("did you mean `r_fb`"), "{}", out.stderr);
+}

@@ -35,6 +35,7 @@ pub fn run(command: Command) -> Result<i32, Failure> {
             lock,
             top,
             build,
+            distinct,
             output,
         } => {
             if let Some(n) = build.filter(|&n| n > top) {
@@ -44,14 +45,12 @@ pub fn run(command: Command) -> Result<i32, Failure> {
             }
             let (parsed, _) = load_spec(&spec)?;
             let chosen = build.unwrap_or(1) - 1;
-            pick(
-                &parsed,
-                &spec,
-                stock.as_deref(),
-                &lock,
-                (top, chosen),
-                &output,
-            )
+            let ranking = Ranking {
+                top,
+                chosen,
+                distinct,
+            };
+            pick(&parsed, &spec, stock.as_deref(), &lock, &ranking, &output)
         }
         Command::Demo { top, output } => {
             let parsed = Spec::from_toml(DEMO_SPEC).context("the built-in demo spec")?;
@@ -59,7 +58,18 @@ pub fn run(command: Command) -> Result<i32, Failure> {
                 say!("Demo: examples/hydrophone-preamp-9v.toml (a 9 V piezo hydrophone preamp)\n");
             }
             let path = Path::new("examples/hydrophone-preamp-9v.toml");
-            pick(&parsed, path, None, &[], (top, 0), &output)
+            pick(
+                &parsed,
+                path,
+                None,
+                &[],
+                &Ranking {
+                    top,
+                    chosen: 0,
+                    distinct: Vec::new(),
+                },
+                &output,
+            )
         }
         Command::Check {
             spec,
@@ -200,14 +210,22 @@ fn style() -> table::Style {
     table::Style { color }
 }
 
+/// What `pick` ranks and reports: `--top`, `--build` (0-based) and `--distinct`.
+struct Ranking {
+    top: usize,
+    chosen: usize,
+    distinct: Vec<String>,
+}
+
 fn pick(
     spec: &Spec,
     spec_path: &Path,
     stock_over: Option<&str>,
     locks: &[String],
-    (top, chosen): (usize, usize),
+    ranking: &Ranking,
     output: &Output,
 ) -> Result<i32, Failure> {
+    let (top, chosen) = (ranking.top, ranking.chosen);
     let circuit = circuit::circuit_for(spec.stage);
     let Resolved { stock, description } = resolve_stock(spec, spec_path, stock_over)?;
     // Every input is read now: no output may be one of them (nor another output).
@@ -220,6 +238,7 @@ fn pick(
         engine: output.engine.engine(),
         yield_options: Some(yield_options(spec, output)),
         stop: stop_for(output),
+        distinct: ranking.distinct.clone(),
         ..Options::default()
     };
     let started = Instant::now();
