@@ -627,3 +627,31 @@ fn distinct_slots_make_real_alternatives() {
     assert_eq!(out.code, 2);
     assert!(out.stderr.contains("did you mean `r_fb`"), "{}", out.stderr);
 }
+
+/// A time limit that expires before any build is found says so plainly, not "no build from
+/// this stock meets the spec" (which the search did not prove).
+#[test]
+fn a_time_limit_before_any_build_says_so() {
+    let dir = tempfile::tempdir().unwrap();
+    let spec = example("line-stage-12v.toml");
+    let out = run_in(
+        dir.path(),
+        &[
+            "pick",
+            spec.to_str().unwrap(),
+            "-q",
+            "--yield",
+            "0",
+            "--time-limit",
+            "0.000001",
+        ],
+    );
+    assert_eq!(out.code, 1, "{}{}", out.stdout, out.stderr);
+    assert!(
+        out.stdout
+            .contains("The search stopped (--time-limit or Ctrl-C) before it found any build"),
+        "{}",
+        out.stdout
+    );
+    assert!(!out.stdout.contains("meets the spec."), "{}", out.stdout);
+}

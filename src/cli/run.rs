@@ -282,10 +282,14 @@ fn pick(
                 table::fit_width(&table::heading(spec, circuit, &description), table::WIDTH)
             );
             say!();
-            say_raw!(
-                "{}",
-                table::fit_width(&table::diagnosis(spec, circuit, d, style), table::WIDTH)
-            );
+            // Stopped before any build was found, the search proved nothing: say so, rather
+            // than "no build meets the spec".
+            let text = if picked.proven {
+                table::diagnosis(spec, circuit, d, style)
+            } else {
+                table::stopped_before_any_build(style)
+            };
+            say_raw!("{}", table::fit_width(&text, table::WIDTH));
         }
         output::write_diagnosis(output, spec, circuit, d)?;
         return Ok(EXIT_NO_BUILD);

@@ -142,6 +142,17 @@ pub fn unproven(style: Style) -> String {
     )
 }
 
+/// What a search stopped early (a time limit or Ctrl-C) before it found any build says: not
+/// that no build meets the spec, which it did not prove, but that it ran out of time.
+pub fn stopped_before_any_build(style: Style) -> String {
+    let mark = if style.color { "\x1b[33m!\x1b[0m" } else { "!" };
+    format!(
+        "{mark} The search stopped (--time-limit or Ctrl-C) before it found any build. This does \
+         not mean that no build meets the spec: run with a longer --time-limit, or without one, \
+         for the exact answer.\n"
+    )
+}
+
 /// The ranked builds: a parts table, then a figures table.
 pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style) -> String {
     let mut out = String::new();
