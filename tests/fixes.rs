@@ -655,3 +655,111 @@ fn a_time_limit_before_any_build_says_so() {
     );
     assert!(!out.stdout.contains("meets the spec."), "{}", out.stdout);
 }
+
+/// Text elements of an SVG: (x, font size, anchor, text).
+fn svg_texts(svg: &str) -> Vec<(f64, f64, String, String)> {
+    let attr = |tag: &str, name: &str| -> Option<String> {
+        let at = tag.find(&format!(" {name}=\""))? + name.len() + 3;
+        Some(tag[at..].split('"').next()?.to_string())
+    };
+    let mut out = Vec::new();
+    for piece in svg.split("<text").skip(1) {
+        let Some((tag, rest)) = piece.split_once('>') else {
+            continue;
+        };
+        let text: String = rest.split("</text>").next().unwrap_or_default().to_string();
+        let (Some(x), Some(size)) = (attr(tag, "x"), attr(tag, "font-size")) else {
+            continue;
+        };
+        out.push((
+            x.parse().unwrap(),
+            size.parse().unwrap(),
+            attr(tag, "text-anchor").unwrap_or_default(),
+            text.trim().to_string(),
+        ));
+    }
+    out
+}
+
+/// A conservative width of a tick label in em: the widths of a common sans font with wide
+/// digits (DejaVu Sans, from memory: digits 0.64 em, minus sign 0.84 em, degree sign 0.5 em).
+fn label_em(text: &str) -> f64 {
+    text.chars()
+        .map(|c| match c {
+            '0'..='9' => 0.64,
+            '−' | '+' | '-' => 0.84,
+            '°' => 0.5,
+            _ => 0.7,
+        })
+        .sum()
+}
+
+/// The plot's rotated axis labels ("gain (dB)", "phase") clear the tick labels beside them,
+/// and the phase trace is continuous (no wrap jumps between neighbouring samples).
+#[test]
+fn plot_axis_labels_clear_the_ticks_and_the_phase_is_smooth() {
+    let dir = tempfile::tempdir().unwrap();
+    for name in ["geophone-inverting-e96.toml", "hydrophone-preamp-9v.toml"] {
+        let spec = example(name);
+        let out = run_in(
+            dir.path(),
+            &[
+                "pick",
+                spec.to_str().unwrap(),
+                "-q",
+                "--yield",
+                "0",
+                "--top",
+                "1",
+                "--plot",
+                "p.svg",
+            ],
+        );
+        assert_eq!(out.code, 0, "{}", out.stderr);
+        let svg = std::fs::read_to_string(dir.path().join("p.svg")).unwrap();
+        let texts = svg_texts(&svg);
+        for desc in ["gain (dB)", "phase"] {
+            let (x, size, _, _) = texts.iter().find(|t| t.3 == desc).unwrap().clone();
+            // Rotated 270° with dy = 0.76 em: its glyphs lie within x … x + 1 em.
+            let right = x + size;
+            let ticks = texts.iter().filter(|t| {
+                t.2 == "end"
+                    && (t.3.ends_with('°') || t.3.parse::<f64>().is_ok() || t.3.starts_with('−'))
+            });
+            for (tx, tsize, _, t) in ticks {
+                let left = tx - label_em(t) * tsize;
+                assert!(
+                    left >= right + 2.0,
+                    "{name}: `{desc}` (to x {right:.1}) meets `{t}` (from x {left:.1})"
+                );
+            }
+        }
+        // The phase curve: the longer polylines are the gain and the phase; neighbouring
+        // samples never jump by a wrap (a sixth of the panel).
+        for points in svg.split("<polyline").skip(1) {
+            let list = points
+                .split("points=\"")
+                .nth(1)
+                .unwrap()
+                .split('"')
+                .next()
+                .unwrap();
+            let pts: Vec<(f64, f64)> = list
+                .split_whitespace()
+                .filter_map(|p| {
+                    let (a, b) = p.split_once(',')?;
+                    Some((a.parse().ok()?, b.parse().ok()?))
+                })
+                .collect();
+            if pts.len() < 50 {
+                continue;
+            }
+            for w in pts.windows(2) {
+                assert!(
+                    (w[1].1 - w[0].1).abs() < 40.0,
+                    "{name}: a jump in a curve {w:?}"
+                );
+            }
+        }
+    }
+}
