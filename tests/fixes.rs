@@ -763,3 +763,21 @@ fn plot_axis_labels_clear_the_ticks_and_the_phase_is_smooth() {
         }
     }
 }
+
+/// The inverting stage's slot roles, as the (ASCII) netlist prints them, read right to a practitioner:
+/// the gain and the input corner count the source resistance, and the divider sets the DC
+/// level (it is not the input resistance, as in the non-inverting stage).
+#[test]
+fn inverting_roles_count_the_source_resistance() {
+    let (dir, _) = spec_dir(&inverting_spec("gain_tolerance = \"5%\"", ""));
+    let out = check_run(dir.path(), &["--yield", "0", "--spice", "b.cir"]);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let netlist = std::fs::read_to_string(dir.path().join("b.cir")).unwrap();
+    for role in [
+        "feedback resistor: gain = -r_fb / (source resistance + r_in)",
+        "input coupling capacitor (corner with source resistance + r_in)",
+        "sets the DC level of the + input and the output",
+    ] {
+        assert!(netlist.contains(role), "{role}:\n{netlist}");
+    }
+}

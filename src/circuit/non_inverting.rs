@@ -1,12 +1,19 @@
 //! Single-supply non-inverting stage.
 //!
 //! ```text
-//!          c_in            (+) U1 ── amp_out ──||── out ── R_load ── ⏚
-//!   in ────||────┬──────── (+)   │             c_out
-//!   vcc ─ r_bias_hi ─┤           │
-//!        r_bias_lo ──┘     (−) ──┴── r_fb ── amp_out
-//!                           └── r_g ──||── ⏚
-//!                                    c_g
+//!  vcc o--[r_bias_hi]--+
+//!                      |
+//!  in o------||--------+-----------|+ \
+//!           c_in       |           |   >--+-- amp_out --||-- out o--[load]-- gnd
+//!                [r_bias_lo]  +----|- /   |              c_out
+//!                      |      |     U1    |
+//!                     gnd     +--[r_fb]---+
+//!                             |
+//!                           [r_g]
+//!                             |
+//!                            === c_g
+//!                             |
+//!                            gnd
 //! ```
 //! Mid-band gain (1 + R_fb/R_g)·R_p/(R_s + R_p), R_p = R_bias_hi ∥ R_bias_lo being the input
 //! resistance. c_g makes the DC gain 1, so the output sits on the divider's voltage; the DC
@@ -49,7 +56,7 @@ const SLOTS: &[SlotDef] = &[
     SlotDef {
         name: "c_in",
         kind: PartKind::Capacitor,
-        role: "input coupling capacitor (corner with the bias divider)",
+        role: "input coupling capacitor (corner with source resistance + the bias divider)",
     },
     SlotDef {
         name: "r_bias_hi",
