@@ -981,21 +981,3 @@ impl SearchPlan for NonInverting {
         }
     }
 }
-
-impl NonInverting {
-    /// Loss of coupling network `network` (index into [`Circuit::networks`]) at `f` Hz, dB: the
-    /// gain leg (1) as |G_mid/G(f)| with G(f) = 1 + R_fb/(R_g + 1/(jωC_g)); the others as a
-    /// first-order high-pass, 10·log10(1 + (f_c/f)²) (any circuit-theory text).
-    pub fn network_loss_db(&self, spec: &Spec, v: &[f64], network: usize, f: f64) -> f64 {
-        if network == 1 {
-            return gain_leg_loss_db(v[R_FB], v[R_G], v[C_G], f);
-        }
-        let n = self.networks(spec, v)[network];
-        common::high_pass_loss_db(n.resistance, n.capacitance, f)
-    }
-
-    /// The bias divider's open-circuit voltage V·R_lo/(R_hi + R_lo), V (voltage divider).
-    pub fn divider_voltage(&self, spec: &Spec, v: &[f64]) -> f64 {
-        spec.supply * v[R_BIAS_LO] / (v[R_BIAS_HI] + v[R_BIAS_LO])
-    }
-}
