@@ -781,3 +781,56 @@ fn inverting_roles_count_the_source_resistance() {
         assert!(netlist.contains(role), "{role}:\n{netlist}");
     }
 }
+
+/// A resistor whose dissipation approaches its rating (or, unrated, what the smallest common
+/// parts take) is named in the cautions: 9 V across a 100 Ω + 100 Ω divider is 45 mA, about
+/// 202 mW in each (P = V²/R with 4.5 V across 100 Ω, Ohm's law).
+#[test]
+fn a_hot_resistor_is_cautioned() {
+    let (dir, _) = spec_dir(&inverting_spec("gain_tolerance = \"5%\"", ""));
+    let mut build = INVERTING_BUILD;
+    build[5] = "r_bias_hi=100";
+    build[7] = "r_bias_lo=100";
+    let mut args = vec!["check", "spec.toml"];
+    args.extend(build);
+    args.extend(["--yield", "0", "--report", "r.html"]);
+    let out = run_in(dir.path(), &args);
+    assert_eq!(out.code, 0, "{}{}", out.stdout, out.stderr);
+    let cautions = out.stdout.split("Cautions").nth(1).unwrap_or_default();
+    assert!(
+        cautions.contains("! r_bias_hi dissipates 202 mW and its power rating is not given"),
+        "{}",
+        out.stdout
+    );
+    assert!(
+        cautions.contains("! r_bias_lo dissipates"),
+        "{}",
+        out.stdout
+    );
+    assert!(!cautions.contains("r_fb dissipates"), "{}", out.stdout);
+    let html = std::fs::read_to_string(dir.path().join("r.html")).unwrap();
+    assert!(
+        html.contains("<li>r_bias_hi dissipates 202 mW"),
+        "HTML cautions"
+    );
+    // With a rating from the inventory: the share of it.
+    std::fs::write(
+        dir.path().join("inv.csv"),
+        "kind,value,tolerance,qty,power\nresistor,100,1%,5,0.25\nresistor,10k,1%,5,0.25\n\
+         resistor,100k,1%,5,0.25\ncapacitor,1u,10%,5,\ncapacitor,10u,10%,5,\n",
+    )
+    .unwrap();
+    let mut args = vec!["check", "spec.toml"];
+    args.extend(build);
+    args.extend(["--yield", "0", "--stock", "inv.csv"]);
+    let out = run_in(dir.path(), &args);
+    assert!(
+        out.stdout
+            .contains("! r_bias_hi dissipates 202 mW, 81 % of its 250 mW rating"),
+        "{}",
+        out.stdout
+    );
+    // A cool build has no such caution.
+    let out = check_run(dir.path(), &["--yield", "0"]);
+    assert!(!out.stdout.contains("! r_"), "{}", out.stdout);
+}

@@ -694,7 +694,16 @@ fn checks(
         if let Some(rating) = c.rating {
             out.push(Check::new(
                 &format!("rating_{}", c.slot),
-                format!("{} voltage rating vs {worst} DC / 0.8", c.slot),
+                format!(
+                    "{} voltage rating ({} DC ≤ {:.0} % of it)",
+                    c.slot,
+                    if spec.worst_case() {
+                        "worst"
+                    } else {
+                        "nominal"
+                    },
+                    100.0 * CAP_DERATING
+                ),
                 rating,
                 Bound::Min,
                 c.rating_needed,
@@ -722,7 +731,11 @@ fn checks(
         if let Some(rating) = p.rating {
             out.push(Check::new(
                 &format!("power_{}", p.slot),
-                format!("{} power vs 50 % of its rating", p.slot),
+                format!(
+                    "{} power (≤ {:.0} % of its rating)",
+                    p.slot,
+                    100.0 * RESISTOR_DERATING
+                ),
                 p.watts,
                 Bound::Max,
                 rating * RESISTOR_DERATING,

@@ -50,6 +50,46 @@ pub fn cap_range(c: &crate::analysis::CapReport) -> (f64, f64) {
     }
 }
 
+/// Share of a resistor's rating past which the reports caution that it runs hot: 80 % of the
+/// 50 % derating the power check applies (common practice: a resistor near its rating runs
+/// hot, drifts, and can scorch the board or fail).
+pub const HOT_SHARE: f64 = 0.8 * crate::analysis::RESISTOR_DERATING;
+
+/// The dissipation past which a resistor without a given rating is cautioned: half of 1/16 W,
+/// the rating of the smallest common chip resistors (0402; from memory).
+pub const UNRATED_HOT_W: f64 = 0.0625 * crate::analysis::RESISTOR_DERATING;
+
+/// Cautions that belong to one build: a resistor whose dissipation approaches its rating (or,
+/// without a rating, that the smallest common parts would not take), in slot order.
+pub fn build_cautions(evaluation: &crate::analysis::Evaluation) -> Vec<String> {
+    use crate::value::{format_sig, Unit};
+    let w = |x: f64| format_sig(x, Unit::Watt, 3);
+    evaluation
+        .power
+        .iter()
+        .filter_map(|p| match p.rating {
+            Some(r) if p.watts >= HOT_SHARE * r => Some(format!(
+                "{} dissipates {}, {:.0} % of its {} rating: a resistor near its rating runs hot, \
+                 drifts and can scorch the board or fail; keep it under {:.0} % (a larger part, or \
+                 a larger value) and check the datasheet's derating with temperature.",
+                p.slot,
+                w(p.watts),
+                100.0 * p.watts / r,
+                w(r),
+                100.0 * crate::analysis::RESISTOR_DERATING
+            )),
+            None if p.watts >= UNRATED_HOT_W => Some(format!(
+                "{} dissipates {} and its power rating is not given: fit a part rated for at \
+                 least {} (twice the dissipation), or it may overheat.",
+                p.slot,
+                w(p.watts),
+                w(p.watts / crate::analysis::RESISTOR_DERATING)
+            )),
+            _ => None,
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     #[test]

@@ -431,7 +431,7 @@ pub fn report_for(
 
     let Some(best) = ranked.get(chosen) else {
         out.push_str("<h2>Builds</h2>\n<p>No build from this stock meets the spec.</p>\n");
-        cautions(&mut out);
+        cautions(&mut out, &[]);
         out.push_str("</body>\n</html>\n");
         return Ok(out);
     };
@@ -474,7 +474,7 @@ pub fn report_for(
     let rows = bom::rows(stage, &best.build, stock);
     bom_table(&mut out, &rows);
 
-    cautions(&mut out);
+    cautions(&mut out, &super::common::build_cautions(&best.evaluation));
     let _ = writeln!(
         out,
         "<footer>Written by stockfit {}. Values are nominal unless marked worst case.</footer>\n</body>\n</html>",
@@ -483,9 +483,13 @@ pub fn report_for(
     Ok(out)
 }
 
-fn cautions(out: &mut String) {
+fn cautions(out: &mut String, own: &[String]) {
     out.push_str("<h2>Cautions</h2>\n<ul class=\"cautions\">\n");
-    for c in table::CAUTIONS {
+    for c in own
+        .iter()
+        .map(String::as_str)
+        .chain(table::CAUTIONS.iter().copied())
+    {
         let _ = writeln!(out, "<li>{}</li>", escape(c));
     }
     out.push_str("</ul>\n");

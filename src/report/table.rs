@@ -618,15 +618,26 @@ fn detail_lines(spec: &Spec, stage: &dyn Circuit, ranked: &Ranked, style: Style)
     out.push('\n');
     out.push_str(&capacitors(spec, &ranked.evaluation, &ranked.build, stage));
     out.push('\n');
-    out.push_str(&cautions());
+    out.push_str(&cautions_for(&super::common::build_cautions(
+        &ranked.evaluation,
+    )));
     out
 }
 
 /// The cautions the reports show (polarised capacitors, ratings, mains), one `!` line each
 /// under a `Cautions` heading; they defer to the datasheets, local codes and licensed practice.
 pub fn cautions() -> String {
+    cautions_for(&[])
+}
+
+/// [`cautions`] after a build's own (a resistor that runs hot).
+fn cautions_for(own: &[String]) -> String {
     let mut out = String::from("Cautions\n");
-    for c in CAUTIONS {
+    for c in own
+        .iter()
+        .map(String::as_str)
+        .chain(CAUTIONS.iter().copied())
+    {
         let _ = writeln!(out, "  ! {c}");
     }
     out
