@@ -175,6 +175,7 @@ impl Prepared {
             max_nodes: None,
             plan: stockfit::search::PlanChoice::Best,
             stop: stockfit::search::Stop::NEVER,
+            distinct: &[],
         }
     }
 

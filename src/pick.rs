@@ -272,6 +272,8 @@ pub struct Options {
     /// When to stop before the search is proven complete (a time limit, Ctrl-C); the
     /// builds are then the best found, marked as not proven.
     pub stop: Stop,
+    /// Slot names in which every two ranked builds differ (`--distinct`); empty: none.
+    pub distinct: Vec<String>,
 }
 
 impl Default for Options {
@@ -282,8 +284,34 @@ impl Default for Options {
             plan: PlanChoice::Best,
             yield_options: None,
             stop: Stop::NEVER,
+            distinct: Vec::new(),
         }
     }
+}
+
+/// The slot indices of `--distinct` names (each once; a name the circuit lacks is refused
+/// as `--lock` and `--set` refuse it).
+pub fn distinct_slots(circuit: &dyn Circuit, names: &[String]) -> Result<Vec<usize>, Error> {
+    let mut out = Vec::new();
+    for name in names {
+        let Some(slot) = circuit::slot_index(circuit, name) else {
+            let names = slot_names(circuit);
+            let hint = spec::nearest(name, &names)
+                .map(|n| format!("did you mean `{n}`? "))
+                .unwrap_or_default();
+            return Err(Error::Slot(SlotError::Unknown {
+                flag: "--distinct",
+                slot: name.clone(),
+                circuit: circuit.kind().name(),
+                hint,
+                slots: names.join(", "),
+            }));
+        };
+        if !out.contains(&slot) {
+            out.push(slot);
+        }
+    }
+    Ok(out)
 }
 
 /// What a pick found.
@@ -310,6 +338,7 @@ pub fn pick(
     progress: &mut dyn FnMut(Progress),
 ) -> Result<Picked, Error> {
     let circuit = circuit::circuit_for(spec.stage);
+    let distinct = distinct_slots(circuit, &options.distinct)?;
     let req = Request {
         spec,
         stage: circuit,
@@ -319,6 +348,7 @@ pub fn pick(
         max_nodes: None,
         plan: options.plan,
         stop: options.stop.clone(),
+        distinct: &distinct,
     };
     // The search and the diagnosis's relaxed searches share their candidate tables.
     let (outcome, proven, diagnosis) = search::with_tables_kept(|| -> Result<_, Error> {

@@ -232,6 +232,14 @@ impl Spec {
             .or(self.input_peak.map(|v| v * self.gain.abs()))
     }
 
+    /// The output peak a build must carry when its highest |gain| is `gain_mag`: `output_peak`,
+    /// or `input_peak` × `gain_mag`. The slew-rate check and the SNR read it at the build's
+    /// worst-case highest |gain|, where the required input peak swings the output furthest
+    /// (issue 12, part 8), not at the target gain.
+    pub fn output_peak_at(&self, gain_mag: f64) -> Option<f64> {
+        self.output_peak.or(self.input_peak.map(|v| v * gain_mag))
+    }
+
     /// True when requirements are judged at worst case ([`ToleranceMode::Worst`]).
     pub fn worst_case(&self) -> bool {
         self.tolerance_mode == ToleranceMode::Worst
@@ -348,6 +356,14 @@ const GOAL_KEYS: [&str; Goal::ALL.len()] = {
     keys
 };
 const SECTIONS: &[&str] = &["stage", "amplifier", "stock", "goals", "lock"];
+/// The keys of each section, for an unknown key that another section knows (`gbw` under
+/// `[stage]`: "belongs in `[amplifier]`").
+const KEYS_BY_SECTION: &[(&str, &[&str])] = &[
+    ("stage", STAGE_KEYS),
+    ("amplifier", AMPLIFIER_KEYS),
+    ("stock", STOCK_KEYS),
+    ("goals", &GOAL_KEYS),
+];
 
 /// Where each section and key of a spec starts, from the TOML parser's spans. Built once per
 /// spec, so that locating an error is a hash lookup and a bisection in the line starts; the
@@ -400,6 +416,15 @@ impl Positions {
     }
 }
 
+/// 1-based line of `key` in `[section]` of a spec's text (however TOML writes it), for the
+/// binary to point at the key that named a file it could not read; `None` when the text does
+/// not parse or has no such key.
+pub fn key_line(text: &str, section: &str, key: &str) -> Option<usize> {
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    let doc = toml_edit::ImDocument::parse(text).ok()?;
+    Positions::new(&doc, LineIndex::lf(text.as_bytes())).line_of(section, Some(key))
+}
+
 /// Reads TOML fields, collecting errors with their lines: the first [`MAX_LISTED_PROBLEMS`]
 /// in full, the rest only counted, so a spec of thousands of bad keys costs little more than
 /// reading it.
@@ -442,9 +467,13 @@ impl Reader {
                     self.more += 1;
                     continue;
                 }
-                let hint = match nearest(key, known) {
-                    Some(k) => format!("; did you mean `{k}`?"),
-                    None => format!("; known keys: {}", known.join(", ")),
+                let elsewhere = KEYS_BY_SECTION
+                    .iter()
+                    .find(|(s, keys)| *s != section && keys.contains(&key.as_str()));
+                let hint = match (elsewhere, nearest(key, known)) {
+                    (Some((s, _)), _) => format!("; `{key}` belongs in `[{s}]`"),
+                    (None, Some(k)) => format!("; did you mean `{k}`?"),
+                    (None, None) => format!("; known keys: {}", known.join(", ")),
                 };
                 self.error(section, Some(key), format!("unknown key{hint}"));
             }
@@ -1466,6 +1495,9 @@ impl Spec {
         }
 
         if !r.errors.is_empty() {
+            // In the order of the file, as an editor shows them (the checks run key by key, the
+            // unknown keys first); problems without a line last.
+            r.errors.sort_by_key(|e| e.line.unwrap_or(usize::MAX));
             return Err(SpecErrors(r.errors, r.more));
         }
         // Every field read above is Some when no error was recorded.
@@ -1641,6 +1673,45 @@ band = ["20 Hz", "20 kHz"]
 
     fn message(text: &str) -> String {
         Spec::from_toml(text).unwrap_err().to_string()
+    }
+
+    /// Issue 12, part 8: problems are listed in the file's order, whichever check found them.
+    #[test]
+    fn problems_are_listed_in_line_order() {
+        let text = "[stage]\nkind = \"inverting\"\nsupply = \"9 V\"\ngain = -10\nload = \"1m\"\n\
+                    band = [\"40 Hz\", \"20 kHz\"]\nbogus = 1\n\n[stock]\nnope = 2\n";
+        let lines: Vec<Option<usize>> = places(text).into_iter().map(|(l, _)| l).collect();
+        assert_eq!(lines, [Some(5), Some(7), Some(10)], "{}", message(text));
+    }
+
+    /// An amplifier key under `[stage]` (and any key of another section) says where it goes.
+    #[test]
+    fn a_key_of_another_section_points_there() {
+        let text = "[stage]\nkind = \"inverting\"\nsupply = \"9 V\"\ngain = -10\nload = \"1k\"\n\
+                    band = [\"40 Hz\", \"20 kHz\"]\ngbw = \"1 MHz\"\n\n[amplifier]\ncombine = true\n";
+        assert_eq!(
+            places(text),
+            [
+                (Some(7), "stage.gbw".to_string()),
+                (Some(10), "amplifier.combine".to_string())
+            ]
+        );
+        let m = message(text);
+        assert!(m.contains("`gbw` belongs in `[amplifier]`"), "{m}");
+        assert!(m.contains("`combine` belongs in `[stock]`"), "{m}");
+    }
+
+    #[test]
+    fn key_line_finds_a_key_however_written() {
+        let text =
+            "# a spec\n[stage]\nkind = 1\n\n[stock]\nresistors = \"E24\"\ncapacitors = \"a.csv\"\n";
+        assert_eq!(key_line(text, "stock", "capacitors"), Some(7));
+        assert_eq!(
+            key_line("stock.capacitors = 'a.csv'\n", "stock", "capacitors"),
+            Some(1)
+        );
+        assert_eq!(key_line(text, "stock", "combine"), None);
+        assert_eq!(key_line("[[[", "stock", "capacitors"), None);
     }
 
     #[test]

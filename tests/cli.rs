@@ -1345,7 +1345,7 @@ fn malformed_inputs_exit_2_with_a_located_message() {
             expect: vec![s("--top")],
         },
         Bad {
-            what: "series range with a unit",
+            what: "series range with a capacitance above the default --from",
             args: vec![s("series"), s("E24"), s("--to"), s("10uF")],
             expect: vec![s("--to"), s("10uF")],
         },

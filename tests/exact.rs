@@ -11,7 +11,7 @@ use common::{
     both_or_same_error, builds_are_sound, case_strategy, prepare, run_property, same_scores, Case,
 };
 use proptest::prelude::*;
-use stockfit::search::{brute::brute_force, search, PlanChoice};
+use stockfit::search::{brute::brute_force, search, PlanChoice, Request};
 
 fn run_case(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCaseError> {
     let p = prepare(case)?;
@@ -49,6 +49,109 @@ fn generic_case(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCas
     let own = search(&p.request(case.top), &mut |_| {})
         .map_err(|e| TestCaseError::fail(e.to_string()))?;
     same_scores(case, ("generic", "hand-tuned"), &generic, &own)
+}
+
+/// `--distinct`: with the first and third slots distinct, the search and brute force rank the
+/// same scores, and every two ranked builds differ in those slots' values.
+fn distinct_case(case: &Case, found: &std::cell::Cell<u32>) -> Result<(), TestCaseError> {
+    let p = prepare(case)?;
+    let distinct = [0usize, 2];
+    let req = Request {
+        distinct: &distinct,
+        ..p.request(case.top)
+    };
+    let fast = search(&req, &mut |_| {});
+    let slow = brute_force(&req);
+    let Some((fast, slow)) = both_or_same_error(case, fast, slow)? else {
+        return Ok(());
+    };
+    if !slow.builds.is_empty() {
+        found.set(found.get() + 1);
+    }
+    same_scores(case, ("fast", "brute"), &fast, &slow)?;
+    builds_are_sound(&p, &fast)?;
+    let key = |b: &stockfit::build::Build| -> Vec<u64> {
+        distinct
+            .iter()
+            .flat_map(|&i| b.parts[i].pieces.iter().map(|q| q.value.to_bits()))
+            .collect()
+    };
+    for (i, a) in fast.builds.iter().enumerate() {
+        for b in &fast.builds[i + 1..] {
+            prop_assert_ne!(key(&a.build), key(&b.build));
+        }
+    }
+    Ok(())
+}
+
+#[test]
+fn distinct_slots_match_brute_force() {
+    run_property(case_strategy("single", 3, 2), 30, 3, distinct_case);
+}
+
+/// Two 10 kΩ lines (1 % and 0.1 %, one piece each): builds that differ only by which slot
+/// gets which count once (issue 12, part 8), in the search and in brute force alike.
+#[test]
+fn swapped_parts_of_one_value_count_once_and_stay_exact() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/data");
+    let spec = std::fs::read_to_string(root.join("cli-qty-one-10k.toml")).unwrap();
+    let spec = spec
+        .lines()
+        .filter(|l| !l.starts_with("resistors") && !l.starts_with("capacitors"))
+        .collect::<Vec<_>>()
+        .join("\n");
+    let csv = "kind,value,tolerance,qty,voltage,unit_cost\n\
+               resistor,10k,1%,1,,0\nresistor,10k,0.1%,1,,0\nresistor,22k,1%,5,,0.05\n\
+               resistor,47k,1%,5,,0.05\nresistor,100k,1%,5,,0.05\n\
+               capacitor,1u,10%,5,50V,0.05\ncapacitor,10u,20%,5,25V,0.05\n";
+    let case = Case {
+        spec_toml: spec,
+        csv: csv.to_string(),
+        lock: None,
+        top: 8,
+    };
+    let found = std::cell::Cell::new(0);
+    run_case(&case, &found).unwrap();
+    let p = prepare(&case).unwrap();
+    let outcome = search(&p.request(case.top), &mut |_| {}).unwrap();
+    let looks: Vec<Vec<(u64, Vec<u64>)>> = outcome
+        .builds
+        .iter()
+        .map(|r| {
+            let mut by_value: Vec<(u64, Vec<u64>)> = Vec::new();
+            for part in &r.build.parts {
+                let v = part.value.to_bits();
+                let t = part.pieces[0].tolerance.to_bits();
+                match by_value.iter_mut().find(|(x, _)| *x == v) {
+                    Some((_, ts)) => ts.push(t),
+                    None => by_value.push((v, vec![t])),
+                }
+            }
+            let values: Vec<(u64, Vec<u64>)> = r
+                .build
+                .parts
+                .iter()
+                .map(|q| (q.value.to_bits(), Vec::new()))
+                .collect();
+            for (_, ts) in &mut by_value {
+                ts.sort_unstable();
+            }
+            by_value.sort();
+            values.into_iter().chain(by_value).collect()
+        })
+        .collect();
+    assert!(looks.len() >= 3);
+    for i in 0..looks.len() {
+        for j in i + 1..looks.len() {
+            assert_ne!(
+                looks[i],
+                looks[j],
+                "builds {} and {} look alike",
+                i + 1,
+                j + 1
+            );
+        }
+    }
 }
 
 #[test]

@@ -317,7 +317,8 @@ pub fn quick_failure(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Option<
             }
         }
     }
-    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
+    // At the worst-case highest |gain| (the vertices' largest), as `checks` judges it.
+    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.output_peak_at(gain_max)) {
         if sr / (2.0 * std::f64::consts::PI * peak) < spec.band.1 * (1.0 - REL) {
             return Some("slew_rate");
         }
@@ -740,8 +741,10 @@ fn checks(
             Unit::Volt,
         )),
     }
-    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
-        // Full-power bandwidth SR / (2π V_peak) must reach the band's top (any op-amp text).
+    let gain_mag_max = m.gain_min.abs().max(m.gain_max.abs());
+    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.output_peak_at(gain_mag_max)) {
+        // Full-power bandwidth SR / (2π V_peak) must reach the band's top (any op-amp text),
+        // with V_peak the required input peak at the worst-case highest |gain|.
         out.push(Check::new(
             "slew_rate",
             "full-power bandwidth at the required peak".into(),
@@ -755,7 +758,16 @@ fn checks(
         if let Some(rating) = c.rating {
             out.push(Check::new(
                 &format!("rating_{}", c.slot),
-                format!("{} voltage rating vs {worst} DC / 0.8", c.slot),
+                format!(
+                    "{} voltage rating ({} DC ≤ {:.0} % of it)",
+                    c.slot,
+                    if spec.worst_case() {
+                        "worst"
+                    } else {
+                        "nominal"
+                    },
+                    100.0 * CAP_DERATING
+                ),
                 rating,
                 Bound::Min,
                 c.rating_needed,
@@ -783,7 +795,11 @@ fn checks(
         if let Some(rating) = p.rating {
             out.push(Check::new(
                 &format!("power_{}", p.slot),
-                format!("{} power vs 50 % of its rating", p.slot),
+                format!(
+                    "{} power (≤ {:.0} % of its rating)",
+                    p.slot,
+                    100.0 * RESISTOR_DERATING
+                ),
                 p.watts,
                 Bound::Max,
                 rating * RESISTOR_DERATING,

@@ -94,14 +94,31 @@ pub struct NoiseReport {
     pub output_density_mid: f64,
     /// Output density ÷ |response| at the centre.
     pub input_density_mid: f64,
-    /// Signal-to-noise ratio of a sine at the required output peak, dB, when the spec asks
-    /// for a peak: 20·log10((V_peak/√2) / V_noise,rms).
+    /// Signal-to-noise ratio of a sine at the required peak, dB, when the spec asks for a
+    /// peak: 20·log10((V_peak/√2) / V_noise,rms), see [`snr_db`].
     pub snr_db: Option<f64>,
     /// In the order of [`output_psd`].
     pub by_source: Vec<SourceNoise>,
 }
 
 pub use crate::circuit::{NoiseCircuit, NoisePlace as Place};
+
+/// SNR of a sine at the spec's required peak, dB: 20·log10((V_peak/√2) / V_noise,rms).
+///
+/// A required output peak is measured against the output noise. A required input peak is
+/// measured against the input-referred noise: the build's own gain carries both the signal
+/// and the noise to the output, so the ratio is the same at any gain the build has, its
+/// worst-case highest |gain| included — never the target gain times the input peak, which
+/// overstates the SNR of a build whose gain falls short of the target (issue 12, part 8).
+pub fn snr_db(spec: &Spec, output_rms: f64, input_rms: f64) -> Option<f64> {
+    let (signal, noise) = match (spec.output_peak, spec.input_peak) {
+        (Some(out), _) => (out, output_rms),
+        (None, Some(inp)) => (inp, input_rms),
+        (None, None) => return None,
+    };
+    (noise > 0.0 && noise.is_finite())
+        .then(|| 20.0 * (signal / std::f64::consts::SQRT_2 / noise).log10())
+}
 
 fn re(r: f64) -> Complex64 {
     Complex64::new(r, 0.0)
@@ -220,10 +237,7 @@ pub fn noise(inputs: &NoiseInputs, stage: &dyn Circuit, spec: &Spec, v: &[f64]) 
         input_rms_v: output_rms / stage.mid_gain(spec, v).abs(),
         output_density_mid: density_mid,
         input_density_mid: density_mid / stage.response(spec, v, &opamp, f_mid).norm(),
-        snr_db: spec
-            .required_output_peak()
-            .filter(|_| output_rms > 0.0)
-            .map(|peak| 20.0 * (peak / std::f64::consts::SQRT_2 / output_rms).log10()),
+        snr_db: snr_db(spec, output_rms, output_rms / stage.mid_gain(spec, v).abs()),
         by_source,
     }
 }

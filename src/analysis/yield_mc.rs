@@ -156,6 +156,8 @@ enum Judge {
     OutputSwing(f64),
     /// Does not depend on the parts: pass or fail for every sample.
     Fixed(bool),
+    /// Slew rate and required input peak: the full-power bandwidth at the sample's |gain|.
+    SlewRate(f64, f64),
     /// Index into `cap_bias` and the rating.
     Rating(usize, f64),
     /// Index into `cap_bias` and whether the nominal DC across it is ≥ 0.
@@ -202,13 +204,22 @@ fn judges(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Vec<(String, Judge
         (Some(outp), None) => out.push(("output_swing".into(), Judge::OutputSwing(outp))),
         (None, None) => out.push(("output_swing".into(), Judge::OutputSwing(0.0))),
     }
-    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
-        // Full-power bandwidth SR / (2π V_peak) against the band's top (any op-amp text).
-        let fpbw = sr / (2.0 * std::f64::consts::PI * peak);
-        out.push((
-            "slew_rate".into(),
-            Judge::Fixed(passes(fpbw, Bound::Min, spec.band.1)),
-        ));
+    if let Some(sr) = spec.amplifier.slew_rate {
+        // Full-power bandwidth SR / (2π V_peak) against the band's top (any op-amp text): a
+        // fixed verdict for a required output peak, per sample (its own |gain|) for an input
+        // peak.
+        match (spec.output_peak, spec.input_peak) {
+            (Some(peak), _) => out.push((
+                "slew_rate".into(),
+                Judge::Fixed(passes(
+                    sr / (2.0 * std::f64::consts::PI * peak),
+                    Bound::Min,
+                    spec.band.1,
+                )),
+            )),
+            (None, Some(inp)) => out.push(("slew_rate".into(), Judge::SlewRate(sr, inp))),
+            (None, None) => {}
+        }
     }
     let dc = stage.dc(spec, &v, &DcErrors::nominal(spec));
     for (i, b) in stage.cap_bias(spec, &v, &dc).iter().enumerate() {
@@ -365,6 +376,11 @@ pub fn monte_carlo(
                 Judge::InputRange(inp) => passes(swing / gain, Bound::Min, inp),
                 Judge::OutputSwing(outp) => passes(swing, Bound::Min, outp),
                 Judge::Fixed(ok) => ok,
+                Judge::SlewRate(sr, inp) => passes(
+                    sr / (2.0 * std::f64::consts::PI * inp * gain),
+                    Bound::Min,
+                    f_hi,
+                ),
                 Judge::Rating(i, rating) => {
                     passes(rating, Bound::Min, caps[i].volts.abs() / CAP_DERATING)
                 }

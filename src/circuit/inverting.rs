@@ -1,12 +1,15 @@
 //! Single-supply inverting stage.
 //!
 //! ```text
-//!            c_in     r_in            r_fb
-//!   in ──┬──||────/\/\/──┬──────/\/\/────┬── amp_out ──||── out ──┐
-//!        │ (source)      └──── (−) U1 ───┘            c_out       R_load
-//!   vcc ─ r_bias_hi ─┬─ (+)                                       │
-//!                    r_bias_lo                                    ⏚
-//!                    ⏚
+//!                         +------[r_fb]------+
+//!                         |                  |
+//!  in o--||--[r_in]-------+-----|- \         |
+//!       c_in                    |   >--------+-- amp_out --||-- out o--[load]-- gnd
+//!  vcc o--[r_bias_hi]--+--------|+ /  U1                   c_out
+//!                      |
+//!                 [r_bias_lo]
+//!                      |
+//!                     gnd
 //! ```
 //! Mid-band gain −R_fb/(R_s + R_in); the input resistance is R_in (virtual ground). At DC c_in is
 //! open, so the amplifier follows its + input: the output sits on the divider's voltage, and
@@ -51,22 +54,22 @@ const SLOTS: &[SlotDef] = &[
     SlotDef {
         name: "r_fb",
         kind: PartKind::Resistor,
-        role: "feedback resistor: gain = −r_fb / r_in",
+        role: "feedback resistor: gain = −r_fb / (source resistance + r_in)",
     },
     SlotDef {
         name: "r_bias_hi",
         kind: PartKind::Resistor,
-        role: "bias divider, supply to + input",
+        role: "bias divider, supply to + input: sets the DC level of the + input and the output",
     },
     SlotDef {
         name: "r_bias_lo",
         kind: PartKind::Resistor,
-        role: "bias divider, + input to ground",
+        role: "bias divider, + input to ground (bias currents balance when r_bias_hi ∥ r_bias_lo = r_fb)",
     },
     SlotDef {
         name: "c_in",
         kind: PartKind::Capacitor,
-        role: "input coupling capacitor (corner with r_in)",
+        role: "input coupling capacitor (corner with source resistance + r_in)",
     },
     SlotDef {
         name: "c_out",
@@ -616,19 +619,5 @@ impl SearchPlan for Inverting {
             }
             _ => Some(0.0),
         }
-    }
-}
-
-impl Inverting {
-    /// Loss of coupling network `network` (index into [`Circuit::networks`]) at `f` Hz, dB: a
-    /// first-order high-pass, 10·log10(1 + (f_c/f)²) (any circuit-theory text).
-    pub fn network_loss_db(&self, spec: &Spec, v: &[f64], network: usize, f: f64) -> f64 {
-        let n = self.networks(spec, v)[network];
-        common::high_pass_loss_db(n.resistance, n.capacitance, f)
-    }
-
-    /// The bias divider's open-circuit voltage V·R_lo/(R_hi + R_lo), V (voltage divider).
-    pub fn divider_voltage(&self, spec: &Spec, v: &[f64]) -> f64 {
-        spec.supply * v[R_BIAS_LO] / (v[R_BIAS_HI] + v[R_BIAS_LO])
     }
 }

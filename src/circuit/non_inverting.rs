@@ -1,12 +1,19 @@
 //! Single-supply non-inverting stage.
 //!
 //! ```text
-//!          c_in            (+) U1 ── amp_out ──||── out ── R_load ── ⏚
-//!   in ────||────┬──────── (+)   │             c_out
-//!   vcc ─ r_bias_hi ─┤           │
-//!        r_bias_lo ──┘     (−) ──┴── r_fb ── amp_out
-//!                           └── r_g ──||── ⏚
-//!                                    c_g
+//!  vcc o--[r_bias_hi]--+
+//!                      |
+//!  in o------||--------+-----------|+ \
+//!           c_in       |           |   >--+-- amp_out --||-- out o--[load]-- gnd
+//!                [r_bias_lo]  +----|- /   |              c_out
+//!                      |      |     U1    |
+//!                     gnd     +--[r_fb]---+
+//!                             |
+//!                           [r_g]
+//!                             |
+//!                            === c_g
+//!                             |
+//!                            gnd
 //! ```
 //! Mid-band gain (1 + R_fb/R_g)·R_p/(R_s + R_p), R_p = R_bias_hi ∥ R_bias_lo being the input
 //! resistance. c_g makes the DC gain 1, so the output sits on the divider's voltage; the DC
@@ -49,7 +56,7 @@ const SLOTS: &[SlotDef] = &[
     SlotDef {
         name: "c_in",
         kind: PartKind::Capacitor,
-        role: "input coupling capacitor (corner with the bias divider)",
+        role: "input coupling capacitor (corner with source resistance + the bias divider)",
     },
     SlotDef {
         name: "r_bias_hi",
@@ -985,23 +992,5 @@ impl SearchPlan for NonInverting {
                 common::cap_ok(c_out, v_div).then_some(0.0)
             }
         }
-    }
-}
-
-impl NonInverting {
-    /// Loss of coupling network `network` (index into [`Circuit::networks`]) at `f` Hz, dB: the
-    /// gain leg (1) as |G_mid/G(f)| with G(f) = 1 + R_fb/(R_g + 1/(jωC_g)); the others as a
-    /// first-order high-pass, 10·log10(1 + (f_c/f)²) (any circuit-theory text).
-    pub fn network_loss_db(&self, spec: &Spec, v: &[f64], network: usize, f: f64) -> f64 {
-        if network == 1 {
-            return gain_leg_loss_db(v[R_FB], v[R_G], v[C_G], f);
-        }
-        let n = self.networks(spec, v)[network];
-        common::high_pass_loss_db(n.resistance, n.capacitance, f)
-    }
-
-    /// The bias divider's open-circuit voltage V·R_lo/(R_hi + R_lo), V (voltage divider).
-    pub fn divider_voltage(&self, spec: &Spec, v: &[f64]) -> f64 {
-        spec.supply * v[R_BIAS_LO] / (v[R_BIAS_HI] + v[R_BIAS_LO])
     }
 }

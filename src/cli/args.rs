@@ -181,6 +181,14 @@ pub enum Command {
         /// How many builds to rank (1 to 1000).
         #[arg(long, default_value_t = 5, value_parser = parse_top)]
         top: usize,
+        /// Which ranked build the netlist, plot, schematic, BOM and the HTML report's detail
+        /// are of, and the terminal's detail (1 = the best); the JSON holds every ranked build.
+        #[arg(long, value_name = "N", value_parser = parse_build)]
+        build: Option<usize>,
+        /// Rank only builds that differ from each other in these slots (comma-separated names,
+        /// e.g. `r_fb,r_g`): of builds alike there, only the best. Default: none.
+        #[arg(long, value_name = "SLOTS", value_delimiter = ',')]
+        distinct: Vec<String>,
         #[command(flatten)]
         output: Output,
     },
@@ -233,11 +241,43 @@ mod tests {
         .unwrap();
         match a.command {
             Command::Pick {
-                lock, top, output, ..
+                lock,
+                top,
+                build,
+                distinct,
+                output,
+                ..
             } => {
                 assert_eq!(lock, vec!["r_in=47k", "c_in=1u"]);
                 assert_eq!(top, 3);
+                assert_eq!(build, None);
+                assert!(distinct.is_empty());
                 assert_eq!(output.json.as_deref(), Some("-"));
+            }
+            other => panic!("{other:?}"),
+        }
+    }
+
+    #[test]
+    fn distinct_takes_a_comma_separated_list() {
+        let a = Arguments::try_parse_from([
+            "stockfit",
+            "pick",
+            "x.toml",
+            "--distinct",
+            "r_fb,r_g",
+            "--distinct",
+            "c_in",
+            "--build",
+            "2",
+        ])
+        .unwrap();
+        match a.command {
+            Command::Pick {
+                distinct, build, ..
+            } => {
+                assert_eq!(distinct, vec!["r_fb", "r_g", "c_in"]);
+                assert_eq!(build, Some(2));
             }
             other => panic!("{other:?}"),
         }

@@ -191,7 +191,7 @@ fn write(target: &Target, kind: Kind, text: &str) -> Result<(), Failure> {
 }
 
 /// What a run with builds writes: the builds' JSON, and the netlist, plot, schematic, BOM
-/// and HTML report of the first build.
+/// and HTML report of the chosen build (the first unless `pick --build N`).
 pub struct Builds<'a> {
     pub spec: &'a Spec,
     pub circuit: &'a dyn Circuit,
@@ -200,11 +200,14 @@ pub struct Builds<'a> {
     pub stock_text: &'a str,
     /// The search ran to its exact end.
     pub proven: bool,
+    /// The ranked build (0-based) the netlist, plot, schematic, BOM and report detail are of
+    /// (`pick --build N`).
+    pub chosen: usize,
 }
 
 /// Write every requested output of a run with builds.
 pub fn write_builds(output: &Output, b: &Builds) -> Result<(), Failure> {
-    let Some(best) = b.ranked.first() else {
+    let Some(best) = b.ranked.get(b.chosen) else {
         return Ok(());
     };
     // Every output is drawn before the first is written, so that one that cannot be drawn
@@ -217,7 +220,14 @@ pub fn write_builds(output: &Output, b: &Builds) -> Result<(), Failure> {
             Kind::Plot => plot::svg(b.spec, b.circuit, &best.build, &best.evaluation)?,
             Kind::Schematic => schematic::svg(b.spec, b.circuit, &best.build, &best.evaluation),
             Kind::Bom => bom::csv(b.circuit, &best.build, Some(b.stock))?,
-            Kind::Report => html::report(b.spec, b.circuit, b.ranked, Some(b.stock), b.stock_text)?,
+            Kind::Report => html::report_for(
+                b.spec,
+                b.circuit,
+                b.ranked,
+                b.chosen,
+                Some(b.stock),
+                b.stock_text,
+            )?,
         };
         texts.push((kind, target, text));
     }

@@ -34,10 +34,23 @@ pub fn run(command: Command) -> Result<i32, Failure> {
             stock,
             lock,
             top,
+            build,
+            distinct,
             output,
         } => {
-            let (parsed, base) = load_spec(&spec)?;
-            pick(&parsed, &spec, &base, stock.as_deref(), &lock, top, &output)
+            if let Some(n) = build.filter(|&n| n > top) {
+                return Err(Failure::input(anyhow!(
+                    "--build {n}: only {top} builds are ranked; raise --top to at least {n}"
+                )));
+            }
+            let (parsed, _) = load_spec(&spec)?;
+            let chosen = build.unwrap_or(1) - 1;
+            let ranking = Ranking {
+                top,
+                chosen,
+                distinct,
+            };
+            pick(&parsed, &spec, stock.as_deref(), &lock, &ranking, &output)
         }
         Command::Demo { top, output } => {
             let parsed = Spec::from_toml(DEMO_SPEC).context("the built-in demo spec")?;
@@ -45,7 +58,18 @@ pub fn run(command: Command) -> Result<i32, Failure> {
                 say!("Demo: examples/hydrophone-preamp-9v.toml (a 9 V piezo hydrophone preamp)\n");
             }
             let path = Path::new("examples/hydrophone-preamp-9v.toml");
-            pick(&parsed, path, Path::new("."), None, &[], top, &output)
+            pick(
+                &parsed,
+                path,
+                None,
+                &[],
+                &Ranking {
+                    top,
+                    chosen: 0,
+                    distinct: Vec::new(),
+                },
+                &output,
+            )
         }
         Command::Check {
             spec,
@@ -53,8 +77,8 @@ pub fn run(command: Command) -> Result<i32, Failure> {
             stock,
             output,
         } => {
-            let (parsed, base) = load_spec(&spec)?;
-            check(&parsed, &base, stock.as_deref(), &set, &output)
+            let (parsed, _) = load_spec(&spec)?;
+            check(&parsed, &spec, stock.as_deref(), &set, &output)
         }
         Command::Series { name, from, to } => series(&name, &from, &to),
         Command::Stock { file } => stock_summary(&file),
@@ -87,13 +111,46 @@ fn stock_override(over: Option<&str>) -> Result<Option<StockOverride>, Failure> 
 /// folder) or `--stock`.
 pub(super) fn resolve_stock(
     spec: &Spec,
-    base: &Path,
+    spec_path: &Path,
     over: Option<&str>,
 ) -> Result<Resolved, Failure> {
+    let base = spec_path.parent().unwrap_or(Path::new(""));
     let over = stock_override(over)?;
     pick::resolve_stock(spec, over.as_ref(), &mut |p| {
-        load_inventory(&base.join(p)).map(Arc::new)
+        load_inventory(&base.join(p))
+            .map(Arc::new)
+            .map_err(|f| named_by(f, spec, spec_path, p))
     })
+}
+
+/// An inventory the spec names that cannot be read: the error says which spec, line and key
+/// named it, so that the user knows where to fix the path.
+fn named_by(f: Failure, spec: &Spec, spec_path: &Path, file: &str) -> Failure {
+    use stockfit::spec::SourceSpec;
+    let names = |s: &SourceSpec| matches!(s, SourceSpec::File(f) if f == file);
+    let key = if names(&spec.stock.resistors) {
+        "resistors"
+    } else if names(&spec.stock.capacitors) {
+        "capacitors"
+    } else {
+        return f;
+    };
+    // The spec was read a moment ago; read again only to locate the key (bounded, as before).
+    let line = super::files::read_bounded(spec_path, stockfit::spec::MAX_SPEC_BYTES, "spec")
+        .ok()
+        .and_then(|b| String::from_utf8(b).ok())
+        .and_then(|t| stockfit::spec::key_line(&t, "stock", key));
+    let place = match line {
+        Some(l) => format!("line {l}, "),
+        None => String::new(),
+    };
+    Failure {
+        code: f.code,
+        error: f.error.context(format!(
+            "in {}: {place}`stock.{key}` names the inventory {file:?}",
+            console::shown(spec_path)
+        )),
+    }
 }
 
 /// `SLOT=VALUE` flags split at their `=`.
@@ -153,17 +210,24 @@ fn style() -> table::Style {
     table::Style { color }
 }
 
+/// What `pick` ranks and reports: `--top`, `--build` (0-based) and `--distinct`.
+struct Ranking {
+    top: usize,
+    chosen: usize,
+    distinct: Vec<String>,
+}
+
 fn pick(
     spec: &Spec,
     spec_path: &Path,
-    base: &Path,
     stock_over: Option<&str>,
     locks: &[String],
-    top: usize,
+    ranking: &Ranking,
     output: &Output,
 ) -> Result<i32, Failure> {
+    let (top, chosen) = (ranking.top, ranking.chosen);
     let circuit = circuit::circuit_for(spec.stage);
-    let Resolved { stock, description } = resolve_stock(spec, base, stock_over)?;
+    let Resolved { stock, description } = resolve_stock(spec, spec_path, stock_over)?;
     // Every input is read now: no output may be one of them (nor another output).
     output::check(output)?;
     let entries = split_entries(locks, "--lock")?;
@@ -174,6 +238,7 @@ fn pick(
         engine: output.engine.engine(),
         yield_options: Some(yield_options(spec, output)),
         stop: stop_for(output),
+        distinct: ranking.distinct.clone(),
         ..Options::default()
     };
     let started = Instant::now();
@@ -218,10 +283,14 @@ fn pick(
                 table::fit_width(&table::heading(spec, circuit, &description), table::WIDTH)
             );
             say!();
-            say_raw!(
-                "{}",
-                table::fit_width(&table::diagnosis(spec, circuit, d, style), table::WIDTH)
-            );
+            // Stopped before any build was found, the search proved nothing: say so, rather
+            // than "no build meets the spec".
+            let text = if picked.proven {
+                table::diagnosis(spec, circuit, d, style)
+            } else {
+                table::stopped_before_any_build(style)
+            };
+            say_raw!("{}", table::fit_width(&text, table::WIDTH));
         }
         output::write_diagnosis(output, spec, circuit, d)?;
         return Ok(EXIT_NO_BUILD);
@@ -239,10 +308,29 @@ fn pick(
             );
             say!();
         }
+    }
+    // `--build N` past the builds found (fewer pass than --top asks for): nothing is written.
+    if chosen >= picked.builds.len() {
+        return Err(Failure::input(anyhow!(
+            "--build {}: only {} build{} meet{} the spec; nothing was written",
+            chosen + 1,
+            picked.builds.len(),
+            if picked.builds.len() == 1 { "" } else { "s" },
+            if picked.builds.len() == 1 { "s" } else { "" }
+        )));
+    }
+    if !quiet_stdout {
         say_raw!("{}", table::builds(spec, circuit, &picked.builds, style));
         say!();
-        say!("Best build (#1)");
-        say_raw!("{}", table::detail(spec, circuit, &picked.builds[0], style));
+        if chosen == 0 {
+            say!("Best build (#1)");
+        } else {
+            say!("Build #{} (--build {})", chosen + 1, chosen + 1);
+        }
+        say_raw!(
+            "{}",
+            table::detail(spec, circuit, &picked.builds[chosen], style)
+        );
     }
     output::write_builds(
         output,
@@ -253,6 +341,7 @@ fn pick(
             stock: &stock,
             stock_text: &description,
             proven: picked.proven,
+            chosen,
         },
     )?;
     Ok(EXIT_OK)
@@ -260,13 +349,13 @@ fn pick(
 
 fn check(
     spec: &Spec,
-    base: &Path,
+    spec_path: &Path,
     stock_over: Option<&str>,
     set: &[String],
     output: &Output,
 ) -> Result<i32, Failure> {
     let circuit = circuit::circuit_for(spec.stage);
-    let Resolved { stock, description } = resolve_stock(spec, base, stock_over)?;
+    let Resolved { stock, description } = resolve_stock(spec, spec_path, stock_over)?;
     output::check(output)?;
     let entries = split_entries(set, "--set")?;
     let opts = yield_options(spec, output);
@@ -286,6 +375,11 @@ fn check(
         );
         say!();
         say_raw!("{}", table::detail(spec, circuit, &ranked, style));
+        say!();
+        say_raw!(
+            "{}",
+            table::fit_width(&table::verdict(&ranked.evaluation, style), table::WIDTH)
+        );
     }
     output::write_builds(
         output,
@@ -296,6 +390,7 @@ fn check(
             stock: &stock,
             stock_text: &description,
             proven: true,
+            chosen: 0,
         },
     )?;
     Ok(if pass { EXIT_OK } else { EXIT_NO_BUILD })
@@ -305,22 +400,25 @@ fn series(name: &str, from: &str, to: &str) -> Result<i32, Failure> {
     let s = Series::parse(name).ok_or_else(|| {
         anyhow!("unknown series {name:?}; expected one of E3, E6, E12, E24, E48, E96, E192")
     })?;
-    // The range is unit-free: values may be written with any prefix, a unit letter is refused.
-    let lo = value::parse(from, Unit::Ohm).map_err(|e| anyhow!("--from {from}: {e}"))?;
-    let hi = value::parse(to, Unit::Ohm).map_err(|e| anyhow!("--to {to}: {e}"))?;
+    // The range is written with any prefix and either no unit, ohms or farads: the series are
+    // the same numbers for resistors and capacitors (IEC 60063). A capacitance on either end
+    // lists capacitances, each with its unit.
+    let (lo, hi, unit) = series_range(from, to)?;
     if !(lo > 0.0 && hi >= lo) {
         return Err(Failure::input(anyhow!(
-            "--from and --to: expected 0 < from ≤ to"
+            "--from {from} and --to {to}: expected 0 < from ≤ to (the defaults are 1 and 10; \
+             give both ends in the same unit)"
         )));
     }
     let values = s.values_in(lo, hi);
     let digits = if s.per_decade() > 24 { 3 } else { 2 };
     let text: Vec<String> = values
         .iter()
-        .map(|v| {
-            value::format_sig(*v, Unit::Ohm, digits)
+        .map(|v| match unit {
+            Unit::Farad => value::format_sig(*v, Unit::Farad, digits),
+            _ => value::format_sig(*v, Unit::Ohm, digits)
                 .replace(" Ω", "")
-                .replace('Ω', "")
+                .replace('Ω', ""),
         })
         .collect();
     say!("{}", text.join("\n"));
@@ -331,6 +429,81 @@ fn series(name: &str, from: &str, to: &str) -> Result<i32, Failure> {
         s.tolerance() * 100.0
     );
     Ok(EXIT_OK)
+}
+
+/// `--from` and `--to` of `series`: unit-free or resistances (listed without a unit, as
+/// before), or capacitances (listed in farads) when either end is written as one.
+fn series_range(from: &str, to: &str) -> Result<(f64, f64, Unit), Failure> {
+    let read = |flag: &str, text: &str| -> Result<(f64, Unit), Failure> {
+        match value::parse(text, Unit::Ohm) {
+            Ok(v) => Ok((v, Unit::Ohm)),
+            Err(e) => value::parse(text, Unit::Farad)
+                .map(|v| (v, Unit::Farad))
+                .map_err(|_| {
+                    Failure::input(anyhow!(
+                        "{flag} {text}: {e} (or a capacitance such as \"1n\" or \"100 nF\")"
+                    ))
+                }),
+        }
+    };
+    let (lo, lo_unit) = read("--from", from)?;
+    let (hi, hi_unit) = read("--to", to)?;
+    let unit = if lo_unit == Unit::Farad || hi_unit == Unit::Farad {
+        Unit::Farad
+    } else {
+        Unit::Ohm
+    };
+    Ok((lo, hi, unit))
+}
+
+/// The values shown in full in a grouped note, and the rows shown of each.
+const NOTE_EXAMPLES: usize = 3;
+const NOTE_ROWS: usize = 10;
+
+/// "3 values appear on several rows, pooled …: 10 Ω 1 % (rows 1, 141), … and 137 more".
+fn repeated_note(
+    group: &[&stockfit::stock::inventory::Duplicate],
+    how: &str,
+    unit: Unit,
+) -> String {
+    let shown: Vec<String> = group
+        .iter()
+        .take(NOTE_EXAMPLES)
+        .map(|d| {
+            let rows: Vec<String> = d
+                .rows
+                .iter()
+                .take(NOTE_ROWS)
+                .map(usize::to_string)
+                .collect();
+            let more = match d.rows.len().saturating_sub(NOTE_ROWS) {
+                0 => String::new(),
+                n => format!(" and {n} more"),
+            };
+            // A no-break space inside a quantity, so that wrapping never parts "1" from "%".
+            let keep = |t: String| t.replace(' ', "\u{a0}");
+            format!(
+                "{} {} (rows {}{more})",
+                keep(value::format(d.value, unit)),
+                keep(value::format(d.tolerance, Unit::Percent)),
+                rows.join(", ")
+            )
+        })
+        .collect();
+    let more = match group.len().saturating_sub(NOTE_EXAMPLES) {
+        0 => String::new(),
+        n => format!(" and {n} more"),
+    };
+    format!(
+        "{} value{} on several rows, {how}: {}{more}",
+        group.len(),
+        if group.len() == 1 {
+            " appears"
+        } else {
+            "s appear"
+        },
+        shown.join(", ")
+    )
 }
 
 fn stock_summary(file: &Path) -> Result<i32, Failure> {
@@ -385,36 +558,24 @@ fn stock_summary(file: &Path) -> Result<i32, Failure> {
                 k.stock_value
             );
         }
-        for d in &k.duplicates {
-            // At most ten rows each: a value on 100 000 rows is a line, not a page.
-            let shown = &d.rows[..d.rows.len().min(10)];
-            let more = match d.rows.len() - shown.len() {
-                0 => String::new(),
-                n => format!(" and {n} more"),
-            };
-            say!(
-                "    note: {} {} appears on several rows {:?}{more}",
-                value::format(d.value, unit),
-                value::format(d.tolerance, Unit::Percent),
-                shown
-            );
-        }
-        // Rows of the same part (ratings, dielectric and cost too) are one line to the search,
-        // their pieces pooled (`stock::pool`); rows that only share value and tolerance are not.
-        let pooled = k
-            .duplicates
-            .iter()
-            .filter(|d| {
-                let first = pools.representative(d.rows[0]);
-                d.rows.iter().all(|&r| pools.representative(r) == first)
-            })
-            .count();
-        if !k.duplicates.is_empty() {
-            say!(
-                "    pooled: {pooled} (the same part on each row); kept apart: {} (ratings, \
-                 dielectric or cost differ)",
-                k.duplicates.len() - pooled
-            );
+        // Repeated values, one line per kind of note (a lab stock repeats hundreds): rows of
+        // the same part (ratings, dielectric and cost too) are one line to the search, their
+        // pieces pooled (`stock::pool`); rows that only share value and tolerance are not.
+        let (pooled, apart): (Vec<_>, Vec<_>) = k.duplicates.iter().partition(|d| {
+            let first = pools.representative(d.rows[0]);
+            d.rows.iter().all(|&r| pools.representative(r) == first)
+        });
+        for (group, how) in [
+            (
+                pooled,
+                "pooled as one line each (the same part on each row)",
+            ),
+            (apart, "kept apart (ratings, dielectric or cost differ)"),
+        ] {
+            if !group.is_empty() {
+                let note = format!("    note: {}", repeated_note(&group, how, unit));
+                say_raw!("{}", table::fit_width(&note, table::WIDTH));
+            }
         }
     }
     Ok(EXIT_OK)

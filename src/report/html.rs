@@ -227,7 +227,7 @@ fn builds_table(out: &mut String, spec: &Spec, stage: &dyn Circuit, ranked: &[Ra
     }
     let _ = writeln!(
         out,
-        "<th>gain</th><th>{worst} |gain|</th><th>low −3 dB</th><th>{worst} swing</th><th>parts</th><th>lines</th><th>cost</th><th>checks</th></tr>"
+        "<th>gain</th><th>{worst} |gain|</th><th>low −3 dB</th><th>{worst} swing</th><th>parts</th><th>lines</th><th>cost</th><th>yield</th><th>checks</th></tr>"
     );
     for (i, r) in ranked.iter().enumerate() {
         let m = &r.evaluation.metrics;
@@ -243,7 +243,7 @@ fn builds_table(out: &mut String, spec: &Spec, stage: &dyn Circuit, ranked: &[Ra
         }
         let _ = writeln!(
             out,
-            "<td class=\"num\">{}</td><td class=\"num\">{} … {}</td><td class=\"num\">{}</td><td class=\"num\">±{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>{}</tr>",
+            "<td class=\"num\">{}</td><td class=\"num\">{} … {}</td><td class=\"num\">{}</td><td class=\"num\">±{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>{}</tr>",
             gain_text(m.gain),
             gain_text(lo),
             gain_text(hi),
@@ -252,6 +252,7 @@ fn builds_table(out: &mut String, spec: &Spec, stage: &dyn Circuit, ranked: &[Ra
             m.part_count,
             m.bom_lines,
             m.cost.map_or("—".to_string(), |c| format!("{c:.2}")),
+            table::yield_text(r.evaluation.yield_report.as_ref().map(|y| y.overall)),
             pass_cell(r.evaluation.pass)
         );
     }
@@ -264,19 +265,42 @@ fn builds_table(out: &mut String, spec: &Spec, stage: &dyn Circuit, ranked: &[Ra
     }
 }
 
+/// " Monte Carlo yield 98.2 % (10000 samples, seed 1, …)." as the terminal's yield columns
+/// give it, or nothing without a yield (`--yield 0`).
+fn yield_sentence(r: &Ranked) -> String {
+    r.evaluation
+        .yield_report
+        .as_ref()
+        .map_or(String::new(), |y| {
+            format!(
+                " Monte Carlo yield {} ({} samples, seed {}, {} distribution).",
+                table::yield_text(Some(y.overall)),
+                y.samples,
+                y.seed,
+                escape(&format!("{:?}", y.distribution).to_lowercase())
+            )
+        })
+}
+
 fn checks_table(out: &mut String, r: &Ranked) {
     out.push_str(
-        "<table>\n<tr><th>requirement</th><th>value</th><th>limit</th><th>margin</th><th>result</th></tr>\n",
+        "<table>\n<tr><th>requirement</th><th>value</th><th>limit</th><th>margin</th><th>yield</th><th>result</th></tr>\n",
     );
     for c in &r.evaluation.checks {
         let (v, l, m) = check_cells(c);
+        let y = r
+            .evaluation
+            .yield_report
+            .as_ref()
+            .and_then(|y| y.check(&c.name));
         let _ = writeln!(
             out,
-            "<tr><td>{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>{}</tr>",
+            "<tr><td>{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>{}</tr>",
             escape(&c.label),
             escape(&v),
             escape(&l),
             escape(&m),
+            table::yield_text(y),
             pass_cell(c.pass)
         );
     }
@@ -297,8 +321,8 @@ fn caps_table(out: &mut String, stage: &dyn Circuit, r: &Ranked) {
             escape(&c.slot),
             escape(&label),
             format_sig(c.volts.abs(), Unit::Volt, 3),
-            format_sig(c.volts_min, Unit::Volt, 3),
-            format_sig(c.volts_max, Unit::Volt, 3),
+            format_sig(super::common::cap_range(c).0, Unit::Volt, 3),
+            format_sig(super::common::cap_range(c).1, Unit::Volt, 3),
             escape(&c.positive_side),
             format_sig(c.rating_needed, Unit::Volt, 2),
             c.rating.map_or("not given".to_string(), |v| format(v, Unit::Volt)),
@@ -368,6 +392,21 @@ pub fn report(
     stock: Option<&Stock>,
     stock_text: &str,
 ) -> Result<String, RenderError> {
+    report_for(spec, stage, ranked, 0, stock, stock_text)
+}
+
+/// [`report`] with the detail, plot, schematic and BOM of ranked build `chosen` (0-based; the
+/// best when out of range), for `pick --build N`.
+pub fn report_for(
+    spec: &Spec,
+    stage: &dyn Circuit,
+    ranked: &[Ranked],
+    chosen: usize,
+    stock: Option<&Stock>,
+    stock_text: &str,
+) -> Result<String, RenderError> {
+    let chosen = if chosen < ranked.len() { chosen } else { 0 };
+    let n = chosen + 1;
     let mut out = String::new();
     let title = format!(
         "stockfit report: {} stage, gain {}, {} supply",
@@ -390,9 +429,9 @@ pub fn report(
     out.push_str("<h2>Spec</h2>\n");
     spec_table(&mut out, spec, stage, stock_text);
 
-    let Some(best) = ranked.first() else {
+    let Some(best) = ranked.get(chosen) else {
         out.push_str("<h2>Builds</h2>\n<p>No build from this stock meets the spec.</p>\n");
-        cautions(&mut out);
+        cautions(&mut out, &[]);
         out.push_str("</body>\n</html>\n");
         return Ok(out);
     };
@@ -410,7 +449,8 @@ pub fn report(
     };
     let _ = writeln!(
         out,
-        "<h2>Build #1 in detail</h2>\n<p>This build {verdict}.</p>"
+        "<h2>Build #{n} in detail</h2>\n<p>This build {verdict}.{}</p>",
+        yield_sentence(best)
     );
     let figures = table::figures(spec, &best.evaluation);
     let figures = figures.split_once('\n').map_or(figures.as_str(), |x| x.1);
@@ -423,18 +463,18 @@ pub fn report(
     out.push_str("<h2>Frequency response</h2>\n<figure>\n");
     let plot = plot::svg(spec, stage, &best.build, &best.evaluation)?;
     out.push_str(&inline_svg(&plot));
-    out.push_str("<figcaption>Gain and phase of build #1 against frequency: nominal curve, worst-case envelope over the tolerance corners, the band shaded, −3 dB corners and the loss at the band edges marked.</figcaption>\n</figure>\n");
+    let _ = writeln!(out, "<figcaption>Gain and phase of build #{n} against frequency: nominal curve, worst-case envelope over the tolerance corners, the band shaded, −3 dB corners and the loss at the band edges marked.</figcaption>\n</figure>");
 
     out.push_str("<h2>Schematic</h2>\n<figure>\n");
     let sch = schematic::svg(spec, stage, &best.build, &best.evaluation);
     out.push_str(&inline_svg(&sch));
-    out.push_str("<figcaption>Build #1 with its reference designators (as in the BOM and the SPICE netlist); a polarised capacitor's + lead is drawn toward the side the DC analysis found positive.</figcaption>\n</figure>\n");
+    let _ = writeln!(out, "<figcaption>Build #{n} with its reference designators (as in the BOM and the SPICE netlist); a polarised capacitor's + lead is drawn toward the side the DC analysis found positive.</figcaption>\n</figure>");
 
     out.push_str("<h2>Bill of materials</h2>\n");
     let rows = bom::rows(stage, &best.build, stock);
     bom_table(&mut out, &rows);
 
-    cautions(&mut out);
+    cautions(&mut out, &super::common::build_cautions(&best.evaluation));
     let _ = writeln!(
         out,
         "<footer>Written by stockfit {}. Values are nominal unless marked worst case.</footer>\n</body>\n</html>",
@@ -443,9 +483,13 @@ pub fn report(
     Ok(out)
 }
 
-fn cautions(out: &mut String) {
+fn cautions(out: &mut String, own: &[String]) {
     out.push_str("<h2>Cautions</h2>\n<ul class=\"cautions\">\n");
-    for c in table::CAUTIONS {
+    for c in own
+        .iter()
+        .map(String::as_str)
+        .chain(table::CAUTIONS.iter().copied())
+    {
         let _ = writeln!(out, "<li>{}</li>", escape(c));
     }
     out.push_str("</ul>\n");

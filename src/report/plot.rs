@@ -36,6 +36,12 @@ const GRID: RGBColor = RGBColor(232, 232, 232);
 const DECADE: RGBColor = RGBColor(195, 195, 195);
 const INK: RGBColor = RGBColor(40, 40, 40);
 
+/// Width of the area left of each panel for its tick labels and its rotated axis label, px:
+/// the widest tick label (`−315°`, about 3.3 em of a 17 px font scaled into the page) and the
+/// axis label beside it with a gap, so that the two never overlap (64 px let `phase` touch
+/// `−315°` in a sans font with wide digits; issue 12, part 8).
+const Y_LABEL_AREA: u32 = 80;
+
 /// The sampled response of a build: nominal curve and envelope, magnitude in dB and phase in
 /// degrees (unwrapped outward from the band's centre).
 #[derive(Debug, Clone, PartialEq)]
@@ -359,7 +365,7 @@ where
         .margin_right(28)
         .margin_top(6)
         .x_label_area_size(12)
-        .y_label_area_size(64)
+        .y_label_area_size(Y_LABEL_AREA)
         .build_cartesian_2d((f_lo..f_hi).log_scale(), y_lo..y_hi)
         .map_err(err)?;
     mag.configure_mesh()
@@ -381,7 +387,7 @@ where
         .margin_top(10)
         .margin_bottom(6)
         .x_label_area_size(44)
-        .y_label_area_size(64)
+        .y_label_area_size(Y_LABEL_AREA)
         .build_cartesian_2d((f_lo..f_hi).log_scale(), {
             // In units of 45°, so the axis steps are 45° or 90° multiples.
             let lo = s

@@ -86,7 +86,7 @@ fn error_text(e: f64) -> String {
     }
 }
 
-fn yield_text(y: Option<f64>) -> String {
+pub(crate) fn yield_text(y: Option<f64>) -> String {
     // One decimal of a percent: 10,000 samples resolve about that well.
     y.map_or_else(|| "—".to_string(), |y| format!("{:.1} %", y * 100.0))
 }
@@ -142,13 +142,39 @@ pub fn unproven(style: Style) -> String {
     )
 }
 
+/// What a search stopped early (a time limit or Ctrl-C) before it found any build says: not
+/// that no build meets the spec, which it did not prove, but that it ran out of time.
+pub fn stopped_before_any_build(style: Style) -> String {
+    let mark = if style.color { "\x1b[33m!\x1b[0m" } else { "!" };
+    format!(
+        "{mark} The search stopped (--time-limit or Ctrl-C) before it found any build. This does \
+         not mean that no build meets the spec: run with a longer --time-limit, or without one, \
+         for the exact answer.\n"
+    )
+}
+
 /// The ranked builds: a parts table, then a figures table.
 pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style) -> String {
     let mut out = String::new();
     let slots = stage.slots();
+    // A locked part's label carries its `*`, counted in the column's width, so that the next
+    // column keeps its two spaces (`2.4 MΩ* 1.6 MΩ ∥ 1.6 MΩ` ran together).
     let labels: Vec<Vec<String>> = ranked
         .iter()
-        .map(|r| r.build.parts.iter().map(table_label).collect())
+        .map(|r| {
+            r.build
+                .parts
+                .iter()
+                .map(|p| {
+                    let text = table_label(p);
+                    if p.locked {
+                        format!("{text}*")
+                    } else {
+                        text
+                    }
+                })
+                .collect()
+        })
         .collect();
     // Column widths from the content, so two-part labels get the room they need.
     let widths: Vec<usize> = (0..slots.len())
@@ -171,13 +197,7 @@ pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style)
     for (n, l) in labels.iter().enumerate() {
         let mut row = cell(&(n + 1).to_string(), 4);
         for (i, text) in l.iter().enumerate() {
-            let locked = ranked[n].build.parts[i].locked;
-            let t = if locked {
-                format!("{text}*")
-            } else {
-                text.clone()
-            };
-            row.push_str(&cell(&t, widths[i]));
+            row.push_str(&cell(text, widths[i]));
         }
         let _ = writeln!(out, "{}", row.trim_end());
     }
@@ -212,6 +232,8 @@ pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style)
         )
         .trim_end()
     );
+    // Pareto optimality compares builds: a single build is marked nothing.
+    let compared = ranked.len() > 1;
     let front = crate::search::pareto(ranked);
     for (n, r) in ranked.iter().enumerate() {
         let m = &r.evaluation.metrics;
@@ -221,7 +243,10 @@ pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style)
         );
         let row = format!(
             "{}{}{}{}{}{}{}{}{}{}",
-            cell(&format!("{}{}", n + 1, if front[n] { "◆" } else { "" }), 4),
+            cell(
+                &format!("{}{}", n + 1, if compared && front[n] { "◆" } else { "" }),
+                4
+            ),
             cell(&gain_text(m.gain), 9),
             cell(&error_text(m.gain_error), 9),
             cell(&format!("{} … {}", gain_text(lo), gain_text(hi)), 18),
@@ -237,11 +262,38 @@ pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], style: Style)
         );
         let _ = writeln!(out, "{}", row.trim_end());
     }
-    let _ = writeln!(
-        out,
-        "    ◆ Pareto-optimal over gain error, part count and cost"
-    );
+    if compared {
+        let _ = writeln!(
+            out,
+            "    ◆ Pareto-optimal over gain error, part count and cost"
+        );
+    }
     out
+}
+
+/// The one-line verdict that ends a `check` report: pass, or which checks fail.
+pub fn verdict(evaluation: &crate::analysis::Evaluation, style: Style) -> String {
+    let failed: Vec<&str> = evaluation
+        .checks
+        .iter()
+        .filter(|c| !c.pass)
+        .map(|c| c.name.as_str())
+        .collect();
+    if failed.is_empty() {
+        format!(
+            "{} this build meets every requirement ({} checks pass)\n",
+            style.bold("Verdict: pass —"),
+            evaluation.checks.len()
+        )
+    } else {
+        format!(
+            "{} {} of {} checks fail: {}\n",
+            style.bold("Verdict: FAIL —"),
+            failed.len(),
+            evaluation.checks.len(),
+            failed.join(", ")
+        )
+    }
 }
 
 fn value_text(c: &Check) -> (String, String, String) {
@@ -344,8 +396,8 @@ pub fn capacitors(
             c.slot,
             part.label(),
             format_sig(c.volts.abs(), Unit::Volt, 3),
-            format_sig(c.volts_min, Unit::Volt, 3),
-            format_sig(c.volts_max, Unit::Volt, 3),
+            format_sig(super::common::cap_range(c).0, Unit::Volt, 3),
+            format_sig(super::common::cap_range(c).1, Unit::Volt, 3),
             c.positive_side,
             format_sig(c.rating_needed, Unit::Volt, 2),
             rating,
@@ -566,15 +618,26 @@ fn detail_lines(spec: &Spec, stage: &dyn Circuit, ranked: &Ranked, style: Style)
     out.push('\n');
     out.push_str(&capacitors(spec, &ranked.evaluation, &ranked.build, stage));
     out.push('\n');
-    out.push_str(&cautions());
+    out.push_str(&cautions_for(&super::common::build_cautions(
+        &ranked.evaluation,
+    )));
     out
 }
 
 /// The cautions the reports show (polarised capacitors, ratings, mains), one `!` line each
 /// under a `Cautions` heading; they defer to the datasheets, local codes and licensed practice.
 pub fn cautions() -> String {
+    cautions_for(&[])
+}
+
+/// [`cautions`] after a build's own (a resistor that runs hot).
+fn cautions_for(own: &[String]) -> String {
     let mut out = String::from("Cautions\n");
-    for c in CAUTIONS {
+    for c in own
+        .iter()
+        .map(String::as_str)
+        .chain(CAUTIONS.iter().copied())
+    {
         let _ = writeln!(out, "  ! {c}");
     }
     out

@@ -10,7 +10,7 @@ use std::sync::Arc;
 /// All builds, best `top` kept. Exponential in the slot count: for tests and benchmarks.
 pub fn brute_force(req: &Request) -> Result<Outcome, SearchError> {
     let cands = slot_candidates(req)?;
-    let mut top = TopN::new(req.top);
+    let mut top = TopN::distinct_in(req.top, req.distinct);
     let mut evaluated = 0;
     let Ok(()) = each_build(&cands, |build| -> Result<(), Infallible> {
         let evaluation = analysis::evaluate(req.spec, req.stage, &build, Some(req.stock));

@@ -280,7 +280,7 @@ fn search_tight(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Out
         nodes_by_group: vec![0; plan.groups(spec).len()],
         ..Stats::default()
     };
-    let mut top = TopN::new(req.top);
+    let mut top = TopN::distinct_in(req.top, req.distinct);
     // With two-piece realisations, first the single pieces alone: a much smaller search whose
     // builds are builds of the whole stock too, so its N-th best bounds the whole search from
     // its first node on (the exact top N is unchanged: the seed builds are judged exactly and

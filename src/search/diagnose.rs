@@ -766,6 +766,7 @@ mod tests {
             max_nodes: None,
             plan: crate::search::PlanChoice::Best,
             stop: crate::search::Stop::NEVER,
+            distinct: &[],
         };
         assert!(
             search(&req, &mut |_| {}).unwrap().builds.is_empty(),

@@ -321,8 +321,10 @@ pub fn feasible(spec: &Spec, w: &Figures<Iv>) -> bool {
             return false;
         }
     }
-    // Full-power bandwidth SR/(2π·V_peak) at the required peak: the amplifier's alone.
-    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
+    // Full-power bandwidth SR/(2π·V_peak) at the required peak: for an input peak, at least
+    // the least |gain| of the box (the worst-case highest |gain| is never below it).
+    let peak = spec.output_peak_at(crate::interval::Num::abs(w.gain).lo);
+    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, peak) {
         if sr / (2.0 * PI * peak) < spec.band.1 * (1.0 - s) {
             return false;
         }

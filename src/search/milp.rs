@@ -137,7 +137,7 @@ fn search_ranked(
         });
     }
 
-    let mut top = TopN::new(req.top);
+    let mut top = TopN::distinct_in(req.top, req.distinct);
     let mut excluded: Vec<Vec<usize>> = Vec::new();
     loop {
         if req.stop.now() {

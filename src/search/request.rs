@@ -207,6 +207,9 @@ pub struct Request<'a> {
     pub plan: PlanChoice,
     /// When to give up before the search is complete (never by default).
     pub stop: Stop,
+    /// Slots (indices) in which every two ranked builds must differ (`--distinct`): of the
+    /// builds that share those slots' values only the best is ranked. Empty: none.
+    pub distinct: &'a [usize],
 }
 
 /// When a search stops before it is proven complete: a deadline, an interrupt (Ctrl-C sets
@@ -297,9 +300,17 @@ pub(crate) fn parts_unit(kind: PartKind) -> crate::value::Unit {
 }
 
 /// The best `top` builds, kept sorted; builds that look identical (same values, tolerances and
-/// arrangement per slot, e.g. two inventory lines of one value) count once, the better kept.
+/// arrangement per slot, e.g. two inventory lines of one value, or two slots of one value
+/// that swap their tolerances) count once, the better kept. With `distinct` slots, builds
+/// that share those slots' values count once.
+///
+/// Exact for what it ranks: the result is the best build of each key, the best `top` of
+/// those. A build the search prunes at [`TopN::bound`] cannot be one: a new key must beat the
+/// N-th held build, a held key its own build, which is no worse than the N-th; and builds
+/// held only get better, so the bound never rises (tests/exact.rs holds it to brute force).
 pub(crate) struct TopN {
     cap: usize,
+    distinct: Vec<usize>,
     items: Vec<(Order, Vec<u64>, Ranked)>,
 }
 
@@ -346,9 +357,12 @@ fn order_of(ranked: &Ranked, look: Vec<u64>) -> Order {
 }
 
 impl TopN {
-    pub fn new(cap: usize) -> TopN {
+    /// Room for `cap` builds (at least one), which differ in the values of the `distinct`
+    /// slots when any are given.
+    pub fn distinct_in(cap: usize, distinct: &[usize]) -> TopN {
         TopN {
             cap: cap.max(1),
+            distinct: distinct.to_vec(),
             items: Vec::new(),
         }
     }
@@ -374,8 +388,12 @@ impl TopN {
     /// arrangements per slot, e.g. two inventory lines of one value) count once, the one
     /// ranked first kept.
     pub fn offer(&mut self, ranked: Ranked) {
-        let look = look_key(&ranked.build);
-        let order = order_of(&ranked, look.clone());
+        let order = order_of(&ranked, look_key(&ranked.build));
+        let look = if self.distinct.is_empty() {
+            same_look_key(&ranked.build)
+        } else {
+            values_key(&ranked.build, &self.distinct)
+        };
         if let Some(pos) = self.items.iter().position(|i| i.1 == look) {
             if self.items[pos].0 <= order {
                 return;
@@ -425,7 +443,14 @@ pub fn ruled_out(spec: &Spec) -> bool {
             return true;
         }
     }
-    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
+    // The output peak at the least worst-case highest |gain| a build can have: the window's
+    // floor (without a window, any gain may pass, so an input peak rules nothing out).
+    let peak = match (spec.output_peak, spec.input_peak, spec.gain_tolerance) {
+        (Some(out), _, _) => Some(out),
+        (None, Some(inp), Some(t)) => Some(inp * spec.gain.abs() * (1.0 - t)),
+        _ => None,
+    };
+    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, peak) {
         if sr / (2.0 * std::f64::consts::PI * peak) < spec.band.1 * (1.0 - SLACK) {
             return true;
         }
@@ -456,6 +481,51 @@ pub fn primary_scores(spec: &Spec, stage: &dyn Circuit, builds: &mut [Ranked]) {
 }
 
 /// What a person sees of a build: arrangement, value and tolerance of every piece.
+/// What a build looks like up to which of two slots of one value (one kind, arrangement and
+/// piece values) gets which tolerance: the slots' values in slot order, then, per group of
+/// such slots, their tolerances sorted. Two builds that differ only by swapping two parts of
+/// one value between slots are one alternative, not two (issue 12, part 8).
+fn same_look_key(build: &Build) -> Vec<u64> {
+    let shape = |p: &Part| -> Vec<u64> {
+        let mut k = vec![p.kind as u64, p.arrangement as u64];
+        k.extend(p.pieces.iter().map(|q| q.value.to_bits()));
+        k
+    };
+    let shapes: Vec<Vec<u64>> = build.parts.iter().map(shape).collect();
+    let mut key: Vec<u64> = shapes.iter().flatten().copied().collect();
+    let mut seen = vec![false; shapes.len()];
+    for i in 0..shapes.len() {
+        if seen[i] {
+            continue;
+        }
+        let mut tols: Vec<Vec<u64>> = Vec::new();
+        for j in i..shapes.len() {
+            if !seen[j] && shapes[j] == shapes[i] {
+                seen[j] = true;
+                let p = &build.parts[j];
+                tols.push(p.pieces.iter().map(|q| q.tolerance.to_bits()).collect());
+            }
+        }
+        tols.sort_unstable();
+        key.push(u64::MAX);
+        key.extend(tols.into_iter().flatten());
+    }
+    key
+}
+
+/// The values (arrangement and piece values) of the `slots`, for `--distinct`.
+fn values_key(build: &Build, slots: &[usize]) -> Vec<u64> {
+    let mut key = Vec::new();
+    for &i in slots {
+        if let Some(p) = build.parts.get(i) {
+            key.push(p.arrangement as u64);
+            key.extend(p.pieces.iter().map(|q| q.value.to_bits()));
+            key.push(u64::MAX);
+        }
+    }
+    key
+}
+
 fn look_key(build: &Build) -> Vec<u64> {
     let mut key = Vec::new();
     for part in &build.parts {

@@ -189,6 +189,7 @@ impl Prepared {
             max_nodes: None,
             plan,
             stop: stockfit::search::Stop::NEVER,
+            distinct: &[],
         }
     }
 }
