@@ -97,6 +97,7 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
         dc_error: common::dc_error(spec, hi, lo, fb),
         bias_current: Some(common::divider_current(spec.supply, hi, lo)),
         networks: networks(spec, v),
+        cm_ratio: None,
     }
 }
 
@@ -436,6 +437,7 @@ impl Drawing for Inverting {
                     from_side: Some("op-amp side"),
                 },
             ],
+            minus_source: None,
         };
         &LAYOUT
     }

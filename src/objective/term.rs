@@ -50,6 +50,9 @@ pub struct Figures<T> {
     pub bias_current: Option<T>,
     /// The coupling networks, in the order of `Circuit::networks`.
     pub networks: Networks<T>,
+    /// |A_cm/A_d|, the inverse of the common-mode rejection at DC, for a stage with two
+    /// inputs (`cmrr_min` reads it); `None` for one input.
+    pub cm_ratio: Option<T>,
 }
 
 /// Where a term's points come from.

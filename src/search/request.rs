@@ -398,7 +398,7 @@ pub fn ruled_out(spec: &Spec) -> bool {
             return true;
         }
     }
-    let room = (spec.supply - spec.headroom.0 - spec.headroom.1) / 2.0
+    let room = (spec.supply - spec.supply_low - spec.headroom.0 - spec.headroom.1) / 2.0
         - if spec.worst_case() {
             spec.amplifier.input_offset_voltage
         } else {
