@@ -2344,3 +2344,89 @@ band = ["20 Hz", "20 kHz"]
         assert_eq!(nearest("zzzzzzzzzzzz", &["a", "b"]), None);
     }
 }
+
+#[cfg(test)]
+mod split_supply_tests {
+    use super::*;
+
+    fn stage(kind: &str, supply: &str, extra: &str) -> Result<Spec, SpecErrors> {
+        Spec::from_toml(&format!(
+            "[stage]\nkind = \"{kind}\"\nsupply = {supply}\ngain = -10\nload = \"10k\"\n\
+             band = [\"1 Hz\", \"1 kHz\"]\n{extra}"
+        ))
+    }
+
+    fn message(r: Result<Spec, SpecErrors>) -> String {
+        r.expect_err("refused").to_string()
+    }
+
+    #[test]
+    fn supply_pairs_and_plus_minus_forms() {
+        for text in [
+            "\"±12 V\"",
+            "\"+-12 V\"",
+            "\"+/-12\"",
+            "[\"-12 V\", \"12 V\"]",
+        ] {
+            let s = stage("inverting", text, "").unwrap();
+            assert_eq!((s.supply_low, s.supply), (-12.0, 12.0), "{text}");
+            assert!(s.split());
+            assert_eq!(s.stage, StageKind::InvertingDc);
+        }
+        let s = stage("inverting", "[\"-5 V\", \"15 V\"]", "headroom = [1, 2]").unwrap();
+        assert_eq!(s.output_limits(), (-4.0, 13.0));
+        // A single value keeps its meaning: rails 0 and V, the AC-coupled stage.
+        let s = stage("inverting", "9", "").unwrap();
+        assert_eq!(
+            (s.supply_low, s.supply, s.stage),
+            (0.0, 9.0, StageKind::Inverting)
+        );
+    }
+
+    #[test]
+    fn the_supply_and_the_coupling_must_agree() {
+        assert!(message(stage("inverting", "9", "coupling = \"dc\"")).contains("split supply"));
+        assert!(
+            message(stage("inverting", "\"±9 V\"", "coupling = \"ac\"")).contains("single supply")
+        );
+        assert!(message(stage("difference", "9", "")).contains("split supply"));
+        assert!(message(stage("inverting", "\"±9 V\"", "coupling = \"xy\""))
+            .contains("\"ac\" or \"dc\""));
+        // The rails around ground, low first.
+        assert!(
+            message(stage("inverting", "[12, -12]", "")).contains("[negative rail, positive rail]")
+        );
+        assert!(message(stage("inverting", "\"±0 V\"", "")).contains("V > 0"));
+        // Headroom counts the whole span.
+        assert!(message(stage("inverting", "\"±5 V\"", "headroom = 5")).contains("no output swing"));
+        assert!(stage("inverting", "\"±5 V\"", "headroom = 4.9").is_ok());
+    }
+
+    #[test]
+    fn split_supply_keys_belong_to_their_stages() {
+        assert!(
+            message(stage("inverting", "9", "output_offset_max = \"1 mV\""))
+                .contains("split supply")
+        );
+        assert!(message(stage("inverting", "\"±9 V\"", "cmrr_min = 60")).contains("difference"));
+        assert!(
+            message(stage("inverting", "\"±9 V\"", "bias_current_max = 1e-3")).contains("divider")
+        );
+        assert!(message(stage("difference", "\"±9 V\"", "")).contains("positive"));
+        let d = Spec::from_toml(
+            "[stage]\nkind = \"difference\"\nsupply = \"±9 V\"\ngain = 2\nload = 1e4\nband = [1, 1000]\ncmrr_min = \"60 dB\"\n",
+        )
+        .unwrap();
+        assert_eq!((d.stage, d.cmrr_min), (StageKind::Difference, Some(60.0)));
+        assert_eq!(
+            stage("inverting", "\"±9 V\"", "bias_compensation = true")
+                .unwrap()
+                .stage,
+            StageKind::InvertingDcCompensated
+        );
+        assert!(
+            message(stage("inverting", "\"±9 V\"", "bias_compensation = 1"))
+                .contains("true or false")
+        );
+    }
+}
