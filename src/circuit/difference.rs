@@ -146,6 +146,7 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
         bias_current: None,
         networks: Networks::new(),
         cm_ratio: Some((acm / ad).abs()),
+        matched_gain: Some(T::monotone(|[a, b]| b / a, [r1, r2], [false, true])),
     }
 }
 

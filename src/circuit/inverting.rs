@@ -98,6 +98,7 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
         bias_current: Some(common::divider_current(spec.supply, hi, lo)),
         networks: networks(spec, v),
         cm_ratio: None,
+        matched_gain: None,
     }
 }
 

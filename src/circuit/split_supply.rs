@@ -198,6 +198,7 @@ impl DcStage {
             bias_current: None,
             networks: Networks::new(),
             cm_ratio: None,
+            matched_gain: None,
         }
     }
 }

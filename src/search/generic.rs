@@ -171,7 +171,23 @@ impl<'a> GenericPlan<'a> {
         if !feasible(spec, &self.circuit.figure_bounds(spec, wide)) {
             return None;
         }
-        let f = self.circuit.figure_bounds(spec, nominal);
+        let mut f = self.circuit.figure_bounds(spec, nominal);
+        if let (Some(min), Some(core)) = (spec.cmrr_min, f.matched_gain) {
+            // A build that meets cmrr_min has |A_cm| ≤ ρ·A_d at every tolerance corner
+            // (ρ = 10^(−dB/20)); A_cm is monotone in each value, so at the nominal values
+            // too |A_cm| ≤ ρ·max A_d ≤ ρ·|gain| over the widened box, and the nominal gain
+            // A_d = A₁ + A_cm/2 lies within half that of A₁ (`Figures::matched_gain`).
+            // Builds that fail are never ranked, so the narrowed gain bounds every build
+            // the bound can cut.
+            let w = self.circuit.figure_bounds(spec, wide);
+            let rho = 10f64.powf(-min / 20.0) * (1.0 + SLACK);
+            let half = rho * crate::interval::Num::abs(w.gain).hi / 2.0 * (1.0 + SLACK);
+            let (lo, hi) = (f.gain.lo.max(core.lo - half), f.gain.hi.min(core.hi + half));
+            if lo > hi {
+                return None;
+            }
+            f.gain = Iv::new(lo, hi);
+        }
         Some(objective::circuit_bound(spec, &f) * (1.0 - 1e-9))
     }
 
