@@ -139,3 +139,27 @@ fn a_bad_split_supply_exits_2_with_its_key() {
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(err.contains("stage.supply"), "{err}");
 }
+
+#[test]
+fn the_diagnosis_names_a_split_supply_requirement() {
+    // 70 dB of rejection from 1 % and 0.1 % parts: the textbook worst case (1 + G)/(4t) is
+    // 54 dB at 1 % (from memory), so the stock cannot; the diagnosis names the key.
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let text = std::fs::read_to_string(root.join("examples/bridge-sensor-difference.toml"))
+        .unwrap()
+        .replace("cmrr_min = \"50 dB\"", "cmrr_min = \"70 dB\"")
+        .replace(
+            "\"../inventories/lab-stock.csv\"",
+            &format!("{:?}", root.join("inventories/lab-stock.csv")),
+        );
+    let dir = tempfile::tempdir().unwrap();
+    let spec = dir.path().join("cmrr.toml");
+    std::fs::write(&spec, text).unwrap();
+    let out = stockfit().arg("pick").arg(&spec).output().unwrap();
+    assert_eq!(out.status.code(), Some(1));
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        text.contains("stage.cmrr_min 70 dB cannot be met"),
+        "{text}"
+    );
+}

@@ -509,10 +509,9 @@ pub fn svg(spec: &Spec, stage: &dyn Circuit, build: &Build, evaluation: &Evaluat
     );
     let title = if spec.split() {
         format!(
-            "{} stage, split supply {} / +{}",
+            "{} stage, split supply {}",
             stage.kind().name(),
-            format(spec.supply_low, Unit::Volt).replace('-', "−"),
-            format(spec.supply, Unit::Volt)
+            super::common::supply_text(spec)
         )
     } else {
         format!(
