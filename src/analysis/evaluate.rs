@@ -861,7 +861,7 @@ fn checks(
     if let (Some(max), Some(offset)) = (spec.output_offset_max, m.output_offset_worst_v) {
         out.push(Check::new(
             "output_offset_max",
-            format!("{worst} output DC error (Ib, Ios, Vos; source at 0 V)"),
+            format!("{worst} output DC error, source at 0 V"),
             offset,
             Bound::Max,
             max,
@@ -885,7 +885,7 @@ fn checks(
             .map_or(0.0, |p| p / spec.gain.abs() / 2.0);
         out.push(Check::new(
             "common_mode_high",
-            format!("{worst} highest common-mode input vs the source's level + V_d/2"),
+            format!("{worst} top of the common-mode range"),
             d.common_mode_max_v,
             Bound::Min,
             spec.source_dc + half,
@@ -893,7 +893,7 @@ fn checks(
         ));
         out.push(Check::new(
             "common_mode_low",
-            format!("{worst} lowest common-mode input vs the source's level − V_d/2"),
+            format!("{worst} bottom of the common-mode range"),
             d.common_mode_min_v,
             Bound::Max,
             spec.source_dc - half,
