@@ -105,6 +105,42 @@ capacitor_range = ["1n", "1m"]
 cost = 0.5
 "#;
 
+/// Case 5 (issue 15): a difference stage for an invented load-cell bridge on ±12 V, from a
+/// generated 500-line resistor inventory (its own stage: the four resistors and their ratios'
+/// match are the whole search).
+const DIFFERENCE: &str = r#"
+[stage]
+kind = "difference"
+supply = "±12 V"
+gain = 33
+gain_tolerance = "3%"
+input_resistance_min = "10k"
+load = "10k"
+band = ["0.5 Hz", "1 kHz"]
+band_loss_max = "0.1 dB"
+headroom = "1.5 V"
+source_dc = "2.5 V"
+source_resistance = "175"
+input_peak = "100 mV"
+cmrr_min = "45 dB"
+output_offset_max = "25 mV"
+
+[amplifier]
+gbw = "1 MHz"
+input_bias_current = "20 nA"
+input_offset_current = "2 nA"
+input_offset_voltage = "0.5 mV"
+
+[stock]
+resistor_range = ["10", "10M"]
+
+[goals]
+cost = 0.5
+"#;
+
+/// Lines of the difference case's inventory, all resistors.
+const DIFFERENCE_LINES: usize = 500;
+
 /// Lines in the generated inventory (`STOCKFIT_BENCH_INVENTORY_LINES` overrides it, to see
 /// how the search scales); 70 % of them are resistors.
 const INVENTORY_LINES: usize = 5_000;
@@ -122,14 +158,16 @@ enum Case {
     E24Single,
     Reduced,
     Inventory,
+    Difference,
 }
 
 impl Case {
-    const ALL: [Case; 4] = [
+    const ALL: [Case; 5] = [
         Case::E96TwoPart,
         Case::E24Single,
         Case::Reduced,
         Case::Inventory,
+        Case::Difference,
     ];
 
     fn name(self) -> &'static str {
@@ -138,6 +176,7 @@ impl Case {
             Case::E24Single => "e24_single",
             Case::Reduced => "reduced_e12_two_part",
             Case::Inventory => "inventory_5000",
+            Case::Difference => "difference_500",
         }
     }
 
@@ -147,6 +186,7 @@ impl Case {
             Case::E24Single => "E24 single parts, 10 Ω–10 MΩ, top 10",
             Case::Reduced => "two-part E12, 10 kΩ–470 kΩ, divider and capacitors locked, top 10",
             Case::Inventory => "5,000-line inventory, single parts, top 10",
+            Case::Difference => "difference amplifier, 500-line resistor inventory, top 10",
         }
     }
 
@@ -240,6 +280,24 @@ fn prepare(case: Case) -> Prepared {
                 .collect();
             p
         }
+        Case::Difference => {
+            let spec = Spec::from_toml(DIFFERENCE).unwrap_or_else(|e| panic!("bench spec: {e}"));
+            let inv = Arc::new(
+                Inventory::parse_str(&inventory_csv_of(DIFFERENCE_LINES, DIFFERENCE_LINES))
+                    .expect("the generated inventory parses"),
+            );
+            assert_eq!(inv.lines.len(), DIFFERENCE_LINES);
+            Prepared {
+                stage: stage_of(&spec),
+                stock: Stock::new(
+                    Source::Inventory(inv.clone()),
+                    Source::Inventory(inv),
+                    spec.stock.limits(),
+                ),
+                locks: Vec::new(),
+                spec,
+            }
+        }
         Case::Inventory => {
             let spec = spec_of(INVENTORY);
             let inv = Arc::new(
@@ -289,6 +347,11 @@ impl Lcg {
 /// time), quantities from none to a reel with many lines at one or two pieces (so quantities
 /// bind), and costs by tolerance and size.
 fn inventory_csv(lines: usize) -> String {
+    inventory_csv_of(lines, lines * 7 / 10)
+}
+
+/// [`inventory_csv`] with `resistors` of its `lines` resistors.
+fn inventory_csv_of(lines: usize, resistors: usize) -> String {
     let mut rng = Lcg(0x5eed_0fb3_c4d5);
     let res = Series::E96.values_in(10.0, 10e6);
     let caps = Series::E12.values_in(1e-9, 1e-3);
@@ -300,7 +363,6 @@ fn inventory_csv(lines: usize) -> String {
         6..=9 => 3 + rng.below(8),
         _ => 20 + rng.below(481),
     };
-    let resistors = lines * 7 / 10;
     for _ in 0..resistors {
         let v = *rng.pick(&res);
         let (tol, cost) = *rng.pick(&[("0.1%", 0.12), ("1%", 0.02), ("1%", 0.015), ("5%", 0.01)]);
@@ -711,6 +773,17 @@ fn main() {
                 verdict(t < 2.0)
             ),
             None => println!("- {d}: did not finish, {}; target < 2 s: NOT met", why(i)),
+        }
+    }
+    if let Some(i) = idx(Case::Difference) {
+        let d = Case::Difference.describe();
+        match time_of(i) {
+            Some((t, how)) => println!(
+                "- {d}: {} ({how}); target < 1 s (issue 15): {}",
+                seconds(t),
+                verdict(t < 1.0)
+            ),
+            None => println!("- {d}: did not finish, {}; target < 1 s: NOT met", why(i)),
         }
     }
     for (case, s) in cases.iter().zip(&singles) {

@@ -171,8 +171,12 @@ impl Lock {
 pub struct Spec {
     /// Which stage to design.
     pub stage: StageKind,
-    /// The single supply voltage, V (> 0).
+    /// The supply's positive rail, V (> 0): the single supply, or the upper rail of a split
+    /// pair.
     pub supply: f64,
+    /// The supply's negative rail, V: 0 (ground) for a single supply, below 0 for a split
+    /// pair (`supply = ["-12 V", "12 V"]` or `"±12 V"`).
+    pub supply_low: f64,
     /// Mid-band gain from the source EMF to the load, V/V: negative for inverting, ≥ 1 for
     /// non-inverting.
     pub gain: f64,
@@ -210,6 +214,11 @@ pub struct Spec {
     pub tolerance_mode: ToleranceMode,
     /// Most current the bias divider may draw from the supply (battery life), A.
     pub bias_current_max: Option<f64>,
+    /// Most worst-case output DC error of a DC-coupled stage (the op-amp's bias, offset
+    /// current and offset voltage through the stage, source at 0 V), V.
+    pub output_offset_max: Option<f64>,
+    /// Least worst-case common-mode rejection of a difference stage at DC, dB.
+    pub cmrr_min: Option<f64>,
     /// The op-amp's datasheet figures.
     pub amplifier: Amplifier,
     /// Where the parts come from and what may be taken.
@@ -223,7 +232,25 @@ pub struct Spec {
 impl Spec {
     /// The bias point that leaves the same swing to both rails' limits.
     pub fn bias_target(&self) -> f64 {
+        if self.split() {
+            // A DC-coupled stage's output DC is the signal's own: ground is its target.
+            return 0.0;
+        }
         (self.headroom.0 + self.supply - self.headroom.1) / 2.0
+    }
+
+    /// True on a split supply (a negative rail below ground).
+    pub fn split(&self) -> bool {
+        self.supply_low < 0.0
+    }
+
+    /// The lowest and highest output the headroom allows: (V− + headroom low, V+ − headroom
+    /// high), with V− = 0 on a single supply.
+    pub fn output_limits(&self) -> (f64, f64) {
+        (
+            self.supply_low + self.headroom.0,
+            self.supply - self.headroom.1,
+        )
     }
 
     /// The output peak the spec asks for: `output_peak`, or `input_peak` × |gain|.
@@ -326,6 +353,10 @@ const STAGE_KEYS: &[&str] = &[
     "output_peak",
     "tolerance_mode",
     "bias_current_max",
+    "coupling",
+    "bias_compensation",
+    "output_offset_max",
+    "cmrr_min",
 ];
 const AMPLIFIER_KEYS: &[&str] = &[
     "gbw",
@@ -1145,7 +1176,7 @@ impl Spec {
                     r.error(
                         s,
                         Some("kind"),
-                        format!("unknown stage {k:?}; expected \"inverting\" or \"non-inverting\""),
+                        format!("unknown stage {k:?}; expected \"inverting\", \"non-inverting\" or \"difference\""),
                     );
                     None
                 }
@@ -1155,13 +1186,15 @@ impl Spec {
                     r.error(
                         s,
                         None,
-                        "missing `kind` (\"inverting\" or \"non-inverting\")".into(),
+                        "missing `kind` (\"inverting\", \"non-inverting\" or \"difference\")"
+                            .into(),
                     );
                 }
                 None
             }
         };
-        let supply = r.required(s, stage_t, "supply", Unit::Volt);
+        let rails = supply_rails(&mut r, s, stage_t);
+        let supply = rails.map(|(_, hi)| hi);
         let gain = match stage_t.get("gain") {
             None => {
                 r.error(
@@ -1259,6 +1292,21 @@ impl Spec {
         let input_peak = r.positive(s, stage_t, "input_peak", Unit::Volt);
         let output_peak = r.positive(s, stage_t, "output_peak", Unit::Volt);
         let bias_current_max = r.positive(s, stage_t, "bias_current_max", Unit::Ampere);
+        let output_offset_max = r.positive(s, stage_t, "output_offset_max", Unit::Volt);
+        let cmrr_min = r.positive(s, stage_t, "cmrr_min", Unit::Decibel);
+        let coupling = r.text(s, stage_t, "coupling");
+        let bias_compensation = match stage_t.get("bias_compensation") {
+            None => None,
+            Some(Value::Boolean(b)) => Some(*b),
+            Some(other) => {
+                r.error(
+                    s,
+                    Some("bias_compensation"),
+                    format!("found {}, expected true or false", found(other)),
+                );
+                None
+            }
+        };
         let tolerance_mode = match r.text(s, stage_t, "tolerance_mode").as_deref() {
             None => ToleranceMode::Worst,
             Some("worst") | Some("worst-case") | Some("worst_case") => ToleranceMode::Worst,
@@ -1420,8 +1468,68 @@ impl Spec {
         }
 
         // Cross-field rules, once every field is read.
+        let split = rails.is_some_and(|(lo, _)| lo < 0.0);
+        let kind = kind.and_then(|k| {
+            resolve_kind(
+                &mut r,
+                k,
+                split,
+                coupling.as_deref(),
+                bias_compensation,
+                &amplifier,
+            )
+        });
+        if let Some(k) = kind {
+            if !k.split_supply() {
+                for key in ["output_offset_max", "cmrr_min", "bias_compensation"] {
+                    if stage_t.contains_key(key) {
+                        r.error(
+                            s,
+                            Some(key),
+                            "applies to the DC-coupled stages on a split supply only".into(),
+                        );
+                    }
+                }
+            } else if k != StageKind::Difference && stage_t.contains_key("cmrr_min") {
+                r.error(
+                    s,
+                    Some("cmrr_min"),
+                    "applies to `kind = \"difference\"` only".into(),
+                );
+            }
+            if k.split_supply() && bias_current_max.is_some() {
+                r.error(
+                    s,
+                    Some("bias_current_max"),
+                    "a DC-coupled stage has no bias divider to limit".into(),
+                );
+            }
+        }
         if let (Some(kind), Some(g)) = (kind, gain) {
             match kind {
+                StageKind::Difference if g <= 0.0 => r.error(
+                    s,
+                    Some("gain"),
+                    format!(
+                        "a difference stage's gain R2/R1 is positive (output = gain · (V+ − V−)); found {g}"
+                    ),
+                ),
+                StageKind::InvertingDc | StageKind::InvertingDcCompensated if g >= 0.0 => {
+                    r.error(
+                        s,
+                        Some("gain"),
+                        format!(
+                            "an inverting stage has a negative gain; found {g} (did you mean {}?)",
+                            -g
+                        ),
+                    )
+                }
+                StageKind::NonInvertingDc | StageKind::NonInvertingDcCompensated if g < 1.0 => r
+                    .error(
+                        s,
+                        Some("gain"),
+                        format!("a non-inverting stage has a gain of at least 1; found {g}"),
+                    ),
                 StageKind::Inverting if g >= 0.0 => r.error(
                     s,
                     Some("gain"),
@@ -1438,7 +1546,7 @@ impl Spec {
                 _ => {}
             }
         }
-        if let Some(v) = supply {
+        if let Some((v_lo, v)) = rails {
             if v <= 0.0 {
                 r.error(
                     s,
@@ -1447,7 +1555,7 @@ impl Spec {
                 );
             } else if headroom.0 < 0.0 || headroom.1 < 0.0 {
                 r.error(s, Some("headroom"), "headroom cannot be negative".into());
-            } else if headroom.0 + headroom.1 >= v {
+            } else if headroom.0 + headroom.1 >= v - v_lo {
                 r.error(
                     s,
                     Some("headroom"),
@@ -1455,7 +1563,7 @@ impl Spec {
                         "headroom {} + {} leaves no output swing on a {} supply",
                         value::format(headroom.0, Unit::Volt),
                         value::format(headroom.1, Unit::Volt),
-                        value::format(v, Unit::Volt)
+                        value::format(v - v_lo, Unit::Volt)
                     ),
                 );
             }
@@ -1513,6 +1621,7 @@ impl Spec {
         Ok(Spec {
             stage,
             supply,
+            supply_low: rails.map_or(0.0, |(lo, _)| lo),
             gain,
             gain_tolerance,
             gain_tolerance_default,
@@ -1529,6 +1638,8 @@ impl Spec {
             output_peak,
             tolerance_mode,
             bias_current_max,
+            output_offset_max,
+            cmrr_min,
             amplifier,
             stock: StockSpec {
                 resistors,
@@ -1544,6 +1655,131 @@ impl Spec {
             locks,
         })
     }
+}
+
+/// The supply's rails (low, high), V: a single value is (0, V); a pair `[low, high]` or a
+/// text `"±12 V"` (`"+-12 V"`, `"+/-12 V"`) is a split supply, its low rail below ground and
+/// its high rail above. Errors are recorded at the `supply` key.
+fn supply_rails(r: &mut Reader, s: &str, stage_t: &toml::Table) -> Option<(f64, f64)> {
+    let v = stage_t.get("supply");
+    let symmetric = match v {
+        Some(Value::String(t)) => {
+            let t = t.trim();
+            ["±", "+-", "+/-"]
+                .iter()
+                .find_map(|p| t.strip_prefix(p))
+                .map(str::to_string)
+        }
+        _ => None,
+    };
+    if let Some(rest) = symmetric {
+        match scalar(&Value::String(rest.clone()), Unit::Volt)
+            .and_then(|x| judge(s, "supply", Unit::Volt, &Value::String(rest), x))
+        {
+            Ok(x) if x > 0.0 => Some((-x, x)),
+            Ok(x) => {
+                r.error(
+                    s,
+                    Some("supply"),
+                    format!("a split supply ±V needs V > 0, found {x} V"),
+                );
+                None
+            }
+            Err(m) => {
+                r.error(s, Some("supply"), m);
+                None
+            }
+        }
+    } else if let Some(Value::Array(_)) = v {
+        let (lo, hi) = r.pair(s, stage_t, "supply", Unit::Volt, false)?;
+        if !(lo <= 0.0 && hi > 0.0) {
+            r.error(
+                s,
+                Some("supply"),
+                format!(
+                    "a split supply is [negative rail, positive rail] around ground, e.g. \
+                     [\"-12 V\", \"12 V\"]; found [{} , {}]",
+                    value::format(lo, Unit::Volt),
+                    value::format(hi, Unit::Volt)
+                ),
+            );
+            return None;
+        }
+        Some((lo, hi))
+    } else {
+        r.required(s, stage_t, "supply", Unit::Volt)
+            .map(|v| (0.0, v))
+    }
+}
+
+/// The circuit a spec's `kind` names with its supply and `coupling`: on a split supply (or
+/// with `coupling = "dc"`) the inverting and non-inverting kinds are their DC-coupled forms,
+/// with a bias-compensation resistor when `bias_compensation` says so or, without the key,
+/// when it helps (the bias current exceeds the offset current, so the resistor removes more
+/// than it adds: common practice). An AC-coupled stage needs a single supply, a DC-coupled
+/// one a split supply.
+fn resolve_kind(
+    r: &mut Reader,
+    kind: StageKind,
+    split: bool,
+    coupling: Option<&str>,
+    compensation: Option<bool>,
+    amplifier: &Amplifier,
+) -> Option<StageKind> {
+    let s = "stage";
+    let dc = match coupling.map(|c| c.trim().to_ascii_lowercase()) {
+        None => split || kind.split_supply(),
+        Some(c) if c == "dc" => true,
+        Some(c) if c == "ac" => false,
+        Some(other) => {
+            r.error(
+                s,
+                Some("coupling"),
+                format!("found {other:?}, expected \"ac\" or \"dc\""),
+            );
+            return None;
+        }
+    };
+    if dc && !split {
+        r.error(
+            s,
+            Some("supply"),
+            "a DC-coupled stage runs on a split supply: give `supply = [\"-12 V\", \"12 V\"]` \
+             or `\"±12 V\"` (or `coupling = \"ac\"` for the single-supply stage)"
+                .into(),
+        );
+        return None;
+    }
+    if !dc {
+        if kind.split_supply() {
+            r.error(
+                s,
+                Some("coupling"),
+                format!("a `{}` stage is DC-coupled", kind.name()),
+            );
+            return None;
+        }
+        if split {
+            r.error(
+                s,
+                Some("supply"),
+                "the AC-coupled stages run on a single supply; give one value, or \
+                 `coupling = \"dc\"` for the DC-coupled stage on the split supply"
+                    .into(),
+            );
+            return None;
+        }
+        return Some(kind);
+    }
+    let named = match kind {
+        StageKind::InvertingDcCompensated | StageKind::NonInvertingDcCompensated => Some(true),
+        StageKind::InvertingDc | StageKind::NonInvertingDc => Some(false),
+        _ => None,
+    };
+    let compensated = compensation
+        .or(named)
+        .unwrap_or(amplifier.input_bias_current > amplifier.input_offset_current);
+    Some(kind.dc_coupled(compensated))
 }
 
 /// Largest spec file read (1 MiB): a hand-written spec is a few hundred bytes, so anything
@@ -2181,5 +2417,91 @@ band = ["20 Hz", "20 kHz"]
         );
         assert_eq!(nearest("suply", STAGE_KEYS), Some("supply"));
         assert_eq!(nearest("zzzzzzzzzzzz", &["a", "b"]), None);
+    }
+}
+
+#[cfg(test)]
+mod split_supply_tests {
+    use super::*;
+
+    fn stage(kind: &str, supply: &str, extra: &str) -> Result<Spec, SpecErrors> {
+        Spec::from_toml(&format!(
+            "[stage]\nkind = \"{kind}\"\nsupply = {supply}\ngain = -10\nload = \"10k\"\n\
+             band = [\"1 Hz\", \"1 kHz\"]\n{extra}"
+        ))
+    }
+
+    fn message(r: Result<Spec, SpecErrors>) -> String {
+        r.expect_err("refused").to_string()
+    }
+
+    #[test]
+    fn supply_pairs_and_plus_minus_forms() {
+        for text in [
+            "\"±12 V\"",
+            "\"+-12 V\"",
+            "\"+/-12\"",
+            "[\"-12 V\", \"12 V\"]",
+        ] {
+            let s = stage("inverting", text, "").unwrap();
+            assert_eq!((s.supply_low, s.supply), (-12.0, 12.0), "{text}");
+            assert!(s.split());
+            assert_eq!(s.stage, StageKind::InvertingDc);
+        }
+        let s = stage("inverting", "[\"-5 V\", \"15 V\"]", "headroom = [1, 2]").unwrap();
+        assert_eq!(s.output_limits(), (-4.0, 13.0));
+        // A single value keeps its meaning: rails 0 and V, the AC-coupled stage.
+        let s = stage("inverting", "9", "").unwrap();
+        assert_eq!(
+            (s.supply_low, s.supply, s.stage),
+            (0.0, 9.0, StageKind::Inverting)
+        );
+    }
+
+    #[test]
+    fn the_supply_and_the_coupling_must_agree() {
+        assert!(message(stage("inverting", "9", "coupling = \"dc\"")).contains("split supply"));
+        assert!(
+            message(stage("inverting", "\"±9 V\"", "coupling = \"ac\"")).contains("single supply")
+        );
+        assert!(message(stage("difference", "9", "")).contains("split supply"));
+        assert!(message(stage("inverting", "\"±9 V\"", "coupling = \"xy\""))
+            .contains("\"ac\" or \"dc\""));
+        // The rails around ground, low first.
+        assert!(
+            message(stage("inverting", "[12, -12]", "")).contains("[negative rail, positive rail]")
+        );
+        assert!(message(stage("inverting", "\"±0 V\"", "")).contains("V > 0"));
+        // Headroom counts the whole span.
+        assert!(message(stage("inverting", "\"±5 V\"", "headroom = 5")).contains("no output swing"));
+        assert!(stage("inverting", "\"±5 V\"", "headroom = 4.9").is_ok());
+    }
+
+    #[test]
+    fn split_supply_keys_belong_to_their_stages() {
+        assert!(
+            message(stage("inverting", "9", "output_offset_max = \"1 mV\""))
+                .contains("split supply")
+        );
+        assert!(message(stage("inverting", "\"±9 V\"", "cmrr_min = 60")).contains("difference"));
+        assert!(
+            message(stage("inverting", "\"±9 V\"", "bias_current_max = 1e-3")).contains("divider")
+        );
+        assert!(message(stage("difference", "\"±9 V\"", "")).contains("positive"));
+        let d = Spec::from_toml(
+            "[stage]\nkind = \"difference\"\nsupply = \"±9 V\"\ngain = 2\nload = 1e4\nband = [1, 1000]\ncmrr_min = \"60 dB\"\n",
+        )
+        .unwrap();
+        assert_eq!((d.stage, d.cmrr_min), (StageKind::Difference, Some(60.0)));
+        assert_eq!(
+            stage("inverting", "\"±9 V\"", "bias_compensation = true")
+                .unwrap()
+                .stage,
+            StageKind::InvertingDcCompensated
+        );
+        assert!(
+            message(stage("inverting", "\"±9 V\"", "bias_compensation = 1"))
+                .contains("true or false")
+        );
     }
 }

@@ -105,18 +105,69 @@ pub enum StageKind {
     Inverting,
     /// Non-inverting amplifier: gain 1 + R_f/R_g, input on the op-amp's + input.
     NonInverting,
+    /// Split-supply, DC-coupled inverting amplifier (`circuit::split_supply`), + input to
+    /// ground directly.
+    InvertingDc,
+    /// The same with a bias-compensation resistor from the + input to ground.
+    InvertingDcCompensated,
+    /// Split-supply, DC-coupled non-inverting amplifier (`circuit::split_supply`), the source
+    /// straight on the + input.
+    NonInvertingDc,
+    /// The same with a bias-compensation resistor in series with the + input.
+    NonInvertingDcCompensated,
+    /// Four-resistor difference amplifier on a split supply (`circuit::difference`).
+    Difference,
 }
 
 impl StageKind {
     /// Every stage kind.
-    pub const ALL: [StageKind; 2] = [StageKind::Inverting, StageKind::NonInverting];
+    pub const ALL: [StageKind; 7] = [
+        StageKind::Inverting,
+        StageKind::NonInverting,
+        StageKind::InvertingDc,
+        StageKind::InvertingDcCompensated,
+        StageKind::NonInvertingDc,
+        StageKind::NonInvertingDcCompensated,
+        StageKind::Difference,
+    ];
 
     /// The spec's name of the stage (`"inverting"`, `"non-inverting"`).
     pub fn name(self) -> &'static str {
         match self {
             StageKind::Inverting => "inverting",
             StageKind::NonInverting => "non-inverting",
+            StageKind::InvertingDc => "inverting-dc",
+            StageKind::InvertingDcCompensated => "inverting-dc-compensated",
+            StageKind::NonInvertingDc => "non-inverting-dc",
+            StageKind::NonInvertingDcCompensated => "non-inverting-dc-compensated",
+            StageKind::Difference => "difference",
         }
+    }
+
+    /// True for the stages that run on a split supply, DC-coupled (no divider, no coupling
+    /// capacitors): the output's DC is the signal's own, centred on ground.
+    pub fn split_supply(self) -> bool {
+        !matches!(self, StageKind::Inverting | StageKind::NonInverting)
+    }
+
+    /// The DC-coupled kind a spec's `kind` names on a split supply (or with `coupling =
+    /// "dc"`), with or without bias compensation; the kind itself when it has no such form.
+    pub fn dc_coupled(self, compensated: bool) -> StageKind {
+        match (self, self.inverting(), compensated) {
+            (StageKind::Difference, _, _) => StageKind::Difference,
+            (_, true, false) => StageKind::InvertingDc,
+            (_, true, true) => StageKind::InvertingDcCompensated,
+            (_, false, false) => StageKind::NonInvertingDc,
+            (_, false, true) => StageKind::NonInvertingDcCompensated,
+        }
+    }
+
+    /// True for the kinds whose gain is negative (the inverting ones).
+    pub fn inverting(self) -> bool {
+        matches!(
+            self,
+            StageKind::Inverting | StageKind::InvertingDc | StageKind::InvertingDcCompensated
+        )
     }
 
     /// Reads a stage name, case-insensitive and trimmed, `_` taken as `-`; `None` if unknown.

@@ -11,18 +11,27 @@ use stockfit::spec::Spec;
 use stockfit::vocab::{PartKind, StageKind};
 
 fn spec(kind: StageKind, rs: f64) -> Spec {
-    let gain = match kind {
-        StageKind::Inverting => -8.2,
-        StageKind::NonInverting => 8.2,
+    let gain = if kind.inverting() { -8.2 } else { 8.2 };
+    // The split-supply stages on ±12 V (and a source DC, which their DC point carries).
+    let supply = if kind.split_supply() {
+        "\"±12 V\"\nsource_dc = 0.3"
+    } else {
+        "12"
     };
-    Spec::from_toml(&format!(
-        "[stage]\nkind = \"{}\"\nsupply = 12\ngain = {gain}\nload = 4700\nband = [30, 12000]\nsource_resistance = {rs}\n[amplifier]\ninput_bias_current = 40e-9\ninput_offset_current = 4e-9\n",
+    let spec = Spec::from_toml(&format!(
+        "[stage]\nkind = \"{}\"\nsupply = {supply}\ngain = {gain}\nload = 4700\nband = [30, 12000]\nsource_resistance = {rs}\n[amplifier]\ninput_bias_current = 40e-9\ninput_offset_current = 4e-9\ninput_offset_voltage = 1e-3\n",
         kind.name()
     ))
-    .unwrap()
+    .unwrap();
+    assert_eq!(spec.stage, kind);
+    spec
 }
 
 fn within(x: f64, i: Iv) -> bool {
+    if x.is_infinite() {
+        // The op-amp's own input (a non-inverting DC stage's input resistance).
+        return i.lo <= x && x <= i.hi;
+    }
     let eps = 1e-12 * x.abs().max(1e-30);
     i.lo - eps <= x && x <= i.hi + eps
 }
@@ -38,18 +47,14 @@ fn figures_agree_with_the_equations_and_hold_their_points() {
         TestRng::deterministic_rng(RngAlgorithm::ChaCha),
     );
     let strategy = (
-        any::<bool>(),
+        0..StageKind::ALL.len(),
         prop::option::of(10.0f64..1e4),
         prop::collection::vec((0.0f64..1.0, 0.0f64..1.0, 0.0f64..1.0), 8),
     );
     let compared = std::cell::Cell::new(0u32);
     runner
-        .run(&strategy, |(inv, rs, draws)| {
-            let kind = if inv {
-                StageKind::Inverting
-            } else {
-                StageKind::NonInverting
-            };
+        .run(&strategy, |(k, rs, draws)| {
+            let kind = StageKind::ALL[k];
             let spec = spec(kind, rs.unwrap_or(0.0));
             let c = circuit_for(kind);
             // Per slot an interval [a, a·k] and a point inside it, log-uniform over the
@@ -101,6 +106,10 @@ fn figures_agree_with_the_equations_and_hold_their_points() {
             if let (Some(x), Some(i)) = (f.bias_current, b.bias_current) {
                 prop_assert!(within(x, i));
             }
+            if let (Some(x), Some(i)) = (f.cm_ratio, b.cm_ratio) {
+                prop_assert!(within(x, i), "cm ratio {} ∉ {:?}", x, i);
+            }
+            prop_assert!(within(f.dc_error, b.dc_error));
             for (n, i) in f.networks.iter().zip(&b.networks) {
                 prop_assert!(within(n.resistance, i.resistance));
                 prop_assert!(within(n.capacitance, i.capacitance));

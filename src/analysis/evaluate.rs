@@ -66,6 +66,47 @@ pub struct PowerReport {
     pub rating: Option<f64>,
 }
 
+/// Two slots a difference stage wants alike, and whether the build takes them from one
+/// stock line (one batch, common practice for matched ratios).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PairReport {
+    /// The two slots' names.
+    pub slots: [String; 2],
+    /// The inventory's data row both are single pieces from, when they are (`None`: two
+    /// lines, a series value or a two-piece realisation).
+    pub line: Option<usize>,
+}
+
+/// The figures of a stage with two inputs (the difference amplifier), nominal unless the
+/// name says otherwise.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct DifferenceReport {
+    /// Resistance of the − input, the + input at its DC level, Ω.
+    pub input_resistance_minus: f64,
+    /// Resistance of the + input, Ω.
+    pub input_resistance_plus: f64,
+    /// Lowest − input resistance over the tolerance corners, Ω.
+    pub input_resistance_minus_worst: f64,
+    /// Lowest + input resistance over the tolerance corners, Ω.
+    pub input_resistance_plus_worst: f64,
+    /// Common-mode gain A_cm at DC, V/V (signed; 0 when the ratios match exactly).
+    pub common_mode_gain: f64,
+    /// Largest |A_cm| over the tolerance corners, V/V.
+    pub common_mode_gain_worst: f64,
+    /// Common-mode rejection |A_d/A_cm| at DC, dB; `None` (JSON null) when A_cm is 0.
+    pub cmrr_db: Option<f64>,
+    /// Lowest common-mode rejection over the tolerance corners, dB; `None` when A_cm is 0
+    /// at every corner.
+    pub cmrr_worst_db: Option<f64>,
+    /// Lowest common-mode input level that keeps the op-amp's inputs inside the headroom
+    /// limits at every corner, V.
+    pub common_mode_min_v: f64,
+    /// Highest such level, V.
+    pub common_mode_max_v: f64,
+    /// The slot pairs whose values should match, and whether they come from one line.
+    pub pairs: Vec<PairReport>,
+}
+
 /// The figures of one build. Nominal unless the name says otherwise.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Metrics {
@@ -125,6 +166,13 @@ pub struct Metrics {
     pub cost: Option<f64>,
     /// Each coupling network's corner.
     pub networks: Vec<NetworkReport>,
+    /// Largest |output DC error| of a DC-coupled stage over the resistor tolerances and the
+    /// op-amp error signs, the source at 0 V (Ib, Ios and Vos through the stage), V.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub output_offset_worst_v: Option<f64>,
+    /// The two-input figures of a difference stage.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub difference: Option<DifferenceReport>,
 }
 
 /// Everything known about one build.
@@ -492,6 +540,17 @@ fn evaluate_with(
     let (dc_min, dc_max) = fold_range(dc_points.iter().map(|(_, p)| p.v_out));
     let swing = common::swing(spec, dc_min, dc_max);
     let input_range = swing / gain_mag_max;
+    let output_offset_worst = stage.output_offset(spec, &v, &nominal_errors).map(|_| {
+        dc_vertices
+            .iter()
+            .flat_map(|x| {
+                error_corners
+                    .iter()
+                    .map(move |e| stage.output_offset(spec, x, e).unwrap_or(0.0).abs())
+            })
+            .fold(0.0, f64::max)
+    });
+    let difference = difference_report(spec, stage, build, &dc_vertices);
 
     // Capacitor DC, nominal and over the corners.
     let nominal_bias = stage.cap_bias(spec, &v, &dc);
@@ -567,6 +626,8 @@ fn evaluate_with(
         bom_lines: build.bom_lines(),
         cost: build.cost(),
         networks,
+        output_offset_worst_v: output_offset_worst,
+        difference,
     };
     let mut checks = checks(spec, &metrics, &caps, &power, stock.map(|s| s.fits(&parts)));
     // The corner checks' verdicts: the band's edge at most 3 dB down at every vertex (the
@@ -592,6 +653,76 @@ fn evaluate_with(
         noise: None,
         dc_budget: None,
     }
+}
+
+/// The two-input figures at nominal and over the resistor corners `vertices`: the gains
+/// from `Circuit::dc_gains`, each corner's rejection |A_d/A_cm| (the extreme-value rule of
+/// the whole analysis), and the common-mode range: the op-amp's inputs sit at V_cm·k with k
+/// the + input's divider ratio A₂/(1 + R_2/R₁) (module docs of `circuit::difference`), taken
+/// inside the output's headroom limits (the input range an op-amp's datasheet gives is
+/// usually no wider: common practice).
+fn difference_report(
+    spec: &Spec,
+    stage: &dyn Circuit,
+    build: &Build,
+    vertices: &[Vec<f64>],
+) -> Option<DifferenceReport> {
+    let v = build.values();
+    let (_, acm) = stage.dc_gains(spec, &v)?;
+    let (rin_m, rin_p) = stage.input_resistances(spec, &v)?;
+    let db = |ad: f64, acm: f64| (acm != 0.0).then(|| 20.0 * (ad / acm).abs().log10());
+    let (mut worst_ratio, mut acm_worst) = (f64::INFINITY, 0.0f64);
+    let (mut rm_worst, mut rp_worst, mut k_max) = (f64::INFINITY, f64::INFINITY, 0.0f64);
+    for x in vertices {
+        if let Some((ad, cm)) = stage.dc_gains(spec, x) {
+            acm_worst = acm_worst.max(cm.abs());
+            if cm != 0.0 {
+                worst_ratio = worst_ratio.min((ad / cm).abs());
+            }
+            // V+ = V_cm·k at an ideal op-amp: k = (A_d + A_cm/2)/(1 + A₁) with A₁ the
+            // inverting gain, which is A_d − A_cm/2.
+            let a1 = ad - cm / 2.0;
+            k_max = k_max.max((ad + cm / 2.0) / (1.0 + a1));
+        }
+        if let Some((m, p)) = stage.input_resistances(spec, x) {
+            rm_worst = rm_worst.min(m);
+            rp_worst = rp_worst.min(p);
+        }
+    }
+    let (ad, _) = stage.dc_gains(spec, &v)?;
+    let (lo, hi) = spec.output_limits();
+    let pairs = stage
+        .matched_pairs()
+        .iter()
+        .map(|&(a, b)| {
+            let (pa, pb) = (&build.parts[a], &build.parts[b]);
+            let one = |p: &Part| match p.pieces.as_slice() {
+                [piece] => piece.line,
+                _ => None,
+            };
+            let slots = stage.slots();
+            PairReport {
+                slots: [slots[a].name.to_string(), slots[b].name.to_string()],
+                line: match (one(pa), one(pb)) {
+                    (Some(x), Some(y)) if x == y => Some(x),
+                    _ => None,
+                },
+            }
+        })
+        .collect();
+    Some(DifferenceReport {
+        input_resistance_minus: rin_m,
+        input_resistance_plus: rin_p,
+        input_resistance_minus_worst: rm_worst,
+        input_resistance_plus_worst: rp_worst,
+        common_mode_gain: acm,
+        common_mode_gain_worst: acm_worst,
+        cmrr_db: db(ad, acm),
+        cmrr_worst_db: worst_ratio.is_finite().then(|| 20.0 * worst_ratio.log10()),
+        common_mode_min_v: lo / k_max,
+        common_mode_max_v: hi / k_max,
+        pairs,
+    })
 }
 
 /// Power rating of a realisation: the weakest piece scaled by its share (series pieces carry
@@ -806,6 +937,48 @@ fn checks(
                 Unit::Watt,
             ));
         }
+    }
+    if let (Some(max), Some(offset)) = (spec.output_offset_max, m.output_offset_worst_v) {
+        out.push(Check::new(
+            "output_offset_max",
+            format!("{worst} output DC error, source at 0 V"),
+            offset,
+            Bound::Max,
+            max,
+            Unit::Volt,
+        ));
+    }
+    if let Some(d) = &m.difference {
+        if let Some(min) = spec.cmrr_min {
+            out.push(Check::new(
+                "cmrr_min",
+                format!("{worst} common-mode rejection at DC"),
+                d.cmrr_worst_db.unwrap_or(f64::INFINITY),
+                Bound::Min,
+                min,
+                Unit::Decibel,
+            ));
+        }
+        // The source's common-mode level with half the differential peak on either side.
+        let half = spec
+            .required_output_peak()
+            .map_or(0.0, |p| p / spec.gain.abs() / 2.0);
+        out.push(Check::new(
+            "common_mode_high",
+            format!("{worst} top of the common-mode range"),
+            d.common_mode_max_v,
+            Bound::Min,
+            spec.source_dc + half,
+            Unit::Volt,
+        ));
+        out.push(Check::new(
+            "common_mode_low",
+            format!("{worst} bottom of the common-mode range"),
+            d.common_mode_min_v,
+            Bound::Max,
+            spec.source_dc - half,
+            Unit::Volt,
+        ));
     }
     if let Some(max) = spec.bias_current_max {
         out.push(Check::new(

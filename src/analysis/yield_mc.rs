@@ -164,6 +164,14 @@ enum Judge {
     Polarity(usize, bool),
     /// Slot of the resistor and its power limit (50 % of the rating).
     Power(usize, f64),
+    /// Most |output DC error| of a DC-coupled stage, source at 0 V.
+    OutputOffset(f64),
+    /// Least common-mode rejection, dB.
+    Cmrr(f64),
+    /// The common-mode input range's top at or above this level, V.
+    CommonModeHigh(f64),
+    /// Its bottom at or below this level, V.
+    CommonModeLow(f64),
 }
 
 /// The judges in `analysis::checks` order, with their check names.
@@ -244,6 +252,30 @@ fn judges(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Vec<(String, Judge
                 Judge::Power(slot, rating * RESISTOR_DERATING),
             ));
         }
+    }
+    if let Some(max) = spec.output_offset_max {
+        if stage
+            .output_offset(spec, &v, &DcErrors::nominal(spec))
+            .is_some()
+        {
+            out.push(("output_offset_max".into(), Judge::OutputOffset(max)));
+        }
+    }
+    if stage.dc_gains(spec, &v).is_some() {
+        if let Some(min) = spec.cmrr_min {
+            out.push(("cmrr_min".into(), Judge::Cmrr(min)));
+        }
+        let half = spec
+            .required_output_peak()
+            .map_or(0.0, |p| p / spec.gain.abs() / 2.0);
+        out.push((
+            "common_mode_high".into(),
+            Judge::CommonModeHigh(spec.source_dc + half),
+        ));
+        out.push((
+            "common_mode_low".into(),
+            Judge::CommonModeLow(spec.source_dc - half),
+        ));
     }
     out
 }
@@ -396,6 +428,24 @@ pub fn monte_carlo(
                     .iter()
                     .find(|(s, _)| *s == slot)
                     .is_some_and(|(_, w)| passes(*w, Bound::Max, limit)),
+                Judge::OutputOffset(max) => stage
+                    .output_offset(spec, &x, &e)
+                    .is_some_and(|o| passes(o.abs(), Bound::Max, max)),
+                Judge::Cmrr(min) => stage.dc_gains(spec, &x).is_some_and(|(ad, cm)| {
+                    cm == 0.0 || passes(20.0 * (ad / cm).abs().log10(), Bound::Min, min)
+                }),
+                // The op-amp's inputs at V_cm·k, k = A₂/(1 + A₁) (`evaluate`'s rule).
+                Judge::CommonModeHigh(level) | Judge::CommonModeLow(level) => {
+                    stage.dc_gains(spec, &x).is_some_and(|(ad, cm)| {
+                        let k = (ad + cm / 2.0) / (1.0 + ad - cm / 2.0);
+                        let (lo, hi) = spec.output_limits();
+                        if matches!(judge, Judge::CommonModeHigh(_)) {
+                            passes(hi / k, Bound::Min, level)
+                        } else {
+                            passes(lo / k, Bound::Max, level)
+                        }
+                    })
+                }
             };
             *count += usize::from(ok);
             ok_all &= ok;

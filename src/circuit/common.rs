@@ -149,9 +149,11 @@ pub fn divider_current_ok(spec: &Spec, hi: &SlotValue, lo: &SlotValue) -> bool {
         .is_none_or(|max| spec.supply / (hi.value + lo.value) <= max * (1.0 + SLACK))
 }
 
-/// Output peak the headroom allows around a DC range.
+/// Output peak the headroom allows around a DC range, to each rail's limit
+/// (`Spec::output_limits`).
 pub fn swing(spec: &Spec, dc_min: f64, dc_max: f64) -> f64 {
-    (dc_min - spec.headroom.0).min(spec.supply - spec.headroom.1 - dc_max)
+    let (lo, hi) = spec.output_limits();
+    (dc_min - lo).min(hi - dc_max)
 }
 
 /// Relaxed swing requirement: the output swing, or the input range at the highest gain.

@@ -100,6 +100,8 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
         dc_error: common::dc_error(spec, hi, lo, fb),
         bias_current: Some(common::divider_current(spec.supply, hi, lo)),
         networks: networks(spec, v),
+        cm_ratio: None,
+        matched_gain: None,
     }
 }
 
@@ -443,6 +445,7 @@ impl Drawing for Inverting {
                     from_side: Some("op-amp side"),
                 },
             ],
+            minus_source: None,
         };
         &LAYOUT
     }

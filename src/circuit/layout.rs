@@ -67,6 +67,9 @@ pub struct Layout {
     pub dots: &'static [P],
     /// One entry per slot, in slot order.
     pub parts: &'static [Placed],
+    /// A second source, for a differential input: its symbol hangs below this point (the
+    /// input's − leg) as the first hangs below `source`. `None` for one input.
+    pub minus_source: Option<P>,
 }
 
 /// Shortest span of a placed part: room for two symbols in series.

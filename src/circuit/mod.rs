@@ -7,11 +7,13 @@
 //! one direction (types → plan → common → plans → circuits), never on this one.
 
 pub mod common;
+pub mod difference;
 pub mod inverting;
 pub mod layout;
 pub mod non_inverting;
 pub mod plan;
 pub(crate) mod plans;
+pub mod split_supply;
 pub mod traits;
 pub mod types;
 
@@ -26,6 +28,11 @@ pub fn circuit_for(kind: StageKind) -> &'static dyn Circuit {
     match kind {
         StageKind::Inverting => &inverting::Inverting,
         StageKind::NonInverting => &non_inverting::NonInverting,
+        StageKind::InvertingDc => &split_supply::INVERTING,
+        StageKind::InvertingDcCompensated => &split_supply::INVERTING_COMPENSATED,
+        StageKind::NonInvertingDc => &split_supply::NON_INVERTING,
+        StageKind::NonInvertingDcCompensated => &split_supply::NON_INVERTING_COMPENSATED,
+        StageKind::Difference => &difference::Difference,
     }
 }
 

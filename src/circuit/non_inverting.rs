@@ -153,6 +153,8 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
         dc_error: common::dc_error(spec, hi, lo, fb),
         bias_current: Some(common::divider_current(spec.supply, hi, lo)),
         networks: networks(spec, v),
+        cm_ratio: None,
+        matched_gain: None,
     }
 }
 
@@ -659,6 +661,7 @@ impl Drawing for NonInverting {
                     from_side: Some("op-amp side"),
                 },
             ],
+            minus_source: None,
         };
         &LAYOUT
     }

@@ -48,6 +48,27 @@ pub trait Circuit: Send + Sync {
     fn dc(&self, spec: &Spec, v: &[f64], e: &DcErrors) -> DcPoint;
     /// Nominal output DC error bound, V (see `common::offset_error`): what the `offset` goal counts.
     fn offset_error(&self, spec: &Spec, v: &[f64]) -> f64;
+    /// The output's DC error with the source's DC at 0 V and the op-amp errors `e`, V: what
+    /// `output_offset_max` judges. `None` for the AC-coupled stages, whose output DC is the
+    /// bias point (judged by the swing) and never reaches the load.
+    fn output_offset(&self, _spec: &Spec, _v: &[f64], _e: &DcErrors) -> Option<f64> {
+        None
+    }
+    /// The differential and common-mode gains at DC (A_d, A_cm), ideal op-amp, for a stage
+    /// with two inputs: its common-mode rejection is |A_d/A_cm|. `None` for one input.
+    fn dc_gains(&self, _spec: &Spec, _v: &[f64]) -> Option<(f64, f64)> {
+        None
+    }
+    /// The resistance each input of a two-input stage shows (−, +), Ω, the other input held
+    /// at its DC level. `None` for one input (`input_resistance` says it).
+    fn input_resistances(&self, _spec: &Spec, _v: &[f64]) -> Option<(f64, f64)> {
+        None
+    }
+    /// Pairs of slots whose values a build wants alike (a difference stage's matched ratios),
+    /// for the reports to say which parts come from one stock line.
+    fn matched_pairs(&self) -> &'static [(usize, usize)] {
+        &[]
+    }
     /// DC across each capacitor at a DC point.
     fn cap_bias(&self, spec: &Spec, v: &[f64], dc: &DcPoint) -> Vec<CapBias>;
     /// Power in each resistor slot at a DC point carrying a sine of `out_peak` at the output.
@@ -110,6 +131,21 @@ pub trait Drawing: Send + Sync {
     /// The schematic (`report::schematic` draws it): where each slot's symbol goes and how the
     /// wires run. A test there checks that its connections are exactly `spice_elements`.
     fn schematic_layout(&self) -> &'static layout::Layout;
+
+    /// Nodes joined by a plain wire, for a stage without a part between them (a DC-coupled
+    /// output straight to the load, an input pin straight to ground): the netlist writes a
+    /// 0 V source between them (common SPICE practice for a named wire), the drawing a wire.
+    fn links(&self) -> &'static [(super::types::Node, super::types::Node)] {
+        &[]
+    }
+
+    /// The source section of the netlist when the stage's input is not the single source of
+    /// the fixed nodes (a differential source): the lines that drive its input nodes. `None`
+    /// keeps the writer's `V_SRC` at `in` (and `R_S`). `number` writes a value in SPICE
+    /// notation (the writer's own, so that the drawing needs nothing from the reports).
+    fn spice_source(&self, _spec: &Spec, _number: &dyn Fn(f64) -> String) -> Option<String> {
+        None
+    }
 }
 
 /// A hand-tuned search plan: how the search decomposes a circuit into groups of coupled slots,

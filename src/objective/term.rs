@@ -50,6 +50,13 @@ pub struct Figures<T> {
     pub bias_current: Option<T>,
     /// The coupling networks, in the order of `Circuit::networks`.
     pub networks: Networks<T>,
+    /// |A_cm/A_d|, the inverse of the common-mode rejection at DC, for a stage with two
+    /// inputs (`cmrr_min` reads it); `None` for one input.
+    pub cm_ratio: Option<T>,
+    /// For a two-input stage, the gain its common-mode rejection ties `gain` to: A₁, the
+    /// inverting leg's gain, with A_d = A₁ + A_cm/2 (`circuit::difference`). The generic plan
+    /// narrows the gain of every build that meets `cmrr_min` with it. `None` otherwise.
+    pub matched_gain: Option<T>,
 }
 
 /// Where a term's points come from.

@@ -14,6 +14,24 @@ pub enum RenderError {
     Csv(String),
 }
 
+/// The supply as reports write it: one value for a single supply ("9 V"), "±15 V" for a
+/// symmetric split pair, "−12 V / +15 V" otherwise.
+pub fn supply_text(spec: &crate::spec::Spec) -> String {
+    use crate::value::{format, Unit};
+    if !spec.split() {
+        return format(spec.supply, Unit::Volt);
+    }
+    if spec.supply_low == -spec.supply {
+        format!("±{}", format(spec.supply, Unit::Volt))
+    } else {
+        format!(
+            "−{} / +{}",
+            format(-spec.supply_low, Unit::Volt),
+            format(spec.supply, Unit::Volt)
+        )
+    }
+}
+
 /// Text for HTML and SVG: the five XML character escapes, so that text from a user's files
 /// (inventory notes, locations) is shown as text and never read as markup; and control
 /// characters other than tab and line feed shown as visible escapes (`\x1b`), since XML 1.0

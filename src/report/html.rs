@@ -122,7 +122,7 @@ fn spec_table(out: &mut String, spec: &Spec, stage: &dyn Circuit, stock_text: &s
             "stage",
             format!("{} — {}", stage.kind().name(), stage.topology()),
         ),
-        ("supply", format(spec.supply, Unit::Volt)),
+        ("supply", super::common::supply_text(spec)),
         (
             "gain",
             match spec.gain_tolerance {
@@ -412,7 +412,7 @@ pub fn report_for(
         "stockfit report: {} stage, gain {}, {} supply",
         stage.kind().name(),
         gain_text(spec.gain),
-        format(spec.supply, Unit::Volt)
+        super::common::supply_text(spec)
     );
     let _ = writeln!(
         out,

@@ -374,6 +374,27 @@ fn supply(c: &mut Canvas, p: P, volts: f64) {
     );
 }
 
+/// A split supply's negative rail: a bar below the point, labelled with its (negative)
+/// voltage.
+fn negative_supply(c: &mut Canvas, p: P, volts: f64) {
+    let (x, y) = (p.0 as f64, p.1 as f64);
+    c.line((x, y), (x, y + 12.0));
+    let _ = writeln!(
+        c.out,
+        "<line x1=\"{:.1}\" y1=\"{:.1}\" x2=\"{:.1}\" y2=\"{:.1}\" stroke=\"{INK}\" stroke-width=\"2.6\"/>",
+        x - 11.0,
+        y + 12.0,
+        x + 11.0,
+        y + 12.0
+    );
+    c.text(
+        (x, y + 30.0),
+        "middle",
+        Look::Designator,
+        &format(volts, Unit::Volt).replace('-', "−"),
+    );
+}
+
 fn opamp(c: &mut Canvas, layout: &Layout, gbw: Option<f64>) {
     let pins = layout.pins();
     let (x, y) = (pins.upper.0 as f64, pins.upper.1 as f64);
@@ -416,6 +437,12 @@ fn opamp(c: &mut Canvas, layout: &Layout, gbw: Option<f64>) {
 
 /// The little sine in a source circle.
 fn source(c: &mut Canvas, p: P, spec: &Spec) {
+    source_named(c, p, spec, "in", true);
+}
+
+/// A source symbol below `p`, its terminal labelled `name`; `notes` adds the source's
+/// resistance and DC level beside it.
+fn source_named(c: &mut Canvas, p: P, spec: &Spec, name: &str, notes: bool) {
     let (x, y) = (p.0 as f64, p.1 as f64);
     let cy = y + 36.0;
     c.line((x, y), (x, cy - 16.0));
@@ -430,7 +457,11 @@ fn source(c: &mut Canvas, p: P, spec: &Spec) {
     );
     c.line((x, cy + 16.0), (x, y + 72.0));
     ground(c, P(p.0, p.1 + 72));
-    c.text((x, y - 8.0), "middle", Look::Note, "in");
+    c.text((x, y - 8.0), "middle", Look::Note, name);
+    if !notes {
+        c.text((x + 22.0, cy - 2.0), "start", Look::Value, "source, − leg");
+        return;
+    }
     let mut lines = vec!["source".to_string()];
     if spec.source_resistance > 0.0 {
         lines.push(format!("R_S {}", format(spec.source_resistance, Unit::Ohm)));
@@ -476,11 +507,19 @@ pub fn svg(spec: &Spec, stage: &dyn Circuit, build: &Build, evaluation: &Evaluat
         c.out,
         "<rect x=\"0\" y=\"0\" width=\"{w}\" height=\"{h}\" fill=\"white\"/>"
     );
-    let title = format!(
-        "{} stage, single supply +{}",
-        stage.kind().name(),
-        format(spec.supply, Unit::Volt)
-    );
+    let title = if spec.split() {
+        format!(
+            "{} stage, split supply {}",
+            stage.kind().name(),
+            super::common::supply_text(spec)
+        )
+    } else {
+        format!(
+            "{} stage, single supply +{}",
+            stage.kind().name(),
+            format(spec.supply, Unit::Volt)
+        )
+    };
     c.text((16.0, 24.0), "start", Look::Designator, &title);
 
     for wire in layout.wires {
@@ -507,14 +546,24 @@ pub fn svg(spec: &Spec, stage: &dyn Circuit, build: &Build, evaluation: &Evaluat
     opamp(&mut c, layout, spec.amplifier.gbw);
     let pins = layout.pins();
     supply(&mut c, pins.supply, spec.supply);
-    ground(&mut c, pins.ground);
+    if spec.split() {
+        negative_supply(&mut c, pins.ground, spec.supply_low);
+    } else {
+        ground(&mut c, pins.ground);
+    }
     for &p in layout.supplies {
         supply(&mut c, p, spec.supply);
     }
     for &p in layout.grounds {
         ground(&mut c, p);
     }
-    source(&mut c, layout.source, spec);
+    match layout.minus_source {
+        Some(m) => {
+            source_named(&mut c, layout.source, spec, "in+", true);
+            source_named(&mut c, m, spec, "in−", false);
+        }
+        None => source(&mut c, layout.source, spec),
+    }
     load(&mut c, layout.load, spec);
     c.text(
         (16.0, (h - 10) as f64),
@@ -576,6 +625,7 @@ mod tests {
             let (plus, minus) = l.plus_minus();
             let pins = l.pins();
             let mut terminals: Vec<P> = vec![plus, minus, pins.out, l.source, l.load];
+            terminals.extend(l.minus_source);
             terminals.extend(l.supplies);
             terminals.extend(l.grounds);
             let terminals_fixed = terminals.clone();
@@ -694,9 +744,16 @@ mod tests {
                     bind(&mut node_net, n, r);
                 }
             }
+            // Nodes the stage joins by a wire (`Drawing::links`) share a net, and no others.
+            let links = stage.drawing().links();
+            for (a, b) in links {
+                let net = |n: Node| node_net.iter().find(|(m, _)| *m == n).map(|(_, r)| *r);
+                assert_eq!(net(*a), net(*b), "{kind:?}: {a:?} and {b:?} not wired");
+                assert!(net(*a).is_some(), "{kind:?}: {a:?} not drawn");
+            }
             let distinct: BTreeSet<P> = node_net.iter().map(|(_, r)| *r).collect();
             assert_eq!(
-                distinct.len(),
+                distinct.len() + links.len(),
                 node_net.len(),
                 "{kind:?}: two nodes share a net"
             );

@@ -14,7 +14,8 @@
 //! | `inn`     | op-amp − pin (bias current `I_BN` drawn here)                     |
 //! | `amp_out` | op-amp output                                                     |
 //! | `out`     | load side of the output coupling; `R_L` from here to ground       |
-//! | `vcc`     | the supply (`V_CC`)                                               |
+//! | `vcc`     | the supply (`V_CC`); the positive rail of a split supply          |
+//! | `vee`     | the negative rail of a split supply (`V_EE`; only then)           |
 //! | `0`       | ground                                                            |
 //!
 //! Parts are numbered R1…, C1… piece by piece in slot order (common practice for reference
@@ -32,8 +33,10 @@ use std::fmt::Write;
 pub mod node {
     /// Ground, `0`.
     pub const GROUND: &str = "0";
-    /// The single supply, `vcc`.
+    /// The single supply, `vcc` (a split supply's positive rail).
     pub const SUPPLY: &str = "vcc";
+    /// A split supply's negative rail, `vee`.
+    pub const NEG_SUPPLY: &str = "vee";
     /// The source EMF, `in`.
     pub const IN: &str = "in";
     /// Far side of the source resistance, `in_rs` (only when it is not 0).
@@ -50,7 +53,7 @@ pub mod node {
     pub const OUT: &str = "out";
     /// Every fixed name; a stage's internal nodes must be none of these.
     pub const FIXED: &[&str] = &[
-        GROUND, SUPPLY, IN, IN_RS, PLUS, PLUS_VOS, MINUS, AMP_OUT, OUT,
+        GROUND, SUPPLY, NEG_SUPPLY, IN, IN_RS, PLUS, PLUS_VOS, MINUS, AMP_OUT, OUT,
     ];
 }
 
@@ -191,7 +194,8 @@ pub fn netlist(spec: &Spec, stage: &dyn Circuit, build: &Build) -> String {
     let slots = stage.slots();
     let v = build.values();
     let amp = &spec.amplifier;
-    let (lo, hi) = (spec.headroom.0, spec.supply - spec.headroom.1);
+    let (lo, hi) = spec.output_limits();
+    let split = spec.split();
     let input = if spec.source_resistance > 0.0 {
         node::IN_RS
     } else {
@@ -207,10 +211,15 @@ pub fn netlist(spec: &Spec, stage: &dyn Circuit, build: &Build) -> String {
         number(stage.mid_gain(spec, &v))
     );
     let _ = writeln!(out, "* {}", ascii(stage.topology()));
+    let supply = if split {
+        format!("{} .. {}", number(spec.supply_low), number(spec.supply))
+    } else {
+        number(spec.supply)
+    };
     let _ = writeln!(
         out,
         "* spec: supply {} V, load {} ohm, band {} .. {} Hz, source {} V DC through {} ohm",
-        number(spec.supply),
+        supply,
         number(spec.load),
         number(spec.band.0),
         number(spec.band.1),
@@ -240,10 +249,17 @@ pub fn netlist(spec: &Spec, stage: &dyn Circuit, build: &Build) -> String {
         let _ = writeln!(out, "*   {} = {}", slot.name, part_text(part));
     }
     let _ = writeln!(out, "* caution: {}", ascii(super::table::CAUTIONS[0]));
-    let _ = writeln!(
-        out,
-        "* nodes: in (source EMF), amp_out (op-amp output), out (load), vcc (supply), 0 (ground)"
-    );
+    if split {
+        let _ = writeln!(
+            out,
+            "* nodes: in (source EMF), amp_out (op-amp output), out (load), vcc and vee (rails), 0 (ground)"
+        );
+    } else {
+        let _ = writeln!(
+            out,
+            "* nodes: in (source EMF), amp_out (op-amp output), out (load), vcc (supply), 0 (ground)"
+        );
+    }
     let _ = writeln!(
         out,
         "* a plain circuit: add analyses in a deck that .includes this file"
@@ -251,17 +267,22 @@ pub fn netlist(spec: &Spec, stage: &dyn Circuit, build: &Build) -> String {
     let _ = writeln!(out);
 
     // Source, source resistance, supply.
-    let _ = writeln!(
-        out,
-        "* source: EMF at in, AC 1 so that V(out) is the transfer function"
-    );
-    let _ = writeln!(
-        out,
-        "V_SRC {} 0 DC {} AC 1",
-        node::IN,
-        number(spec.source_dc)
-    );
-    if spec.source_resistance > 0.0 {
+    let own_source = stage.drawing().spice_source(spec, &number);
+    if let Some(lines) = &own_source {
+        out.push_str(lines);
+    } else {
+        let _ = writeln!(
+            out,
+            "* source: EMF at in, AC 1 so that V(out) is the transfer function"
+        );
+        let _ = writeln!(
+            out,
+            "V_SRC {} 0 DC {} AC 1",
+            node::IN,
+            number(spec.source_dc)
+        );
+    }
+    if spec.source_resistance > 0.0 && own_source.is_none() {
         let _ = writeln!(out, "* source_resistance");
         let _ = writeln!(
             out,
@@ -273,6 +294,14 @@ pub fn netlist(spec: &Spec, stage: &dyn Circuit, build: &Build) -> String {
     }
     let _ = writeln!(out, "* supply");
     let _ = writeln!(out, "V_CC {} 0 DC {}", node::SUPPLY, number(spec.supply));
+    if split {
+        let _ = writeln!(
+            out,
+            "V_EE {} 0 DC {}",
+            node::NEG_SUPPLY,
+            number(spec.supply_low)
+        );
+    }
     let _ = writeln!(out);
 
     // The stage's slots, piece by piece.
@@ -317,6 +346,22 @@ pub fn netlist(spec: &Spec, stage: &dyn Circuit, build: &Build) -> String {
             let _ = writeln!(out, "R_DC{n_bleed} {mid} {b} {}", number(BLEEDER_OHMS));
         }
     }
+    // Nodes the stage joins without a part: a 0 V source is a named wire.
+    for (k, (a, b)) in stage.drawing().links().iter().enumerate() {
+        if k == 0 {
+            let _ = writeln!(
+                out,
+                "* wires: nodes the stage joins without a part (0 V sources)"
+            );
+        }
+        let _ = writeln!(
+            out,
+            "V_WIRE{} {} {} DC 0",
+            k + 1,
+            node_name(*a, input),
+            node_name(*b, input)
+        );
+    }
     let _ = writeln!(out, "* load");
     let _ = writeln!(out, "R_L {} 0 {}", node::OUT, number(spec.load));
     let _ = writeln!(out);
@@ -353,20 +398,40 @@ pub fn netlist(spec: &Spec, stage: &dyn Circuit, build: &Build) -> String {
         node::MINUS,
         number(amp.input_bias_current)
     );
-    let _ = writeln!(out, "* op-amp U1 (behavioural): +, -, output, supply");
-    let _ = writeln!(
-        out,
-        "XU1 {} {} {} {} {OPAMP}",
-        node::PLUS_VOS,
-        node::MINUS,
-        node::AMP_OUT,
-        node::SUPPLY
-    );
+    if split {
+        let _ = writeln!(
+            out,
+            "* op-amp U1 (behavioural): +, -, output, positive rail, negative rail"
+        );
+        let _ = writeln!(
+            out,
+            "XU1 {} {} {} {} {} {OPAMP}",
+            node::PLUS_VOS,
+            node::MINUS,
+            node::AMP_OUT,
+            node::SUPPLY,
+            node::NEG_SUPPLY
+        );
+    } else {
+        let _ = writeln!(out, "* op-amp U1 (behavioural): +, -, output, supply");
+        let _ = writeln!(
+            out,
+            "XU1 {} {} {} {} {OPAMP}",
+            node::PLUS_VOS,
+            node::MINUS,
+            node::AMP_OUT,
+            node::SUPPLY
+        );
+    }
     let _ = writeln!(out);
 
     // The amplifier of `circuit::OpAmp`: a(s) = A0 / (1 + s/ωp), ωp = 2π·GBW/A0, built as 1 S
     // into A0 Ω ∥ 1/(2π·GBW) F (R·C = A0/(2π·GBW) = 1/ωp), then an output buffer.
-    let _ = writeln!(out, ".subckt {OPAMP} inp inn out vcc");
+    if split {
+        let _ = writeln!(out, ".subckt {OPAMP} inp inn out vcc vee");
+    } else {
+        let _ = writeln!(out, ".subckt {OPAMP} inp inn out vcc");
+    }
     let (a0, pole_cap) = match amp.gbw {
         Some(gbw) => (
             OPEN_LOOP_GAIN,
@@ -409,7 +474,11 @@ pub fn netlist(spec: &Spec, stage: &dyn Circuit, build: &Build) -> String {
         out,
         "* the diodes' drop, tens of mV); off, they do not change the small-signal result"
     );
-    let _ = writeln!(out, "V_LO lo 0 DC {}", number(spec.headroom.0));
+    if split {
+        let _ = writeln!(out, "V_LO lo vee DC {}", number(spec.headroom.0));
+    } else {
+        let _ = writeln!(out, "V_LO lo 0 DC {}", number(spec.headroom.0));
+    }
     let _ = writeln!(out, "V_HI hi vcc DC {}", number(-spec.headroom.1));
     let _ = writeln!(out, "D_LO lo p {CLAMP}");
     let _ = writeln!(out, "D_HI p hi {CLAMP}");

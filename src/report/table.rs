@@ -101,7 +101,7 @@ pub fn heading(spec: &Spec, stage: &dyn Circuit, stock_text: &str) -> String {
         "{} stage · gain {} · {} supply · band {} – {} · stock: {}",
         stage.kind().name(),
         gain_text(spec.gain),
-        format(spec.supply, Unit::Volt),
+        super::common::supply_text(spec),
         format(spec.band.0, Unit::Hertz),
         format(spec.band.1, Unit::Hertz),
         stock_text
@@ -378,6 +378,9 @@ pub fn capacitors(
         out,
         "Capacitor DC bias ({worst} range; + lead toward the side named)"
     );
+    if evaluation.caps.is_empty() {
+        let _ = writeln!(out, "  none: the stage is DC-coupled");
+    }
     for c in &evaluation.caps {
         let idx = crate::circuit::slot_index(stage, &c.slot).unwrap_or(0);
         let part = &build.parts[idx];
@@ -474,15 +477,79 @@ pub fn figures(spec: &Spec, evaluation: &Evaluation) -> String {
         format_sig(m.band_high_loss_db, Unit::Decibel, 3).replace(" dB", ""),
         format_sig(m.band_high_loss_worst_db, Unit::Decibel, 3).replace(" dB", "")
     );
-    let _ = writeln!(
-        out,
-        "  output DC {} (target {}, worst {} … {}), divider current {}",
-        format_sig(m.output_dc_v, Unit::Volt, 4),
-        format_sig(spec.bias_target(), Unit::Volt, 4),
-        format_sig(m.output_dc_min_v, Unit::Volt, 4),
-        format_sig(m.output_dc_max_v, Unit::Volt, 4),
-        format(m.divider_current_a, Unit::Ampere)
-    );
+    if spec.split() {
+        let _ = writeln!(
+            out,
+            "  output DC {} (target {}, worst {} … {})",
+            format_sig(m.output_dc_v, Unit::Volt, 4),
+            format_sig(spec.bias_target(), Unit::Volt, 4),
+            format_sig(m.output_dc_min_v, Unit::Volt, 4),
+            format_sig(m.output_dc_max_v, Unit::Volt, 4),
+        );
+    } else {
+        let _ = writeln!(
+            out,
+            "  output DC {} (target {}, worst {} … {}), divider current {}",
+            format_sig(m.output_dc_v, Unit::Volt, 4),
+            format_sig(spec.bias_target(), Unit::Volt, 4),
+            format_sig(m.output_dc_min_v, Unit::Volt, 4),
+            format_sig(m.output_dc_max_v, Unit::Volt, 4),
+            format(m.divider_current_a, Unit::Ampere)
+        );
+    }
+    if let Some(e) = m.output_offset_worst_v {
+        let _ = writeln!(
+            out,
+            "  output DC error of the stage itself (source at 0 V; Ib, Ios, Vos through it): \
+             worst ±{}",
+            format_sig(e, Unit::Volt, 4)
+        );
+    }
+    if let Some(d) = &m.difference {
+        let db = |x: Option<f64>| {
+            x.map_or("∞ (ratios match exactly)".to_string(), |x| {
+                format!("{x:.1} dB")
+            })
+        };
+        let _ = writeln!(
+            out,
+            "  common-mode rejection at DC {} (worst {}); common-mode gain {:.3e} V/V (worst ±{:.3e} V/V)",
+            db(d.cmrr_db),
+            db(d.cmrr_worst_db),
+            d.common_mode_gain,
+            d.common_mode_gain_worst
+        );
+        let _ = writeln!(
+            out,
+            "  input resistance − leg {} (worst {}), + leg {} (worst {})",
+            format(d.input_resistance_minus, Unit::Ohm),
+            format(d.input_resistance_minus_worst, Unit::Ohm),
+            format(d.input_resistance_plus, Unit::Ohm),
+            format(d.input_resistance_plus_worst, Unit::Ohm)
+        );
+        let _ = writeln!(
+            out,
+            "  common-mode input range {} … {} (worst case, inputs within the headroom limits)",
+            format_sig(d.common_mode_min_v, Unit::Volt, 4),
+            format_sig(d.common_mode_max_v, Unit::Volt, 4)
+        );
+        let pairs: Vec<String> = d
+            .pairs
+            .iter()
+            .map(|p| match p.line {
+                Some(row) => format!(
+                    "{} + {}: one stock line (row {row}, one batch)",
+                    p.slots[0], p.slots[1]
+                ),
+                None => format!("{} + {}: not from one line", p.slots[0], p.slots[1]),
+            })
+            .collect();
+        let _ = writeln!(
+            out,
+            "  matched pairs: {} (the worst case takes no credit for a batch's closer matching)",
+            pairs.join("; ")
+        );
+    }
     let _ = writeln!(
         out,
         "  swing ±{} at the output, ±{} at the input (worst case)",

@@ -85,7 +85,25 @@ struct Knob {
     set: fn(&mut Spec, Option<f64>),
 }
 
+// The split-supply stages' own requirements first: each is tried at the cost of one quick
+// search, where dropping the gain window (tried next) can take the whole diagnosis's time.
 const KNOBS: &[Knob] = &[
+    Knob {
+        key: "stage.output_offset_max",
+        checks: &["output_offset_max"],
+        unit: Unit::Volt,
+        larger_is_stricter: false,
+        get: |s| s.output_offset_max,
+        set: |s, v| s.output_offset_max = v,
+    },
+    Knob {
+        key: "stage.cmrr_min",
+        checks: &["cmrr_min"],
+        unit: Unit::Decibel,
+        larger_is_stricter: true,
+        get: |s| s.cmrr_min,
+        set: |s, v| s.cmrr_min = v,
+    },
     Knob {
         key: "stage.input_resistance_min",
         checks: &["input_resistance"],

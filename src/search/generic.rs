@@ -171,7 +171,23 @@ impl<'a> GenericPlan<'a> {
         if !feasible(spec, &self.circuit.figure_bounds(spec, wide)) {
             return None;
         }
-        let f = self.circuit.figure_bounds(spec, nominal);
+        let mut f = self.circuit.figure_bounds(spec, nominal);
+        if let (Some(min), Some(core)) = (spec.cmrr_min, f.matched_gain) {
+            // A build that meets cmrr_min has |A_cm| ≤ ρ·A_d at every tolerance corner
+            // (ρ = 10^(−dB/20)); A_cm is monotone in each value, so at the nominal values
+            // too |A_cm| ≤ ρ·max A_d ≤ ρ·|gain| over the widened box, and the nominal gain
+            // A_d = A₁ + A_cm/2 lies within half that of A₁ (`Figures::matched_gain`).
+            // Builds that fail are never ranked, so the narrowed gain bounds every build
+            // the bound can cut.
+            let w = self.circuit.figure_bounds(spec, wide);
+            let rho = 10f64.powf(-min / 20.0) * (1.0 + SLACK);
+            let half = rho * crate::interval::Num::abs(w.gain).hi / 2.0 * (1.0 + SLACK);
+            let (lo, hi) = (f.gain.lo.max(core.lo - half), f.gain.hi.min(core.hi + half));
+            if lo > hi {
+                return None;
+            }
+            f.gain = Iv::new(lo, hi);
+        }
         Some(objective::circuit_bound(spec, &f) * (1.0 - 1e-9))
     }
 
@@ -270,6 +286,21 @@ pub fn feasible(spec: &Spec, w: &Figures<Iv>) -> bool {
             return false;
         }
     }
+    // The DC-coupled stages' output error: their `offset` figure is the largest |error|
+    // over the op-amp's sign corners at a point (the key is refused for other stages), so
+    // above the limit over the whole box it fails at every tolerance corner.
+    if let Some(max) = spec.output_offset_max {
+        if w.offset.lo > max * (1.0 + s) {
+            return false;
+        }
+    }
+    // Common-mode rejection |A_d/A_cm| ≥ 10^(dB/20): |A_cm/A_d| above the inverse over the
+    // whole box fails at every corner.
+    if let (Some(min), Some(r)) = (spec.cmrr_min, w.cm_ratio) {
+        if r.lo > 10f64.powf(-min / 20.0) * (1.0 + s) {
+            return false;
+        }
+    }
     // Each network's corner 1/(2πRC) is least at the largest R and C; a plain buffered
     // first-order section's corner and loss bound the whole response's from below, and the
     // losses of buffered sections add (the 3 dB budget when only the band edge is asked).
@@ -300,10 +331,17 @@ pub fn feasible(spec: &Spec, w: &Figures<Iv>) -> bool {
     // DC level t, largest for t nearest the middle of the allowed range.
     let (a, b) = (w.dc_out.lo, w.dc_out.hi);
     if a.is_finite() && b.is_finite() {
-        let t = spec.bias_target().clamp(a, b);
+        let (lo, hi) = spec.output_limits();
+        // The middle of the output's range (on a single supply the bias target is it).
+        let middle = if spec.split() {
+            (lo + hi) / 2.0
+        } else {
+            spec.bias_target()
+        };
+        let t = middle.clamp(a, b);
         // The op-amp's errors spread the DC range by at least their least over the box.
         let spread = w.dc_error.lo.max(0.0);
-        let swing = (t - spec.headroom.0).min(spec.supply - spec.headroom.1 - t) - spread;
+        let swing = (t - lo).min(hi - t) - spread;
         let need = if let Some(out) = spec.output_peak {
             out * (1.0 - s) - s
         } else if let Some(inp) = spec.input_peak {

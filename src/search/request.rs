@@ -455,7 +455,23 @@ pub fn ruled_out(spec: &Spec) -> bool {
             return true;
         }
     }
-    let room = (spec.supply - spec.headroom.0 - spec.headroom.1) / 2.0
+    // A DC-coupled stage's worst output error is at least V_os times its noise gain, which is
+    // 1 + |gain| (inverting), the gain (non-inverting) or above 1 (difference), the gain at
+    // least the window's floor (`split_supply.rs`, `difference.rs`).
+    if let (Some(max), true) = (spec.output_offset_max, spec.worst_case()) {
+        let floor = spec
+            .gain_tolerance
+            .map_or(0.0, |t| spec.gain.abs() * (1.0 - t));
+        let ng = match spec.stage {
+            k if k.inverting() => 1.0 + floor,
+            crate::vocab::StageKind::Difference => 1.0,
+            _ => floor.max(1.0),
+        };
+        if spec.amplifier.input_offset_voltage * ng > max * (1.0 + SLACK) {
+            return true;
+        }
+    }
+    let room = (spec.supply - spec.supply_low - spec.headroom.0 - spec.headroom.1) / 2.0
         - if spec.worst_case() {
             spec.amplifier.input_offset_voltage
         } else {
