@@ -80,7 +80,16 @@ fn every_example_writes_plot_schematic_bom_and_report() {
             svg.starts_with("<svg") && svg.trim_end().ends_with("</svg>"),
             "{what}"
         );
-        for d in ["R1", "R2", "R3", "R4", "C1", "C2", "U1"] {
+        // Every slot's designator (single pieces: R1…, C1… in slot order) and the op-amp.
+        let parsed = stockfit::spec::Spec::from_toml(&read(&spec)).unwrap();
+        let slots = stockfit::circuit::circuit_for(parsed.stage).slots();
+        let count = |k| slots.iter().filter(|s| s.kind == k).count();
+        let mut names: Vec<String> = (1..=count(stockfit::vocab::PartKind::Resistor))
+            .map(|i| format!("R{i}"))
+            .chain((1..=count(stockfit::vocab::PartKind::Capacitor)).map(|i| format!("C{i}")))
+            .collect();
+        names.push("U1".into());
+        for d in &names {
             assert!(
                 svg.contains(&format!(">{d}</tspan>")) || svg.contains(&format!(">{d}</text>")),
                 "{what}: {d}"

@@ -142,22 +142,28 @@ fn a_bad_split_supply_exits_2_with_its_key() {
 
 #[test]
 fn the_diagnosis_names_a_split_supply_requirement() {
-    // 70 dB of rejection from 1 % and 0.1 % parts: the textbook worst case (1 + G)/(4t) is
-    // 54 dB at 1 % (from memory), so the stock cannot; the diagnosis names the key.
+    // A small drawer (invented), so the time-bounded diagnosis finishes under any load: r_2
+    // and r_4 cannot both be 0.1 % parts, and one 1 % resistor in the ratios leaves a worst
+    // case near (1 + G)/(2·(0.1 % + 1 %)) ≈ 60 dB (the textbook estimate of the CMRR from
+    // resistor mismatch, from memory): 70 dB cannot be met, 50 dB can.
     let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let dir = tempfile::tempdir().unwrap();
+    let csv = dir.path().join("drawer.csv");
+    std::fs::write(
+        &csv,
+        "kind,value,tolerance,qty\nresistor,10k,0.1%,2\nresistor,200k,0.1%,1\nresistor,200k,1%,1\n",
+    )
+    .unwrap();
     let text = std::fs::read_to_string(root.join("examples/bridge-sensor-difference.toml"))
         .unwrap()
         .replace("cmrr_min = \"50 dB\"", "cmrr_min = \"70 dB\"")
-        .replace(
-            "\"../inventories/lab-stock.csv\"",
-            &format!("{:?}", root.join("inventories/lab-stock.csv")),
-        );
-    let dir = tempfile::tempdir().unwrap();
+        .replace("input_resistance_min = \"10k\"", "input_resistance_min = \"9k\"")
+        .replace("\"../inventories/lab-stock.csv\"", &format!("{csv:?}"));
     let spec = dir.path().join("cmrr.toml");
     std::fs::write(&spec, text).unwrap();
     let out = stockfit().arg("pick").arg(&spec).output().unwrap();
-    assert_eq!(out.status.code(), Some(1));
     let text = String::from_utf8_lossy(&out.stdout);
+    assert_eq!(out.status.code(), Some(1), "{text}");
     assert!(
         text.contains("stage.cmrr_min 70 dB cannot be met"),
         "{text}"

@@ -20,7 +20,6 @@
 //! compensation asks R₊ = R_fb/NG = R₁ ∥ R_fb, which cancels the bias term and leaves the
 //! offset current's ("bias current compensation", any op-amp text).
 
-use super::layout;
 use super::traits::{Circuit, Drawing};
 use super::types::{CapBias, DcErrors, DcPoint, Network, Node, NoiseCircuit, OpAmp, SlotDef};
 use super::types::{NoisePlace, SpiceElement};
@@ -435,113 +434,110 @@ const ELEMENTS_NON_COMP: &[SpiceElement] = &[
     },
 ];
 
-mod layouts {
-    //! The four drawings: the op-amp at the same place as the single-supply stages', the
-    //! output straight to the load.
-    use super::super::layout::{opamp_pins, Layout, OpAmpPins, Placed, Side, P};
-    use super::{R_COMP, R_FB, R_LEG};
+// The four drawings: the op-amp at the same place as the single-supply stages', the output
+// straight to the load.
+use super::layout::{opamp_pins, Layout, OpAmpPins, Placed, Side, P};
 
-    const U: P = P(460, 200);
-    const PINS: OpAmpPins = opamp_pins(U);
+const U: P = P(460, 200);
+const PINS: OpAmpPins = opamp_pins(U);
 
-    const fn placed(slot: usize, from: P, to: P, label: Side) -> Placed {
-        Placed {
-            slot,
-            from,
-            to,
-            label,
-            from_side: None,
-        }
+const fn placed(slot: usize, from: P, to: P, label: Side) -> Placed {
+    Placed {
+        slot,
+        from,
+        to,
+        label,
+        from_side: None,
     }
-
-    /// Inverting: the input along the top into the − pin (upper), r_fb above the op-amp,
-    /// + pin down to ground (through r_comp when compensated).
-    pub const INVERTING: Layout = Layout {
-        size: (900, 510),
-        opamp: U,
-        plus_on_top: false,
-        source: P(60, 200),
-        load: P(780, 220),
-        supplies: &[],
-        grounds: &[P(430, 300)],
-        wires: &[
-            &[P(60, 200), P(240, 200)],
-            &[P(340, 200), PINS.upper],
-            &[P(400, 200), P(400, 90), P(450, 90)],
-            &[P(550, 90), P(620, 90), P(620, 220)],
-            &[PINS.out, P(780, 220)],
-            &[PINS.lower, P(430, 240), P(430, 300)],
-        ],
-        dots: &[P(400, 200), P(620, 220)],
-        parts: &[
-            placed(R_LEG, P(240, 200), P(340, 200), Side::Above),
-            placed(R_FB, P(450, 90), P(550, 90), Side::Above),
-        ],
-        minus_source: None,
-    };
-
-    /// As [`INVERTING`], r_comp from the + pin down to ground.
-    pub const INVERTING_COMPENSATED: Layout = Layout {
-        grounds: &[P(430, 380)],
-        wires: &[
-            &[P(60, 200), P(240, 200)],
-            &[P(340, 200), PINS.upper],
-            &[P(400, 200), P(400, 90), P(450, 90)],
-            &[P(550, 90), P(620, 90), P(620, 220)],
-            &[PINS.out, P(780, 220)],
-            &[PINS.lower, P(430, 240), P(430, 280)],
-        ],
-        parts: &[
-            placed(R_LEG, P(240, 200), P(340, 200), Side::Above),
-            placed(R_FB, P(450, 90), P(550, 90), Side::Above),
-            placed(R_COMP, P(430, 280), P(430, 380), Side::Left),
-        ],
-        ..INVERTING
-    };
-
-    /// Non-inverting: the source along the top into the + pin (upper), the − pin down to
-    /// the gain leg and r_fb below the op-amp back to the output.
-    pub const NON_INVERTING: Layout = Layout {
-        size: (900, 510),
-        opamp: U,
-        plus_on_top: true,
-        source: P(60, 200),
-        load: P(780, 220),
-        supplies: &[],
-        grounds: &[P(420, 460)],
-        wires: &[
-            &[P(60, 200), PINS.upper],
-            &[PINS.lower, P(420, 240), P(420, 360)],
-            &[P(420, 330), P(450, 330)],
-            &[P(550, 330), P(620, 330), P(620, 220)],
-            &[PINS.out, P(780, 220)],
-        ],
-        dots: &[P(420, 330), P(620, 220)],
-        parts: &[
-            placed(R_LEG, P(420, 360), P(420, 460), Side::Left),
-            placed(R_FB, P(450, 330), P(550, 330), Side::Below),
-        ],
-        minus_source: None,
-    };
-
-    /// As [`NON_INVERTING`], r_comp in the input line.
-    pub const NON_INVERTING_COMPENSATED: Layout = Layout {
-        wires: &[
-            &[P(60, 200), P(240, 200)],
-            &[P(340, 200), PINS.upper],
-            &[PINS.lower, P(420, 240), P(420, 360)],
-            &[P(420, 330), P(450, 330)],
-            &[P(550, 330), P(620, 330), P(620, 220)],
-            &[PINS.out, P(780, 220)],
-        ],
-        parts: &[
-            placed(R_LEG, P(420, 360), P(420, 460), Side::Left),
-            placed(R_FB, P(450, 330), P(550, 330), Side::Below),
-            placed(R_COMP, P(240, 200), P(340, 200), Side::Above),
-        ],
-        ..NON_INVERTING
-    };
 }
+
+/// Inverting: the input along the top into the − pin (upper), r_fb above the op-amp,
+/// + pin down to ground (through r_comp when compensated).
+const INVERTING_LAYOUT: Layout = Layout {
+    size: (900, 510),
+    opamp: U,
+    plus_on_top: false,
+    source: P(60, 200),
+    load: P(780, 220),
+    supplies: &[],
+    grounds: &[P(430, 300)],
+    wires: &[
+        &[P(60, 200), P(240, 200)],
+        &[P(340, 200), PINS.upper],
+        &[P(400, 200), P(400, 90), P(450, 90)],
+        &[P(550, 90), P(620, 90), P(620, 220)],
+        &[PINS.out, P(780, 220)],
+        &[PINS.lower, P(430, 240), P(430, 300)],
+    ],
+    dots: &[P(400, 200), P(620, 220)],
+    parts: &[
+        placed(R_LEG, P(240, 200), P(340, 200), Side::Above),
+        placed(R_FB, P(450, 90), P(550, 90), Side::Above),
+    ],
+    minus_source: None,
+};
+
+/// As [`INVERTING_LAYOUT`], r_comp from the + pin down to ground.
+const INVERTING_COMPENSATED_LAYOUT: Layout = Layout {
+    grounds: &[P(430, 380)],
+    wires: &[
+        &[P(60, 200), P(240, 200)],
+        &[P(340, 200), PINS.upper],
+        &[P(400, 200), P(400, 90), P(450, 90)],
+        &[P(550, 90), P(620, 90), P(620, 220)],
+        &[PINS.out, P(780, 220)],
+        &[PINS.lower, P(430, 240), P(430, 280)],
+    ],
+    parts: &[
+        placed(R_LEG, P(240, 200), P(340, 200), Side::Above),
+        placed(R_FB, P(450, 90), P(550, 90), Side::Above),
+        placed(R_COMP, P(430, 280), P(430, 380), Side::Left),
+    ],
+    ..INVERTING_LAYOUT
+};
+
+/// Non-inverting: the source along the top into the + pin (upper), the − pin down to
+/// the gain leg and r_fb below the op-amp back to the output.
+const NON_INVERTING_LAYOUT: Layout = Layout {
+    size: (900, 510),
+    opamp: U,
+    plus_on_top: true,
+    source: P(60, 200),
+    load: P(780, 220),
+    supplies: &[],
+    grounds: &[P(420, 460)],
+    wires: &[
+        &[P(60, 200), PINS.upper],
+        &[PINS.lower, P(420, 240), P(420, 360)],
+        &[P(420, 330), P(450, 330)],
+        &[P(550, 330), P(620, 330), P(620, 220)],
+        &[PINS.out, P(780, 220)],
+    ],
+    dots: &[P(420, 330), P(620, 220)],
+    parts: &[
+        placed(R_LEG, P(420, 360), P(420, 460), Side::Left),
+        placed(R_FB, P(450, 330), P(550, 330), Side::Below),
+    ],
+    minus_source: None,
+};
+
+/// As [`NON_INVERTING_LAYOUT`], r_comp in the input line.
+const NON_INVERTING_COMPENSATED_LAYOUT: Layout = Layout {
+    wires: &[
+        &[P(60, 200), P(240, 200)],
+        &[P(340, 200), PINS.upper],
+        &[PINS.lower, P(420, 240), P(420, 360)],
+        &[P(420, 330), P(450, 330)],
+        &[P(550, 330), P(620, 330), P(620, 220)],
+        &[PINS.out, P(780, 220)],
+    ],
+    parts: &[
+        placed(R_LEG, P(420, 360), P(420, 460), Side::Left),
+        placed(R_FB, P(450, 330), P(550, 330), Side::Below),
+        placed(R_COMP, P(240, 200), P(340, 200), Side::Above),
+    ],
+    ..NON_INVERTING_LAYOUT
+};
 
 impl Drawing for DcStage {
     fn spice_elements(&self) -> &'static [SpiceElement] {
@@ -563,12 +559,12 @@ impl Drawing for DcStage {
         }
     }
 
-    fn schematic_layout(&self) -> &'static layout::Layout {
+    fn schematic_layout(&self) -> &'static Layout {
         match (self.inverting, self.compensated) {
-            (true, false) => &layouts::INVERTING,
-            (true, true) => &layouts::INVERTING_COMPENSATED,
-            (false, false) => &layouts::NON_INVERTING,
-            (false, true) => &layouts::NON_INVERTING_COMPENSATED,
+            (true, false) => &INVERTING_LAYOUT,
+            (true, true) => &INVERTING_COMPENSATED_LAYOUT,
+            (false, false) => &NON_INVERTING_LAYOUT,
+            (false, true) => &NON_INVERTING_COMPENSATED_LAYOUT,
         }
     }
 }
