@@ -97,7 +97,44 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
         dc_error: common::dc_error(spec, hi, lo, fb),
         bias_current: Some(common::divider_current(spec.supply, hi, lo)),
         networks: networks(spec, v),
+        noise: noise_density(spec, v[R_IN], fb, hi, lo),
     }
+}
+
+/// Mid-band input-referred noise power density, V²/Hz (capacitors shorted, ideal op-amp): the
+/// output sum of `analysis::noise` (R_fb as is, R_s + R_in times the gain, the divider, e_n
+/// and i_n at + times the noise gain, i_n at − through R_fb) over the gain² R_fb²/R_i²,
+/// R_i = R_s + R_in, k = 1 + R_i/R_fb:
+///   e² = 4kT·R_i + 4kT·R_i²/R_fb + (4kT·R_p + e_n² + i_n²·R_p²)·k² + i_n²·R_i².
+/// Rising in R_in and in each divider resistor (R_p = R_hi ∥ R_lo), falling in R_fb.
+/// `with_divider` false: the divider's share left out (the bound with R_p = 0 the search uses before
+/// the divider is chosen).
+fn noise_density_parts<T: Num>(spec: &Spec, r_in: T, fb: T, hi: T, lo: T, with_divider: bool) -> T {
+    let rs = spec.source_resistance;
+    let four_kt = crate::objective::noise::four_kt();
+    let (en2, in2) = crate::objective::noise::amplifier_powers(spec);
+    T::monotone(
+        |[r_in, fb, hi, lo]| {
+            let ri = rs + r_in;
+            let k = 1.0 + ri / fb;
+            let rp = if with_divider {
+                hi * lo / (hi + lo)
+            } else {
+                0.0
+            };
+            four_kt * ri
+                + four_kt * ri * ri / fb
+                + (four_kt * rp + en2 + in2 * rp * rp) * k * k
+                + in2 * ri * ri
+        },
+        [r_in, fb, hi, lo],
+        [true, false, true, true],
+    )
+}
+
+/// The whole mid-band input noise density ([`noise_density_parts`] with the divider).
+fn noise_density<T: Num>(spec: &Spec, r_in: T, fb: T, hi: T, lo: T) -> T {
+    noise_density_parts(spec, r_in, fb, hi, lo, true)
 }
 
 /// The coupling networks of [`figures`]: c_in with the source and r_in, c_out with the load.
@@ -571,10 +608,15 @@ impl SearchPlan for Inverting {
                 if !common::gain_window_ok(spec, lo, hi) {
                     return None;
                 }
-                Some(crate::objective::gain::points(
-                    spec,
-                    -r_fb.value / (spec.source_resistance + r_in.value),
-                ))
+                // The noise goal's share so far: the density without the divider (R_p = 0),
+                // a lower bound of the whole; the divider's group adds the rest.
+                let noise = noise_density_parts(spec, r_in.value, r_fb.value, 1.0, 1.0, false);
+                Some(
+                    crate::objective::gain::points(
+                        spec,
+                        -r_fb.value / (spec.source_resistance + r_in.value),
+                    ) + crate::objective::noise::points(spec, noise),
+                )
             }
             1 => {
                 let (r_in, r_fb) = (get(parts, R_IN)?, get(parts, R_FB)?);
@@ -588,7 +630,16 @@ impl SearchPlan for Inverting {
                     return None;
                 }
                 let err = common::offset_error(spec, hi.value, lo.value, r_fb.value);
-                Some(crate::objective::offset::points(spec, err))
+                let part = noise_density_parts(spec, r_in.value, r_fb.value, 1.0, 1.0, false);
+                let whole = noise_density(spec, r_in.value, r_fb.value, hi.value, lo.value);
+                let noise = crate::objective::noise::points(spec, whole)
+                    - crate::objective::noise::points(spec, part);
+                let current = common::divider_current(spec.supply, hi.value, lo.value);
+                Some(
+                    crate::objective::offset::points(spec, err)
+                        + noise.max(0.0)
+                        + crate::objective::divider_current::points(spec, current),
+                )
             }
             2 => {
                 let (r_in, c_in) = (get(parts, R_IN)?, get(parts, C_IN)?);

@@ -146,7 +146,34 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
         dc_error: common::dc_error(spec, hi, lo, fb),
         bias_current: Some(common::divider_current(spec.supply, hi, lo)),
         networks: networks(spec, v),
+        noise: noise_density(spec, hi, lo, fb, v[R_G]),
     }
+}
+
+/// Mid-band input-referred noise power density, V²/Hz (capacitors shorted, ideal op-amp).
+/// With Z_p = R_s ∥ R_p at +, NG = 1 + R_fb/R_g and the gain NG·R_p/(R_s + R_p), the output
+/// sum of `analysis::noise` over the gain² is, with a = R_fb ∥ R_g and k = 1 + R_s/R_p:
+///   e² = (4kT·a + i_n²·a²)·k² + 4kT·R_s·k + e_n²·k² + i_n²·R_s²
+/// (R_fb and R_g together are the noise of their parallel value at the input; Z_p·k = R_s).
+/// Rising in R_fb and R_g, falling in each divider resistor; without a source resistance
+/// k = 1 and the divider drops out (the source shorts the + input at mid-band).
+fn noise_density<T: Num>(spec: &Spec, hi: T, lo: T, fb: T, g: T) -> T {
+    let rs = spec.source_resistance;
+    let four_kt = crate::objective::noise::four_kt();
+    let (en2, in2) = crate::objective::noise::amplifier_powers(spec);
+    T::monotone(
+        |[hi, lo, fb, g]| {
+            let a = fb * g / (fb + g);
+            let k = if rs > 0.0 {
+                1.0 + rs * (hi + lo) / (hi * lo)
+            } else {
+                1.0
+            };
+            (four_kt * a + in2 * a * a) * k * k + four_kt * rs * k + en2 * k * k + in2 * rs * rs
+        },
+        [hi, lo, fb, g],
+        [false, false, true, true],
+    )
 }
 
 /// The coupling networks of [`figures`]: c_in with the source and the divider, the gain leg
@@ -887,10 +914,12 @@ impl SearchPlan for NonInverting {
                     if !common::gain_window_ok(spec, lo, hi) {
                         return None;
                     }
-                    return Some(crate::objective::gain::points(
-                        spec,
-                        1.0 + r_fb.value / r_g.value,
-                    ));
+                    // Without a source resistance the noise needs the gain pair alone.
+                    let noise = noise_density(spec, 1.0, 1.0, r_fb.value, r_g.value);
+                    return Some(
+                        crate::objective::gain::points(spec, 1.0 + r_fb.value / r_g.value)
+                            + crate::objective::noise::points(spec, noise),
+                    );
                 }
                 // Decided after the divider: the whole gain, the swing at the highest gain,
                 // and the offset terms that need R_fb.
@@ -907,9 +936,11 @@ impl SearchPlan for NonInverting {
                 let gain = (1.0 + r_fb.value / r_g.value) * rp / (rs + rp);
                 let comp = spec.amplifier.input_bias_current * (r_fb.value - rp).abs()
                     + spec.amplifier.input_offset_current / 2.0 * r_fb.value;
+                let noise = noise_density(spec, hi.value, lo.value, r_fb.value, r_g.value);
                 Some(
                     crate::objective::gain::points(spec, gain)
-                        + crate::objective::offset::points(spec, comp),
+                        + crate::objective::offset::points(spec, comp)
+                        + crate::objective::noise::points(spec, noise),
                 )
             }
             Which::Divider => {
@@ -925,13 +956,17 @@ impl SearchPlan for NonInverting {
                 }
                 let (vmin, vmax) = common::divider_range(spec, hi, lo);
                 let swing = common::swing(spec, vmin, vmax);
+                let current = crate::objective::divider_current::points(
+                    spec,
+                    common::divider_current(spec.supply, hi.value, lo.value),
+                );
                 if rs > 0.0 {
                     // Decided first: the gain is not known yet, only its window's floor.
                     if !common::swing_ok(spec, swing, Self::gain_floor(spec)) {
                         return None;
                     }
                     let err = common::divider_error(spec, hi.value, lo.value);
-                    return Some(crate::objective::offset::points(spec, err));
+                    return Some(crate::objective::offset::points(spec, err) + current);
                 }
                 let (r_fb, r_g) = (get(parts, R_FB)?, get(parts, R_G)?);
                 let (_, g_hi) = Self::gain_range(spec, r_fb, r_g, Some((hi, lo)));
@@ -939,7 +974,7 @@ impl SearchPlan for NonInverting {
                     return None;
                 }
                 let err = common::offset_error(spec, hi.value, lo.value, r_fb.value);
-                Some(crate::objective::offset::points(spec, err))
+                Some(crate::objective::offset::points(spec, err) + current)
             }
             Which::CapIn => {
                 let c_in = get(parts, C_IN)?;

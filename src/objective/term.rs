@@ -50,6 +50,10 @@ pub struct Figures<T> {
     pub bias_current: Option<T>,
     /// The coupling networks, in the order of `Circuit::networks`.
     pub networks: Networks<T>,
+    /// Mid-band input-referred noise power density, V²/Hz: the resistors' thermal noise and
+    /// the op-amp's e_n and i_n referred to the source EMF, capacitors shorted, ideal
+    /// op-amp (what the `noise` goal counts, `objective::noise`).
+    pub noise: T,
 }
 
 /// Where a term's points come from.
