@@ -210,6 +210,9 @@ pub struct Spec {
     pub tolerance_mode: ToleranceMode,
     /// Most current the bias divider may draw from the supply (battery life), A.
     pub bias_current_max: Option<f64>,
+    /// Most input-referred noise over the band, V rms (worst case): the output noise over
+    /// the band divided by the mid-band |gain| (`analysis::noise`).
+    pub input_noise_max: Option<f64>,
     /// The op-amp's datasheet figures.
     pub amplifier: Amplifier,
     /// Where the parts come from and what may be taken.
@@ -218,6 +221,38 @@ pub struct Spec {
     pub goals: Goals,
     /// Slots fixed to a value: one per `[lock]` entry, sorted by slot name.
     pub locks: Vec<Lock>,
+    /// Per-slot value ranges: one per `[range]` entry, sorted by slot name (the slot names
+    /// are checked against the stage with the locks, `pick::resolve_locks`).
+    pub ranges: Vec<SlotLimit>,
+}
+
+/// One `[range]` entry: the slot's nominal value within `[low, high]`, on top of the stock's
+/// `resistor_range` / `capacitor_range`. A locked slot keeps its lock.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct SlotLimit {
+    /// The slot's name as written.
+    pub slot: String,
+    /// Least nominal value, Ω or F.
+    pub low: f64,
+    /// Greatest nominal value, Ω or F.
+    pub high: f64,
+    /// 1-based line of the entry in the spec.
+    pub line: Option<usize>,
+}
+
+impl SlotLimit {
+    /// Whether a nominal value lies in the range (10⁻⁹ relative slack, so that a series value
+    /// computed as 2.2 × 10⁵ still meets "220k").
+    pub fn admits(&self, value: f64) -> bool {
+        value >= self.low * (1.0 - 1e-9) && value <= self.high * (1.0 + 1e-9)
+    }
+}
+
+impl Spec {
+    /// The `[range]` entry of a slot, if any.
+    pub fn slot_limit(&self, slot: &str) -> Option<&SlotLimit> {
+        self.ranges.iter().find(|r| r.slot == slot)
+    }
 }
 
 impl Spec {
@@ -301,6 +336,7 @@ const STAGE_KEYS: &[&str] = &[
     "kind",
     "supply",
     "gain",
+    "gain_db",
     "gain_tolerance",
     "input_resistance_min",
     "load",
@@ -314,6 +350,7 @@ const STAGE_KEYS: &[&str] = &[
     "output_peak",
     "tolerance_mode",
     "bias_current_max",
+    "input_noise_max",
 ];
 const AMPLIFIER_KEYS: &[&str] = &[
     "gbw",
@@ -343,7 +380,7 @@ const GOAL_KEYS: [&str; Goal::ALL.len()] = {
     }
     keys
 };
-const SECTIONS: &[&str] = &["stage", "amplifier", "stock", "goals", "lock"];
+const SECTIONS: &[&str] = &["stage", "amplifier", "stock", "goals", "lock", "range"];
 
 /// Where each section and key of a spec starts, from the TOML parser's spans. Built once per
 /// spec, so that locating an error is a hash lookup and a bisection in the line starts; the
@@ -1103,6 +1140,7 @@ impl Spec {
         let goals_t = section(&root, "goals", &mut r).unwrap_or(&empty);
         r.check_keys("goals", goals_t, &GOAL_KEYS);
         let lock_t = section(&root, "lock", &mut r).unwrap_or(&empty);
+        let range_t = section(&root, "range", &mut r).unwrap_or(&empty);
 
         let s = "stage";
         let kind = match r.text(s, stage_t, "kind") {
@@ -1129,12 +1167,45 @@ impl Spec {
             }
         };
         let supply = r.required(s, stage_t, "supply", Unit::Volt);
+        // `gain_db`, the alternative to `gain`: 20·log10 |gain| (IEC 60027-3's field
+        // quantity level), the sign the stage's kind gives (negative for inverting).
+        let gain_db = match stage_t.get("gain_db") {
+            None => None,
+            Some(Value::Integer(i)) => Some(*i as f64),
+            Some(Value::Float(f)) if f.is_finite() => Some(*f),
+            Some(other) => {
+                r.error(
+                    s,
+                    Some("gain_db"),
+                    format!(
+                        "found {}, expected a plain number of decibels such as 20 (for ×10)",
+                        found(other)
+                    ),
+                );
+                None
+            }
+        };
+        if gain_db.is_some() && stage_t.contains_key("gain") {
+            r.error(
+                s,
+                Some("gain_db"),
+                "give `gain` or `gain_db`, not both".into(),
+            );
+        }
         let gain = match stage_t.get("gain") {
+            None if stage_t.contains_key("gain_db") => gain_db.map(|db| {
+                let magnitude = 10f64.powf(db / 20.0);
+                if kind == Some(StageKind::Inverting) {
+                    -magnitude
+                } else {
+                    magnitude
+                }
+            }),
             None => {
                 r.error(
                     s,
                     None,
-                    "missing `gain` (a number, negative for inverting)".into(),
+                    "missing `gain` (a number, negative for inverting) or `gain_db`".into(),
                 );
                 None
             }
@@ -1226,6 +1297,7 @@ impl Spec {
         let input_peak = r.positive(s, stage_t, "input_peak", Unit::Volt);
         let output_peak = r.positive(s, stage_t, "output_peak", Unit::Volt);
         let bias_current_max = r.positive(s, stage_t, "bias_current_max", Unit::Ampere);
+        let input_noise_max = r.positive(s, stage_t, "input_noise_max", Unit::Volt);
         let tolerance_mode = match r.text(s, stage_t, "tolerance_mode").as_deref() {
             None => ToleranceMode::Worst,
             Some("worst") | Some("worst-case") | Some("worst_case") => ToleranceMode::Worst,
@@ -1386,6 +1458,44 @@ impl Spec {
             });
         }
 
+        // `[range]`: a pair per slot, in ohms for `r_…` slots and farads for `c_…` slots (the
+        // slot naming rule); a name of neither kind is left for the stage to refuse with its
+        // list of slots.
+        let mut ranges = Vec::new();
+        for slot in range_t.keys() {
+            let unit = if slot.starts_with("c_") {
+                Unit::Farad
+            } else {
+                Unit::Ohm
+            };
+            let line = r.line_of("range", Some(slot));
+            if !slot.starts_with("r_") && !slot.starts_with("c_") {
+                ranges.push(SlotLimit {
+                    slot: slot.clone(),
+                    low: f64::NAN,
+                    high: f64::NAN,
+                    line,
+                });
+                continue;
+            }
+            if let Some((low, high)) = r.pair("range", range_t, slot, unit, false) {
+                if !(low > 0.0 && high >= low) {
+                    r.error(
+                        "range",
+                        Some(slot),
+                        "expected [low, high] with 0 < low ≤ high".into(),
+                    );
+                    continue;
+                }
+                ranges.push(SlotLimit {
+                    slot: slot.clone(),
+                    low,
+                    high,
+                    line,
+                });
+            }
+        }
+
         // Cross-field rules, once every field is read.
         if let (Some(kind), Some(g)) = (kind, gain) {
             match kind {
@@ -1493,6 +1603,7 @@ impl Spec {
             output_peak,
             tolerance_mode,
             bias_current_max,
+            input_noise_max,
             amplifier,
             stock: StockSpec {
                 resistors,
@@ -1506,6 +1617,7 @@ impl Spec {
             },
             goals,
             locks,
+            ranges,
         })
     }
 }

@@ -225,11 +225,11 @@ impl Goal {
             Goal::Offset => 0.5,
             Goal::PartCount | Goal::BomLines | Goal::Capacitance => 0.1,
             Goal::Cost => 1.0,
-            // One dB of noise costs as much as one more piece: a decade of impedance level
-            // (10 dB where a resistor's noise dominates) outweighs the decade of capacitance
-            // it costs in a coupling network (common practice: a quiet stage is worth a
-            // larger capacitor).
-            Goal::Noise => 0.1,
+            // Two dB of noise cost as much as one more piece, or a decade of capacitance: a
+            // decade of impedance level where a resistor's noise dominates (10 dB) is worth
+            // the larger coupling capacitor it needs, the last dB above the op-amp's own
+            // noise is not worth a capacitor ten times the size (common practice).
+            Goal::Noise => 0.05,
             // A milliamp from the supply costs as much as one more piece (common practice).
             Goal::DividerCurrent => 0.1,
         }

@@ -48,6 +48,15 @@ pub struct NoiseInputs {
 }
 
 impl NoiseInputs {
+    /// The spec's amplifier's e_n and i_n (0 for a figure it omits), at 300 K.
+    pub fn of(spec: &Spec) -> NoiseInputs {
+        let a = &spec.amplifier;
+        NoiseInputs::new(
+            a.noise_voltage.unwrap_or(0.0),
+            a.noise_current.unwrap_or(0.0),
+        )
+    }
+
     /// e_n and i_n at the default 300 K.
     pub fn new(voltage_density: f64, current_density: f64) -> NoiseInputs {
         NoiseInputs {

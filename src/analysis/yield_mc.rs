@@ -162,6 +162,8 @@ enum Judge {
     Polarity(usize, bool),
     /// Slot of the resistor and its power limit (50 % of the rating).
     Power(usize, f64),
+    /// The most input-referred noise over the band, V rms.
+    InputNoise(f64),
 }
 
 /// The judges in `analysis::checks` order, with their check names.
@@ -233,6 +235,9 @@ fn judges(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Vec<(String, Judge
                 Judge::Power(slot, rating * RESISTOR_DERATING),
             ));
         }
+    }
+    if let Some(max) = spec.input_noise_max {
+        out.push(("input_noise".into(), Judge::InputNoise(max)));
     }
     out
 }
@@ -380,6 +385,11 @@ pub fn monte_carlo(
                     .iter()
                     .find(|(s, _)| *s == slot)
                     .is_some_and(|(_, w)| passes(*w, Bound::Max, limit)),
+                Judge::InputNoise(max) => {
+                    let inputs = super::noise::NoiseInputs::of(spec);
+                    let n = super::noise::noise(&inputs, stage, spec, &x);
+                    passes(n.input_rms_v, Bound::Max, max)
+                }
             };
             *count += usize::from(ok);
             ok_all &= ok;

@@ -100,11 +100,11 @@ mod tests {
 
     #[test]
     fn points_per_db_above_the_source_resistance() {
-        // Twice the source's own noise power is 3.01 dB (10·log10 2): 0.301 points at the
-        // default 0.1 per dB.
+        // Twice the source's own noise power is 3.01 dB (10·log10 2): 0.1505 points at the
+        // default 0.05 per dB.
         let s = spec("source_resistance = \"2k\"\n");
         let p = points(&s, 2.0 * four_kt() * 2e3);
-        assert!((p - 0.1 * 10.0 * 2f64.log10()).abs() < 1e-12, "{p}");
+        assert!((p - 0.05 * 10.0 * 2f64.log10()).abs() < 1e-12, "{p}");
         // The source's noise alone: 0 dB, no points.
         assert!(points(&s, four_kt() * 2e3).abs() < 1e-12);
     }
@@ -114,7 +114,7 @@ mod tests {
         let s = spec("");
         assert_eq!(points(&s, four_kt() * 500.0), 0.0);
         let p = points(&s, four_kt() * 10e3);
-        assert!((p - 1.0).abs() < 1e-12, "10 dB above 1 kΩ: {p}");
+        assert!((p - 0.5).abs() < 1e-12, "10 dB above 1 kΩ: {p}");
     }
 
     #[test]
