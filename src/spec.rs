@@ -213,6 +213,13 @@ pub struct Spec {
     /// Most input-referred noise over the band, V rms (worst case): the output noise over
     /// the band divided by the mid-band |gain| (`analysis::noise`).
     pub input_noise_max: Option<f64>,
+    /// Capacitance across each resistor (pads, leads, the body), F: in the response, the
+    /// corners, the worst case, the noise and the netlist. [`DEFAULT_STRAY_CAPACITANCE`]
+    /// without the key; 0 leaves it out.
+    pub stray_capacitance: f64,
+    /// The source's series capacitance (a piezo, electret or capacitive sensor), F: in series
+    /// with the source resistance, so it makes a high-pass with the input.
+    pub source_capacitance: Option<f64>,
     /// The op-amp's datasheet figures.
     pub amplifier: Amplifier,
     /// Where the parts come from and what may be taken.
@@ -351,6 +358,8 @@ const STAGE_KEYS: &[&str] = &[
     "tolerance_mode",
     "bias_current_max",
     "input_noise_max",
+    "stray_capacitance",
+    "source_capacitance",
 ];
 const AMPLIFIER_KEYS: &[&str] = &[
     "gbw",
@@ -1298,6 +1307,17 @@ impl Spec {
         let output_peak = r.positive(s, stage_t, "output_peak", Unit::Volt);
         let bias_current_max = r.positive(s, stage_t, "bias_current_max", Unit::Ampere);
         let input_noise_max = r.positive(s, stage_t, "input_noise_max", Unit::Volt);
+        let stray_capacitance = r
+            .quantity(s, stage_t, "stray_capacitance", Unit::Farad)
+            .unwrap_or(DEFAULT_STRAY_CAPACITANCE);
+        if !(0.0..=1e-9).contains(&stray_capacitance) {
+            r.error(
+                s,
+                Some("stray_capacitance"),
+                "expected 0 to 1 nF across each resistor, e.g. \"0.2 pF\"".into(),
+            );
+        }
+        let source_capacitance = r.positive(s, stage_t, "source_capacitance", Unit::Farad);
         let tolerance_mode = match r.text(s, stage_t, "tolerance_mode").as_deref() {
             None => ToleranceMode::Worst,
             Some("worst") | Some("worst-case") | Some("worst_case") => ToleranceMode::Worst,
@@ -1604,6 +1624,8 @@ impl Spec {
             tolerance_mode,
             bias_current_max,
             input_noise_max,
+            stray_capacitance,
+            source_capacitance,
             amplifier,
             stock: StockSpec {
                 resistors,
@@ -1637,6 +1659,10 @@ pub const DEFAULT_CAPACITOR_RANGE: (f64, f64) = (1e-9, 1e-3);
 /// never passes (common practice: a stage's gain is asked within a few tens of percent at
 /// most; give `gain_tolerance` for anything tighter).
 pub const DEFAULT_GAIN_TOLERANCE: f64 = 0.2;
+/// Default capacitance across each resistor: 0.2 pF, about what a through-hole or 0805 part
+/// and its pads show (common practice, from memory). A 10 MΩ feedback resistor with it has a
+/// pole near 80 kHz.
+pub const DEFAULT_STRAY_CAPACITANCE: f64 = 0.2e-12;
 /// Default tolerance of series resistors: 1 % metal film is the everyday part today (common
 /// practice), tighter than the 5 % IEC 60063 associates with E24.
 pub const DEFAULT_RESISTOR_TOLERANCE: f64 = 0.01;

@@ -194,3 +194,53 @@ fn the_noise_goal_lowers_the_impedance_level_and_zero_weight_restores_it() {
     let r_fb = part(&quiet["builds"][0], "r_fb");
     assert!((1e3..=1e6).contains(&r_fb), "{r_fb}");
 }
+
+fn netlist_of(text: &str) -> (Value, String) {
+    let dir = tempfile::tempdir().unwrap();
+    let spec = spec_file(dir.path(), text);
+    let (json, cir) = (dir.path().join("out.json"), dir.path().join("out.cir"));
+    let r = run(&[
+        "pick",
+        spec.to_str().unwrap(),
+        "--top",
+        "1",
+        "--json",
+        json.to_str().unwrap(),
+        "--spice",
+        cir.to_str().unwrap(),
+    ]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    (
+        serde_json::from_str(&std::fs::read_to_string(json).unwrap()).unwrap(),
+        std::fs::read_to_string(cir).unwrap(),
+    )
+}
+
+#[test]
+fn stray_capacitance_is_in_the_netlist_by_default_and_can_be_left_out() {
+    // 0.2 pF across each resistor by default (spec::DEFAULT_STRAY_CAPACITANCE), one per
+    // resistor slot of the inverting stage; `stray_capacitance = 0` writes none.
+    let (_, net) = netlist_of(&inverting("gain = -10", ""));
+    let strays: Vec<&str> = net.lines().filter(|l| l.starts_with("C_STRAY_")).collect();
+    assert_eq!(strays.len(), 4, "{net}");
+    assert!(net.contains("C_STRAY_R_FB inn amp_out 200f"), "{net}");
+    let (_, net) = netlist_of(&inverting("gain = -10\nstray_capacitance = 0", ""));
+    assert!(!net.contains("C_STRAY_"), "{net}");
+}
+
+#[test]
+fn source_capacitance_is_in_series_with_the_input() {
+    // 100 nF in series with c_in: the input network's capacitance is C·C_s/(C + C_s) (series
+    // capacitors), so its corner is 1/(2π·R_in·C_series).
+    let (doc, net) = netlist_of(&inverting(
+        "gain = -10\nsource_capacitance = \"100 nF\"",
+        "",
+    ));
+    assert!(net.contains("C_S in in_cs 100n"), "{net}");
+    let b = &doc["builds"][0];
+    let (c_in, r_in) = (part(b, "c_in"), part(b, "r_in"));
+    let series = c_in * 100e-9 / (c_in + 100e-9);
+    let want = 1.0 / (2.0 * std::f64::consts::PI * r_in * series);
+    let got = b["metrics"]["networks"][0]["corner_hz"].as_f64().unwrap();
+    assert!((got / want - 1.0).abs() < 1e-12, "{got} {want}");
+}

@@ -247,6 +247,8 @@ supply = "9 V"
 gain = -1
 load = "10k"
 band = ["20 Hz", "20 kHz"]
+# Ideal resistors: the textbook sums have no stray capacitance.
+stray_capacitance = 0
 "#;
 
     fn spec(text: &str) -> Spec {
@@ -333,6 +335,7 @@ supply = "12 V"
 gain = 11
 load = "10k"
 band = ["20 Hz", "20 kHz"]
+stray_capacitance = 0
 source_resistance = "600"
 output_peak = "3 V"
 "#;

@@ -147,7 +147,11 @@ fn networks<T: Num>(spec: &Spec, v: &[T]) -> Networks<T> {
         shelf: None,
     };
     smallvec::smallvec![
-        plain(T::c(spec.source_resistance) + v[R_IN], v[C_IN], C_IN),
+        plain(
+            T::c(spec.source_resistance) + v[R_IN],
+            common::with_source_capacitance(spec, v[C_IN]),
+            C_IN,
+        ),
         plain(T::c(spec.load), v[C_OUT], C_OUT),
     ]
 }
@@ -205,10 +209,13 @@ impl Circuit for Inverting {
 
     /// V_out/V_s = −(Z_f/Z_i) · 1/(1 + 1/(aβ)) · H_out with Z_i = R_s + R_in + 1/(jωC_in),
     /// β = Z_i/(Z_i + Z_f) (inverting amplifier with finite gain, any op-amp text).
+    /// Each resistor carries the spec's stray capacitance across it (`common::resistor_z`),
+    /// and Z_i the source's own capacitance in series (`common::source_z`).
     fn response(&self, spec: &Spec, v: &[f64], opamp: &OpAmp, f: f64) -> Complex64 {
-        let w = 2.0 * std::f64::consts::PI * f;
-        let zi = Complex64::new(spec.source_resistance + v[R_IN], -1.0 / (w * v[C_IN]));
-        let zf = Complex64::new(v[R_FB], 0.0);
+        let zi = common::source_z(spec, f)
+            + common::resistor_z(spec, v[R_IN], f)
+            + super::types::cap_z(v[C_IN], f);
+        let zf = common::resistor_z(spec, v[R_FB], f);
         let beta = zi / (zi + zf);
         let h_amp = -(zf / zi) * opamp.loop_factor(f, beta);
         h_amp * common::high_pass(spec.load, v[C_OUT], f)
@@ -220,7 +227,7 @@ impl Circuit for Inverting {
                 name: "input",
                 cap_slot: C_IN,
                 resistance: spec.source_resistance + v[R_IN],
-                capacitance: v[C_IN],
+                capacitance: common::with_source_capacitance(spec, v[C_IN]),
             },
             Network {
                 name: "output",
@@ -296,24 +303,28 @@ impl Circuit for Inverting {
 
     fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> super::types::NoiseCircuit {
         use super::types::NoisePlace as Place;
-        let re = |r: f64| Complex64::new(r, 0.0);
         let name = |slot: usize| SLOTS[slot].name;
         let rs = spec.source_resistance;
         let mut resistors = Vec::new();
         // − input: R_fb to the output; R_in, c_in and the source's resistance to the
         // source (AC ground for noise). + input: the divider (the supply is AC ground).
+        // Each resistor with its stray capacitance: an impedance Z whose noise is 4kT·Re Z
+        // (`common::resistor_noise_r`).
         let (hi, lo) = (v[R_BIAS_HI], v[R_BIAS_LO]);
-        resistors.push((name(R_IN), v[R_IN], Place::Shunt));
+        let z = |r: f64| common::resistor_z(spec, r, f);
+        let noise_r = |r: f64| common::resistor_noise_r(spec, r, f);
+        resistors.push((name(R_IN), noise_r(v[R_IN]), Place::Shunt));
         if rs > 0.0 {
             resistors.push(("source_resistance", rs, Place::Shunt));
         }
-        resistors.push((name(R_FB), v[R_FB], Place::Feedback));
-        resistors.push((name(R_BIAS_HI), hi, Place::Plus(re(hi))));
-        resistors.push((name(R_BIAS_LO), lo, Place::Plus(re(lo))));
+        resistors.push((name(R_FB), noise_r(v[R_FB]), Place::Feedback));
+        resistors.push((name(R_BIAS_HI), noise_r(hi), Place::Plus(z(hi))));
+        resistors.push((name(R_BIAS_LO), noise_r(lo), Place::Plus(z(lo))));
+        let one = Complex64::new(1.0, 0.0);
         super::types::NoiseCircuit {
-            z_f: re(v[R_FB]),
-            z_s: re(rs + v[R_IN]) + super::types::cap_z(v[C_IN], f),
-            z_p: re(common::parallel(hi, lo)),
+            z_f: z(v[R_FB]),
+            z_s: common::source_z(spec, f) + z(v[R_IN]) + super::types::cap_z(v[C_IN], f),
+            z_p: one / (one / z(hi) + one / z(lo)),
             h_out: common::high_pass(spec.load, v[C_OUT], f),
             resistors,
         }

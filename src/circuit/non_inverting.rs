@@ -190,7 +190,13 @@ fn networks<T: Num>(spec: &Spec, v: &[T]) -> Networks<T> {
     };
     let ng = T::monotone(|[f, g]| 1.0 + f / g, [v[R_FB], v[R_G]], [true, false]);
     smallvec::smallvec![
-        network(T::c(spec.source_resistance) + rp, v[C_IN], true, C_IN, None),
+        network(
+            T::c(spec.source_resistance) + rp,
+            common::with_source_capacitance(spec, v[C_IN]),
+            true,
+            C_IN,
+            None,
+        ),
         network(v[R_G], v[C_G], false, C_G, Some(ng)),
         network(T::c(spec.load), v[C_OUT], true, C_OUT, None),
     ]
@@ -359,13 +365,15 @@ impl Circuit for NonInverting {
 
     /// V_out/V_s = H_in · (1/β) · 1/(1 + 1/(aβ)) · H_out, with H_in = R_p/(R_p + R_s + 1/(jωC_in))
     /// and β = Z_g/(Z_g + R_fb), Z_g = R_g + 1/(jωC_g) (feedback theory).
+    /// Each resistor carries the spec's stray capacitance across it (`common::resistor_z`),
+    /// and the source its own capacitance in series (`common::source_z`).
     fn response(&self, spec: &Spec, v: &[f64], opamp: &OpAmp, f: f64) -> Complex64 {
-        let w = 2.0 * PI * f;
-        let rp = Self::rp(v[R_BIAS_HI], v[R_BIAS_LO]);
-        let h_in = Complex64::new(rp, 0.0)
-            / Complex64::new(rp + spec.source_resistance, -1.0 / (w * v[C_IN]));
-        let zg = Complex64::new(v[R_G], -1.0 / (w * v[C_G]));
-        let beta = zg / (zg + v[R_FB]);
+        let z = |r: f64| common::resistor_z(spec, r, f);
+        let one = Complex64::new(1.0, 0.0);
+        let zp = one / (one / z(v[R_BIAS_HI]) + one / z(v[R_BIAS_LO]));
+        let h_in = zp / (zp + common::source_z(spec, f) + super::types::cap_z(v[C_IN], f));
+        let zg = z(v[R_G]) + super::types::cap_z(v[C_G], f);
+        let beta = zg / (zg + z(v[R_FB]));
         let h_amp = opamp.loop_factor(f, beta) / beta;
         h_in * h_amp * common::high_pass(spec.load, v[C_OUT], f)
     }
@@ -376,7 +384,7 @@ impl Circuit for NonInverting {
                 name: "input",
                 cap_slot: C_IN,
                 resistance: spec.source_resistance + Self::rp(v[R_BIAS_HI], v[R_BIAS_LO]),
-                capacitance: v[C_IN],
+                capacitance: common::with_source_capacitance(spec, v[C_IN]),
             },
             Network {
                 name: "gain leg",
@@ -476,20 +484,24 @@ impl Circuit for NonInverting {
         let mut resistors = Vec::new();
         // − input: R_fb to the output, R_g + c_g to ground. + input: the divider in
         // parallel with the input branch (c_in and the source's resistance).
+        // Each resistor with its stray capacitance: an impedance Z whose noise is 4kT·Re Z
+        // (`common::resistor_noise_r`); the source branch with its own capacitance.
         let (hi, lo) = (v[R_BIAS_HI], v[R_BIAS_LO]);
-        let branch = re(rs) + super::types::cap_z(v[C_IN], f);
+        let z = |r: f64| common::resistor_z(spec, r, f);
+        let noise_r = |r: f64| common::resistor_noise_r(spec, r, f);
+        let branch = common::source_z(spec, f) + super::types::cap_z(v[C_IN], f);
         let one = re(1.0);
-        let z_p = one / (one / hi + one / lo + one / branch);
-        resistors.push((name(R_BIAS_HI), hi, Place::Plus(re(hi))));
-        resistors.push((name(R_BIAS_LO), lo, Place::Plus(re(lo))));
+        let z_p = one / (one / z(hi) + one / z(lo) + one / branch);
+        resistors.push((name(R_BIAS_HI), noise_r(hi), Place::Plus(z(hi))));
+        resistors.push((name(R_BIAS_LO), noise_r(lo), Place::Plus(z(lo))));
         if rs > 0.0 {
             resistors.push(("source_resistance", rs, Place::Plus(branch)));
         }
-        resistors.push((name(R_FB), v[R_FB], Place::Feedback));
-        resistors.push((name(R_G), v[R_G], Place::Shunt));
+        resistors.push((name(R_FB), noise_r(v[R_FB]), Place::Feedback));
+        resistors.push((name(R_G), noise_r(v[R_G]), Place::Shunt));
         super::types::NoiseCircuit {
-            z_f: re(v[R_FB]),
-            z_s: re(v[R_G]) + super::types::cap_z(v[C_G], f),
+            z_f: z(v[R_FB]),
+            z_s: z(v[R_G]) + super::types::cap_z(v[C_G], f),
             z_p,
             h_out: common::high_pass(spec.load, v[C_OUT], f),
             resistors,

@@ -225,6 +225,9 @@ impl Request<'_> {
     /// The circuit's own plan when this request may use it.
     pub fn own_plan(&self) -> Option<&dyn SearchPlan> {
         match self.plan {
+            // The hand-tuned plans' input-network relaxations take the source as a resistance;
+            // with a source capacitance the generic plan (the circuit's own equations) searches.
+            PlanChoice::Best if self.spec.source_capacitance.is_some() => None,
             PlanChoice::Best => self.stage.plan(),
             PlanChoice::Generic => None,
         }
