@@ -515,7 +515,19 @@ impl SearchPlan for Inverting {
                 None => plans::gain_other_first(spec, form, floor, None),
             },
             (0, _) => match get(parts, R_IN) {
-                Some(r_in) => plans::gain_fb(spec, form, r_in.value, None),
+                Some(r_in) => {
+                    // The noise share of the pair falls with r_fb: its least over the walk's
+                    // window is at the window's top (every r_fb above it fails the gain).
+                    let plan = plans::gain_fb(spec, form, r_in.value, None);
+                    let top = plan.window.1;
+                    let floor = if top.is_finite() {
+                        let d = noise_density_parts(spec, r_in.value, top, 1.0, 1.0, false);
+                        crate::objective::noise::points(spec, d) * (1.0 - 1e-9)
+                    } else {
+                        0.0
+                    };
+                    plan.plus(floor)
+                }
                 None => WalkPlan::free(),
             },
             (1, k) => {

@@ -734,7 +734,25 @@ impl SearchPlan for NonInverting {
                     }
                 } else {
                     match get(parts, R_G) {
-                        Some(r_g) => plans::gain_fb(spec, form, r_g.value, comp),
+                        Some(r_g) => {
+                            // The noise share (the whole noise: without a source resistance
+                            // the pair alone makes it, with one the divider is chosen) rises
+                            // with r_fb: its least over the walk's window is at the bottom.
+                            let plan = plans::gain_fb(spec, form, r_g.value, comp);
+                            let (hi, lo) = match divider {
+                                Some((hi, lo)) if rs > 0.0 => (hi.value, lo.value),
+                                _ if rs > 0.0 => (f64::INFINITY, f64::INFINITY),
+                                _ => (1.0, 1.0),
+                            };
+                            let bottom = plan.window.0;
+                            let floor = if bottom > 0.0 && bottom.is_finite() && hi.is_finite() {
+                                let d = noise_density(spec, hi, lo, bottom, r_g.value);
+                                crate::objective::noise::points(spec, d) * (1.0 - 1e-9)
+                            } else {
+                                0.0
+                            };
+                            plan.plus(floor)
+                        }
                         None => WalkPlan::free(),
                     }
                 }

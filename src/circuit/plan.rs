@@ -94,6 +94,22 @@ impl<'s> WalkPlan<'s> {
     }
 }
 
+impl<'s> WalkPlan<'s> {
+    /// The plan with `floor` added to every bound: a share that also holds a term whose least
+    /// value over the window is `floor` (the noise goal's share of the gain pair over the
+    /// feedback resistor's window). A constant keeps the bound's shape, so the contract holds.
+    pub fn plus(self, floor: f64) -> WalkPlan<'s> {
+        if floor <= 0.0 {
+            return self;
+        }
+        let inner = self.bound;
+        WalkPlan {
+            bound: Box::new(move |v, up| inner(v, up).map(|b| b + floor)),
+            ..self
+        }
+    }
+}
+
 impl WalkPlan<'static> {
     /// No preference: every candidate, cheapest first (a walk up from the bottom).
     pub fn free() -> WalkPlan<'static> {
