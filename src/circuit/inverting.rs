@@ -540,7 +540,37 @@ impl SearchPlan for Inverting {
                     },
                 };
                 let walked = if k == 0 { R_BIAS_HI } else { R_BIAS_LO };
-                plans::divider_walk(spec, walked == R_BIAS_HI, parts, R_BIAS_HI, R_BIAS_LO, ctx)
+                let plan = plans::divider_walk(
+                    spec,
+                    walked == R_BIAS_HI,
+                    parts,
+                    R_BIAS_HI,
+                    R_BIAS_LO,
+                    ctx,
+                );
+                // r_bias_lo with r_bias_hi and the gain pair chosen: the divider's noise share
+                // rises with it, its current's falls (each ≥ 0 on the other side).
+                match (k, get(parts, R_BIAS_HI), get(parts, R_IN), get(parts, R_FB)) {
+                    (1, Some(hi), Some(r_in), Some(r_fb)) => {
+                        let (hi, r_in, r_fb) = (hi.value, r_in.value, r_fb.value);
+                        let part = noise_density_parts(spec, r_in, r_fb, 1.0, 1.0, false);
+                        let noise = move |lo: f64| {
+                            // A walk's far end may be read at ∞: R_p is then r_bias_hi.
+                            let whole = noise_density(spec, r_in, r_fb, hi, lo.min(1e30));
+                            let d = crate::objective::noise::points(spec, whole)
+                                - crate::objective::noise::points(spec, part);
+                            d.max(0.0) * (1.0 - 1e-9)
+                        };
+                        let current = move |lo: f64| {
+                            crate::objective::divider_current::points(
+                                spec,
+                                common::divider_current(spec.supply, hi, lo),
+                            ) * (1.0 - 1e-9)
+                        };
+                        plan.plus_sides(noise, current)
+                    }
+                    _ => plan,
+                }
             }
             (2, _) => {
                 // Before r_in is chosen, the largest r_in the gain window lets an r_fb inside

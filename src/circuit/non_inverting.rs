@@ -771,7 +771,28 @@ impl SearchPlan for NonInverting {
                     },
                 };
                 let walked = if k == 0 { R_BIAS_HI } else { R_BIAS_LO };
-                plans::divider_walk(spec, walked == R_BIAS_HI, parts, R_BIAS_HI, R_BIAS_LO, ctx)
+                let plan = plans::divider_walk(
+                    spec,
+                    walked == R_BIAS_HI,
+                    parts,
+                    R_BIAS_HI,
+                    R_BIAS_LO,
+                    ctx,
+                );
+                // r_bias_lo with r_bias_hi chosen: the divider current's share falls with it.
+                match (k, get(parts, R_BIAS_HI)) {
+                    (1, Some(hi)) => {
+                        let hi = hi.value;
+                        let current = move |lo: f64| {
+                            crate::objective::divider_current::points(
+                                spec,
+                                common::divider_current(spec.supply, hi, lo),
+                            ) * (1.0 - 1e-9)
+                        };
+                        plan.plus_sides(|_| 0.0, current)
+                    }
+                    _ => plan,
+                }
             }
             Which::CapIn => {
                 // Before the divider is chosen: R_p is at most half the largest resistor.
