@@ -56,7 +56,7 @@ fn family(seed: u64, n: usize) -> Vec<Member> {
             let combine = pick_one(&mut rng, &["single", "single", "series", "parallel", "both"]);
             let gain_only = rng.gen::<f64>() < 0.35;
             let goals = if gain_only {
-                "\n[goals]\ngain_error = 1.0\noffset = 0.0\npart_count = 0.0\nbom_lines = 0.0\ncapacitance = 0.0\ncost = 0.0\n"
+                "\n[goals]\ngain_error = 1.0\noffset = 0.0\npart_count = 0.0\nbom_lines = 0.0\ncapacitance = 0.0\ncost = 0.0\nnoise = 0.0\ndivider_current = 0.0\n"
             } else {
                 ""
             };

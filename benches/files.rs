@@ -51,7 +51,9 @@ fn text_of(case: &str) -> String {
 /// CPU time this thread has run (`/proc/thread-self/schedstat`, ns), where the system says.
 fn cpu_now() -> Option<Duration> {
     let text = std::fs::read_to_string("/proc/thread-self/schedstat").ok()?;
-    Some(Duration::from_nanos(text.split_whitespace().next()?.parse().ok()?))
+    Some(Duration::from_nanos(
+        text.split_whitespace().next()?.parse().ok()?,
+    ))
 }
 
 fn vm_hwm_kb(pid: u32) -> Option<u64> {

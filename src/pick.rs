@@ -157,7 +157,12 @@ pub fn resolve_locks(
     flags: &[SlotEntry],
 ) -> Result<Vec<(usize, Part)>, Error> {
     let mut out: Vec<(usize, Part)> = Vec::new();
-    let mut errors = Vec::new();
+    let mut errors: Vec<SpecError> = spec
+        .ranges
+        .iter()
+        .filter(|r| circuit::slot_index(circuit, &r.slot).is_none())
+        .map(|r| unknown_slot(circuit, "range", &r.slot, r.line))
+        .collect();
     let mut more = 0;
     for lock in &spec.locks {
         // Past the cap only count, without working out a message (bounded work).
@@ -186,6 +191,29 @@ pub fn resolve_locks(
     Ok(out)
 }
 
+/// The error for a `[section]` entry naming a slot the stage does not have, with its line, the
+/// nearest name and the stage's slots.
+fn unknown_slot(
+    circuit: &dyn Circuit,
+    section: &str,
+    slot: &str,
+    line: Option<usize>,
+) -> SpecError {
+    let names = slot_names(circuit);
+    let hint = spec::nearest(slot, &names)
+        .map(|n| format!("did you mean `{n}`? "))
+        .unwrap_or_default();
+    SpecError {
+        key: format!("{section}.{slot}"),
+        line,
+        message: format!(
+            "the {} stage has no slot `{slot}`; {hint}its slots are {}",
+            circuit.kind().name(),
+            names.join(", ")
+        ),
+    }
+}
+
 /// One `[lock]` entry: its slot, kind, value and tolerance, or the spec error with its line.
 fn spec_lock(
     circuit: &dyn Circuit,
@@ -197,16 +225,7 @@ fn spec_lock(
         message,
     };
     let Some(slot) = circuit::slot_index(circuit, &lock.slot) else {
-        let names = slot_names(circuit);
-        let hint = spec::nearest(&lock.slot, &names)
-            .map(|n| format!("did you mean `{n}`? "))
-            .unwrap_or_default();
-        return Err(error(format!(
-            "the {} stage has no slot `{}`; {hint}its slots are {}",
-            circuit.kind().name(),
-            lock.slot,
-            names.join(", ")
-        )));
+        return Err(unknown_slot(circuit, "lock", &lock.slot, lock.line));
     };
     let kind = circuit.slots()[slot].kind;
     let (value, tolerance) = lock.parse(kind).map_err(error)?;

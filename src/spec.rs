@@ -219,6 +219,16 @@ pub struct Spec {
     pub output_offset_max: Option<f64>,
     /// Least worst-case common-mode rejection of a difference stage at DC, dB.
     pub cmrr_min: Option<f64>,
+    /// Most input-referred noise over the band, V rms (worst case): the output noise over
+    /// the band divided by the mid-band |gain| (`analysis::noise`).
+    pub input_noise_max: Option<f64>,
+    /// Capacitance across each resistor (pads, leads, the body), F: in the response, the
+    /// corners, the worst case, the noise and the netlist. [`DEFAULT_STRAY_CAPACITANCE`]
+    /// without the key; 0 leaves it out.
+    pub stray_capacitance: f64,
+    /// The source's series capacitance (a piezo, electret or capacitive sensor), F: in series
+    /// with the source resistance, so it makes a high-pass with the input.
+    pub source_capacitance: Option<f64>,
     /// The op-amp's datasheet figures.
     pub amplifier: Amplifier,
     /// Where the parts come from and what may be taken.
@@ -227,6 +237,38 @@ pub struct Spec {
     pub goals: Goals,
     /// Slots fixed to a value: one per `[lock]` entry, sorted by slot name.
     pub locks: Vec<Lock>,
+    /// Per-slot value ranges: one per `[range]` entry, sorted by slot name (the slot names
+    /// are checked against the stage with the locks, `pick::resolve_locks`).
+    pub ranges: Vec<SlotLimit>,
+}
+
+/// One `[range]` entry: the slot's nominal value within `[low, high]`, on top of the stock's
+/// `resistor_range` / `capacitor_range`. A locked slot keeps its lock.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct SlotLimit {
+    /// The slot's name as written.
+    pub slot: String,
+    /// Least nominal value, Ω or F.
+    pub low: f64,
+    /// Greatest nominal value, Ω or F.
+    pub high: f64,
+    /// 1-based line of the entry in the spec.
+    pub line: Option<usize>,
+}
+
+impl SlotLimit {
+    /// Whether a nominal value lies in the range (10⁻⁹ relative slack, so that a series value
+    /// computed as 2.2 × 10⁵ still meets "220k").
+    pub fn admits(&self, value: f64) -> bool {
+        value >= self.low * (1.0 - 1e-9) && value <= self.high * (1.0 + 1e-9)
+    }
+}
+
+impl Spec {
+    /// The `[range]` entry of a slot, if any.
+    pub fn slot_limit(&self, slot: &str) -> Option<&SlotLimit> {
+        self.ranges.iter().find(|r| r.slot == slot)
+    }
 }
 
 impl Spec {
@@ -340,6 +382,7 @@ const STAGE_KEYS: &[&str] = &[
     "kind",
     "supply",
     "gain",
+    "gain_db",
     "gain_tolerance",
     "input_resistance_min",
     "load",
@@ -357,6 +400,9 @@ const STAGE_KEYS: &[&str] = &[
     "bias_compensation",
     "output_offset_max",
     "cmrr_min",
+    "input_noise_max",
+    "stray_capacitance",
+    "source_capacitance",
 ];
 const AMPLIFIER_KEYS: &[&str] = &[
     "gbw",
@@ -386,7 +432,7 @@ const GOAL_KEYS: [&str; Goal::ALL.len()] = {
     }
     keys
 };
-const SECTIONS: &[&str] = &["stage", "amplifier", "stock", "goals", "lock"];
+const SECTIONS: &[&str] = &["stage", "amplifier", "stock", "goals", "lock", "range"];
 /// The keys of each section, for an unknown key that another section knows (`gbw` under
 /// `[stage]`: "belongs in `[amplifier]`").
 const KEYS_BY_SECTION: &[(&str, &[&str])] = &[
@@ -1167,6 +1213,7 @@ impl Spec {
         let goals_t = section(&root, "goals", &mut r).unwrap_or(&empty);
         r.check_keys("goals", goals_t, &GOAL_KEYS);
         let lock_t = section(&root, "lock", &mut r).unwrap_or(&empty);
+        let range_t = section(&root, "range", &mut r).unwrap_or(&empty);
 
         let s = "stage";
         let kind = match r.text(s, stage_t, "kind") {
@@ -1195,12 +1242,45 @@ impl Spec {
         };
         let rails = supply_rails(&mut r, s, stage_t);
         let supply = rails.map(|(_, hi)| hi);
+        // `gain_db`, the alternative to `gain`: 20·log10 |gain| (IEC 60027-3's field
+        // quantity level), the sign the stage's kind gives (negative for inverting).
+        let gain_db = match stage_t.get("gain_db") {
+            None => None,
+            Some(Value::Integer(i)) => Some(*i as f64),
+            Some(Value::Float(f)) if f.is_finite() => Some(*f),
+            Some(other) => {
+                r.error(
+                    s,
+                    Some("gain_db"),
+                    format!(
+                        "found {}, expected a plain number of decibels such as 20 (for ×10)",
+                        found(other)
+                    ),
+                );
+                None
+            }
+        };
+        if gain_db.is_some() && stage_t.contains_key("gain") {
+            r.error(
+                s,
+                Some("gain_db"),
+                "give `gain` or `gain_db`, not both".into(),
+            );
+        }
         let gain = match stage_t.get("gain") {
+            None if stage_t.contains_key("gain_db") => gain_db.map(|db| {
+                let magnitude = 10f64.powf(db / 20.0);
+                if kind == Some(StageKind::Inverting) {
+                    -magnitude
+                } else {
+                    magnitude
+                }
+            }),
             None => {
                 r.error(
                     s,
                     None,
-                    "missing `gain` (a number, negative for inverting)".into(),
+                    "missing `gain` (a number, negative for inverting) or `gain_db`".into(),
                 );
                 None
             }
@@ -1307,6 +1387,18 @@ impl Spec {
                 None
             }
         };
+        let input_noise_max = r.positive(s, stage_t, "input_noise_max", Unit::Volt);
+        let stray_capacitance = r
+            .quantity(s, stage_t, "stray_capacitance", Unit::Farad)
+            .unwrap_or(DEFAULT_STRAY_CAPACITANCE);
+        if !(0.0..=1e-9).contains(&stray_capacitance) {
+            r.error(
+                s,
+                Some("stray_capacitance"),
+                "expected 0 to 1 nF across each resistor, e.g. \"0.2 pF\"".into(),
+            );
+        }
+        let source_capacitance = r.positive(s, stage_t, "source_capacitance", Unit::Farad);
         let tolerance_mode = match r.text(s, stage_t, "tolerance_mode").as_deref() {
             None => ToleranceMode::Worst,
             Some("worst") | Some("worst-case") | Some("worst_case") => ToleranceMode::Worst,
@@ -1465,6 +1557,44 @@ impl Spec {
                 value,
                 line,
             });
+        }
+
+        // `[range]`: a pair per slot, in ohms for `r_…` slots and farads for `c_…` slots (the
+        // slot naming rule); a name of neither kind is left for the stage to refuse with its
+        // list of slots.
+        let mut ranges = Vec::new();
+        for slot in range_t.keys() {
+            let unit = if slot.starts_with("c_") {
+                Unit::Farad
+            } else {
+                Unit::Ohm
+            };
+            let line = r.line_of("range", Some(slot));
+            if !slot.starts_with("r_") && !slot.starts_with("c_") {
+                ranges.push(SlotLimit {
+                    slot: slot.clone(),
+                    low: f64::NAN,
+                    high: f64::NAN,
+                    line,
+                });
+                continue;
+            }
+            if let Some((low, high)) = r.pair("range", range_t, slot, unit, false) {
+                if !(low > 0.0 && high >= low) {
+                    r.error(
+                        "range",
+                        Some(slot),
+                        "expected [low, high] with 0 < low ≤ high".into(),
+                    );
+                    continue;
+                }
+                ranges.push(SlotLimit {
+                    slot: slot.clone(),
+                    low,
+                    high,
+                    line,
+                });
+            }
         }
 
         // Cross-field rules, once every field is read.
@@ -1640,6 +1770,9 @@ impl Spec {
             bias_current_max,
             output_offset_max,
             cmrr_min,
+            input_noise_max,
+            stray_capacitance,
+            source_capacitance,
             amplifier,
             stock: StockSpec {
                 resistors,
@@ -1653,6 +1786,7 @@ impl Spec {
             },
             goals,
             locks,
+            ranges,
         })
     }
 }
@@ -1797,6 +1931,10 @@ pub const DEFAULT_CAPACITOR_RANGE: (f64, f64) = (1e-9, 1e-3);
 /// never passes (common practice: a stage's gain is asked within a few tens of percent at
 /// most; give `gain_tolerance` for anything tighter).
 pub const DEFAULT_GAIN_TOLERANCE: f64 = 0.2;
+/// Default capacitance across each resistor: 0.2 pF, about what a through-hole or 0805 part
+/// and its pads show (common practice, from memory). A 10 MΩ feedback resistor with it has a
+/// pole near 80 kHz.
+pub const DEFAULT_STRAY_CAPACITANCE: f64 = 0.2e-12;
 /// Default tolerance of series resistors: 1 % metal film is the everyday part today (common
 /// practice), tighter than the 5 % IEC 60063 associates with E24.
 pub const DEFAULT_RESISTOR_TOLERANCE: f64 = 0.01;

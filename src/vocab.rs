@@ -232,17 +232,24 @@ pub enum Goal {
     Capacitance,
     /// Points per unit of currency, where costs are known.
     Cost,
+    /// Points per dB of mid-band input-referred noise above the source's own thermal noise
+    /// (`objective::noise`).
+    Noise,
+    /// Points per mA of the bias network's nominal current (`objective::divider_current`).
+    DividerCurrent,
 }
 
 impl Goal {
     /// Every goal, in the order of the spec reference (and of `Goals`' weights).
-    pub const ALL: [Goal; 6] = [
+    pub const ALL: [Goal; 8] = [
         Goal::GainError,
         Goal::Offset,
         Goal::PartCount,
         Goal::BomLines,
         Goal::Capacitance,
         Goal::Cost,
+        Goal::Noise,
+        Goal::DividerCurrent,
     ];
 
     /// The key in `[goals]`.
@@ -254,6 +261,8 @@ impl Goal {
             Goal::BomLines => "bom_lines",
             Goal::Capacitance => "capacitance",
             Goal::Cost => "cost",
+            Goal::Noise => "noise",
+            Goal::DividerCurrent => "divider_current",
         }
     }
 
@@ -267,6 +276,13 @@ impl Goal {
             Goal::Offset => 0.5,
             Goal::PartCount | Goal::BomLines | Goal::Capacitance => 0.1,
             Goal::Cost => 1.0,
+            // Two dB of noise cost as much as one more piece, or a decade of capacitance: a
+            // decade of impedance level where a resistor's noise dominates (10 dB) is worth
+            // the larger coupling capacitor it needs, the last dB above the op-amp's own
+            // noise is not worth a capacitor ten times the size (common practice).
+            Goal::Noise => 0.05,
+            // A milliamp from the supply costs as much as one more piece (common practice).
+            Goal::DividerCurrent => 0.1,
         }
     }
 

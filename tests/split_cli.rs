@@ -157,7 +157,10 @@ fn the_diagnosis_names_a_split_supply_requirement() {
     let text = std::fs::read_to_string(root.join("examples/bridge-sensor-difference.toml"))
         .unwrap()
         .replace("cmrr_min = \"50 dB\"", "cmrr_min = \"70 dB\"")
-        .replace("input_resistance_min = \"10k\"", "input_resistance_min = \"9k\"")
+        .replace(
+            "input_resistance_min = \"10k\"",
+            "input_resistance_min = \"9k\"",
+        )
         .replace("\"../inventories/lab-stock.csv\"", &format!("{csv:?}"));
     let spec = dir.path().join("cmrr.toml");
     std::fs::write(&spec, text).unwrap();

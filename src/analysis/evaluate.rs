@@ -173,6 +173,11 @@ pub struct Metrics {
     /// The two-input figures of a difference stage.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub difference: Option<DifferenceReport>,
+    /// Highest input-referred noise over the band across the tolerance corners, V rms (once
+    /// one is over the limit, the highest found so far); only with `input_noise_max` (the
+    /// band integral at every vertex is too slow otherwise).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub input_noise_worst_v: Option<f64>,
 }
 
 /// Everything known about one build.
@@ -210,11 +215,7 @@ pub fn complete(
     evaluation: &mut Evaluation,
     yield_options: Option<&yield_mc::YieldOptions>,
 ) {
-    let a = &spec.amplifier;
-    let inputs = noise::NoiseInputs::new(
-        a.noise_voltage.unwrap_or(0.0),
-        a.noise_current.unwrap_or(0.0),
-    );
+    let inputs = noise::NoiseInputs::of(spec);
     evaluation.noise = Some(noise::noise(&inputs, stage, spec, &build.values()));
     evaluation.dc_budget = Some(budget::dc_budget(spec, stage, build));
     evaluation.yield_report = yield_options
@@ -628,6 +629,9 @@ fn evaluate_with(
         networks,
         output_offset_worst_v: output_offset_worst,
         difference,
+        input_noise_worst_v: spec
+            .input_noise_max
+            .map(|max| worst_input_noise(spec, stage, &v, &vertices, max)),
     };
     let mut checks = checks(spec, &metrics, &caps, &power, stock.map(|s| s.fits(&parts)));
     // The corner checks' verdicts: the band's edge at most 3 dB down at every vertex (the
@@ -723,6 +727,28 @@ fn difference_report(
         common_mode_max_v: hi / k_max,
         pairs,
     })
+}
+
+/// Input-referred noise over the band (output rms over the band ÷ |mid-band gain|,
+/// `analysis::noise`) at the nominal values and every tolerance vertex, the highest. Noise is
+/// not monotone in a capacitor, so every vertex is computed; once the nominal build or a
+/// vertex is over `max` the rest cannot change the verdict, and that figure is returned.
+fn worst_input_noise(
+    spec: &Spec,
+    stage: &dyn Circuit,
+    v: &[f64],
+    vertices: &[Vec<f64>],
+    max: f64,
+) -> f64 {
+    let inputs = noise::NoiseInputs::of(spec);
+    let mut worst = noise::noise(&inputs, stage, spec, v).input_rms_v;
+    for x in vertices {
+        if worst > max {
+            break;
+        }
+        worst = worst.max(noise::noise(&inputs, stage, spec, x).input_rms_v);
+    }
+    worst
 }
 
 /// Power rating of a realisation: the weakest piece scaled by its share (series pieces carry
@@ -988,6 +1014,16 @@ fn checks(
             Bound::Max,
             max,
             Unit::Ampere,
+        ));
+    }
+    if let (Some(max), Some(noise_worst)) = (spec.input_noise_max, m.input_noise_worst_v) {
+        out.push(Check::new(
+            "input_noise",
+            format!("{worst} input-referred noise over the band"),
+            noise_worst,
+            Bound::Max,
+            max,
+            Unit::Volt,
         ));
     }
     if let Some(fits) = fits {

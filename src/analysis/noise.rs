@@ -32,12 +32,9 @@ use crate::spec::Spec;
 use num_complex::Complex64;
 use serde::Serialize;
 
-/// Boltzmann constant, J/K: exact in the 2019 SI (SI Brochure, 9th edition).
-pub const BOLTZMANN: f64 = 1.380649e-23;
-
-/// Temperature of the noise figures, K: 300 K, the round room temperature noise texts use
-/// (common practice).
-pub const DEFAULT_TEMPERATURE: f64 = 300.0;
+/// The Boltzmann constant and the default temperature live with the noise goal
+/// (`objective::noise`), which the circuits' mid-band figure reads too.
+pub use crate::objective::noise::{BOLTZMANN, DEFAULT_TEMPERATURE};
 
 /// The op-amp's noise figures and the temperature.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
@@ -51,6 +48,15 @@ pub struct NoiseInputs {
 }
 
 impl NoiseInputs {
+    /// The spec's amplifier's e_n and i_n (0 for a figure it omits), at 300 K.
+    pub fn of(spec: &Spec) -> NoiseInputs {
+        let a = &spec.amplifier;
+        NoiseInputs::new(
+            a.noise_voltage.unwrap_or(0.0),
+            a.noise_current.unwrap_or(0.0),
+        )
+    }
+
     /// e_n and i_n at the default 300 K.
     pub fn new(voltage_density: f64, current_density: f64) -> NoiseInputs {
         NoiseInputs {
@@ -255,6 +261,8 @@ supply = "9 V"
 gain = -1
 load = "10k"
 band = ["20 Hz", "20 kHz"]
+# Ideal resistors: the textbook sums have no stray capacitance.
+stray_capacitance = 0
 "#;
 
     fn spec(text: &str) -> Spec {
@@ -341,6 +349,7 @@ supply = "12 V"
 gain = 11
 load = "10k"
 band = ["20 Hz", "20 kHz"]
+stray_capacitance = 0
 source_resistance = "600"
 output_peak = "3 V"
 "#;
@@ -452,5 +461,33 @@ output_peak = "3 V"
                 "in"
             ]
         );
+    }
+
+    #[test]
+    fn the_goals_mid_band_figure_is_this_modules_sum_over_the_gain() {
+        // `Figures::noise` (the noise goal's closed forms in each circuit) against the sum of
+        // this module's transfers at mid-band (1 F capacitors, ideal op-amp), over |gain|², with
+        // and without a source resistance, e_n and i_n on.
+        for rs in [0.0, 600.0, 47e3] {
+            let mut inv = spec(INVERTING);
+            let mut non = spec(NON_INVERTING);
+            for s in [&mut inv, &mut non] {
+                s.source_resistance = rs;
+                s.amplifier.noise_voltage = Some(9e-9);
+                s.amplifier.noise_current = Some(0.7e-12);
+            }
+            let cases = [
+                (inv, vec![12e3, 56e3, 150e3, 82e3, 1.0, 1.0]),
+                (non, vec![1.0, 330e3, 180e3, 47e3, 4.7e3, 1.0, 1.0]),
+            ];
+            for (s, v) in &cases {
+                let stage = circuit_for(s.stage);
+                let inputs = NoiseInputs::new(9e-9, 0.7e-12);
+                let psd = output_psd(&inputs, stage, s, v, &OpAmp { gbw: None }, 1e3);
+                let want = density(&psd).powi(2) / stage.mid_gain(s, v).powi(2);
+                let got = stage.figures(s, v).noise;
+                assert_relative_eq!(got, want, max_relative = 1e-9);
+            }
+        }
     }
 }

@@ -16,6 +16,8 @@ supply = "24 V"
 gain = -10
 load = "10k"
 band = ["20 Hz", "20 kHz"]
+# Ideal resistors: the textbook formulas have no stray capacitance.
+stray_capacitance = 0
 output_peak = "10 V"
 
 [amplifier]

@@ -172,6 +172,8 @@ enum Judge {
     CommonModeHigh(f64),
     /// Its bottom at or below this level, V.
     CommonModeLow(f64),
+    /// The most input-referred noise over the band, V rms.
+    InputNoise(f64),
 }
 
 /// The judges in `analysis::checks` order, with their check names.
@@ -276,6 +278,9 @@ fn judges(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Vec<(String, Judge
             "common_mode_low".into(),
             Judge::CommonModeLow(spec.source_dc - half),
         ));
+    }
+    if let Some(max) = spec.input_noise_max {
+        out.push(("input_noise".into(), Judge::InputNoise(max)));
     }
     out
 }
@@ -445,6 +450,11 @@ pub fn monte_carlo(
                             passes(lo / k, Bound::Max, level)
                         }
                     })
+                }
+                Judge::InputNoise(max) => {
+                    let inputs = super::noise::NoiseInputs::of(spec);
+                    let n = super::noise::noise(&inputs, stage, spec, &x);
+                    passes(n.input_rms_v, Bound::Max, max)
                 }
             };
             *count += usize::from(ok);

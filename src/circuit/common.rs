@@ -60,6 +60,39 @@ pub fn high_pass(r: f64, c: f64, f: f64) -> Complex64 {
     Complex64::new(r, 0.0) / (Complex64::new(r, 0.0) + zc)
 }
 
+/// A resistor's impedance with the spec's stray capacitance across it, R/(1 + jωRC_s)
+/// (circuit theory); R itself without one.
+pub fn resistor_z(spec: &Spec, r: f64, f: f64) -> Complex64 {
+    let x = 2.0 * PI * f * r * spec.stray_capacitance;
+    Complex64::new(r, 0.0) / Complex64::new(1.0, x)
+}
+
+/// The thermal noise resistance of a resistor with its stray capacitance across it: Re Z =
+/// R/(1 + (ωRC_s)²), so that 4kT·Re Z is the one-port's open-circuit noise (Nyquist 1928,
+/// the noise of a passive impedance).
+pub fn resistor_noise_r(spec: &Spec, r: f64, f: f64) -> f64 {
+    resistor_z(spec, r, f).re
+}
+
+/// The source's impedance at f: its resistance, in series with its capacitance when the spec
+/// gives one.
+pub fn source_z(spec: &Spec, f: f64) -> Complex64 {
+    let r = Complex64::new(spec.source_resistance, 0.0);
+    match spec.source_capacitance {
+        Some(c) => r + Complex64::new(0.0, -1.0 / (2.0 * PI * f * c)),
+        None => r,
+    }
+}
+
+/// The input coupling capacitor in series with the source's capacitance (series capacitors,
+/// C₁C₂/(C₁ + C₂)), rising in `c_in`: the capacitance of the input network's corner.
+pub fn with_source_capacitance<T: Num>(spec: &Spec, c_in: T) -> T {
+    match spec.source_capacitance {
+        Some(cs) => T::monotone(|[c]| c * cs / (c + cs), [c_in], [true]),
+        None => c_in,
+    }
+}
+
 /// Loss of a first-order high-pass at f: 10·log10(1 + (fc/f)²) dB.
 pub fn high_pass_loss_db(r: f64, c: f64, f: f64) -> f64 {
     let fc = 1.0 / (2.0 * PI * r * c);

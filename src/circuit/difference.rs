@@ -125,6 +125,28 @@ fn error_bound<T: Num>(spec: &Spec, v: &[T]) -> T {
         + T::c(a.input_offset_current / 2.0) * (v[R_2] + rpn)
 }
 
+/// Mid-band input-referred noise density of the differential input, V²/Hz, for the `noise`
+/// goal (capacitors none, ideal op-amp), with the legs taken as matched (G = R_2/R_1, the
+/// inverting leg's gain): the output's 4kT·R_2 + 4kT·R_1·G² + i_n²·R_2² + (4kT·R_p + e_n² +
+/// i_n²·R_p²)·(1 + G)², R_p = R_3 ∥ R_4, over G² (the usual superposition of uncorrelated
+/// sources, common practice). Rising in R_1, R_3, R_4, falling in R_2.
+fn noise_density<T: Num>(spec: &Spec, r1: T, r2: T, r3: T, r4: T) -> T {
+    let four_kt = crate::objective::noise::four_kt();
+    let (en2, in2) = crate::objective::noise::amplifier_powers(spec);
+    T::monotone(
+        |[a, b, c, d]| {
+            let rp = c * d / (c + d);
+            let k = 1.0 + a / b;
+            four_kt * a * a / b
+                + four_kt * a
+                + in2 * a * a
+                + (four_kt * rp + en2 + in2 * rp * rp) * k * k
+        },
+        [r1, r2, r3, r4],
+        [true, false, true, true],
+    )
+}
+
 fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
     let (r1, r2, r3, r4) = legs(spec, v);
     let ad = a_d(r1, r2, r3, r4);
@@ -145,6 +167,7 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
         },
         bias_current: None,
         networks: Networks::new(),
+        noise: noise_density(spec, r1, r2, r3, r4),
         cm_ratio: Some((acm / ad).abs()),
         matched_gain: Some(T::monotone(|[a, b]| b / a, [r1, r2], [false, true])),
     }

@@ -102,7 +102,44 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
         networks: networks(spec, v),
         cm_ratio: None,
         matched_gain: None,
+        noise: noise_density(spec, v[R_IN], fb, hi, lo),
     }
+}
+
+/// Mid-band input-referred noise power density, V²/Hz (capacitors shorted, ideal op-amp): the
+/// output sum of `analysis::noise` (R_fb as is, R_s + R_in times the gain, the divider, e_n
+/// and i_n at + times the noise gain, i_n at − through R_fb) over the gain² R_fb²/R_i²,
+/// R_i = R_s + R_in, k = 1 + R_i/R_fb:
+///   e² = 4kT·R_i + 4kT·R_i²/R_fb + (4kT·R_p + e_n² + i_n²·R_p²)·k² + i_n²·R_i².
+/// Rising in R_in and in each divider resistor (R_p = R_hi ∥ R_lo), falling in R_fb.
+/// `with_divider` false: the divider's share left out (the bound with R_p = 0 the search uses before
+/// the divider is chosen).
+fn noise_density_parts<T: Num>(spec: &Spec, r_in: T, fb: T, hi: T, lo: T, with_divider: bool) -> T {
+    let rs = spec.source_resistance;
+    let four_kt = crate::objective::noise::four_kt();
+    let (en2, in2) = crate::objective::noise::amplifier_powers(spec);
+    T::monotone(
+        |[r_in, fb, hi, lo]| {
+            let ri = rs + r_in;
+            let k = 1.0 + ri / fb;
+            let rp = if with_divider {
+                hi * lo / (hi + lo)
+            } else {
+                0.0
+            };
+            four_kt * ri
+                + four_kt * ri * ri / fb
+                + (four_kt * rp + en2 + in2 * rp * rp) * k * k
+                + in2 * ri * ri
+        },
+        [r_in, fb, hi, lo],
+        [true, false, true, true],
+    )
+}
+
+/// The whole mid-band input noise density ([`noise_density_parts`] with the divider).
+fn noise_density<T: Num>(spec: &Spec, r_in: T, fb: T, hi: T, lo: T) -> T {
+    noise_density_parts(spec, r_in, fb, hi, lo, true)
 }
 
 /// The coupling networks of [`figures`]: c_in with the source and r_in, c_out with the load.
@@ -115,7 +152,11 @@ fn networks<T: Num>(spec: &Spec, v: &[T]) -> Networks<T> {
         shelf: None,
     };
     smallvec::smallvec![
-        plain(T::c(spec.source_resistance) + v[R_IN], v[C_IN], C_IN),
+        plain(
+            T::c(spec.source_resistance) + v[R_IN],
+            common::with_source_capacitance(spec, v[C_IN]),
+            C_IN,
+        ),
         plain(T::c(spec.load), v[C_OUT], C_OUT),
     ]
 }
@@ -177,10 +218,13 @@ impl Circuit for Inverting {
 
     /// V_out/V_s = −(Z_f/Z_i) · 1/(1 + 1/(aβ)) · H_out with Z_i = R_s + R_in + 1/(jωC_in),
     /// β = Z_i/(Z_i + Z_f) (inverting amplifier with finite gain, any op-amp text).
+    /// Each resistor carries the spec's stray capacitance across it (`common::resistor_z`),
+    /// and Z_i the source's own capacitance in series (`common::source_z`).
     fn response(&self, spec: &Spec, v: &[f64], opamp: &OpAmp, f: f64) -> Complex64 {
-        let w = 2.0 * std::f64::consts::PI * f;
-        let zi = Complex64::new(spec.source_resistance + v[R_IN], -1.0 / (w * v[C_IN]));
-        let zf = Complex64::new(v[R_FB], 0.0);
+        let zi = common::source_z(spec, f)
+            + common::resistor_z(spec, v[R_IN], f)
+            + super::types::cap_z(v[C_IN], f);
+        let zf = common::resistor_z(spec, v[R_FB], f);
         let beta = zi / (zi + zf);
         let h_amp = -(zf / zi) * opamp.loop_factor(f, beta);
         h_amp * common::high_pass(spec.load, v[C_OUT], f)
@@ -192,7 +236,7 @@ impl Circuit for Inverting {
                 name: "input",
                 cap_slot: C_IN,
                 resistance: spec.source_resistance + v[R_IN],
-                capacitance: v[C_IN],
+                capacitance: common::with_source_capacitance(spec, v[C_IN]),
             },
             Network {
                 name: "output",
@@ -268,24 +312,28 @@ impl Circuit for Inverting {
 
     fn noise_circuit(&self, spec: &Spec, v: &[f64], f: f64) -> super::types::NoiseCircuit {
         use super::types::NoisePlace as Place;
-        let re = |r: f64| Complex64::new(r, 0.0);
         let name = |slot: usize| SLOTS[slot].name;
         let rs = spec.source_resistance;
         let mut resistors = Vec::new();
         // − input: R_fb to the output; R_in, c_in and the source's resistance to the
         // source (AC ground for noise). + input: the divider (the supply is AC ground).
+        // Each resistor with its stray capacitance: an impedance Z whose noise is 4kT·Re Z
+        // (`common::resistor_noise_r`).
         let (hi, lo) = (v[R_BIAS_HI], v[R_BIAS_LO]);
-        resistors.push((name(R_IN), v[R_IN], Place::Shunt));
+        let z = |r: f64| common::resistor_z(spec, r, f);
+        let noise_r = |r: f64| common::resistor_noise_r(spec, r, f);
+        resistors.push((name(R_IN), noise_r(v[R_IN]), Place::Shunt));
         if rs > 0.0 {
             resistors.push(("source_resistance", rs, Place::Shunt));
         }
-        resistors.push((name(R_FB), v[R_FB], Place::Feedback));
-        resistors.push((name(R_BIAS_HI), hi, Place::Plus(re(hi))));
-        resistors.push((name(R_BIAS_LO), lo, Place::Plus(re(lo))));
+        resistors.push((name(R_FB), noise_r(v[R_FB]), Place::Feedback));
+        resistors.push((name(R_BIAS_HI), noise_r(hi), Place::Plus(z(hi))));
+        resistors.push((name(R_BIAS_LO), noise_r(lo), Place::Plus(z(lo))));
+        let one = Complex64::new(1.0, 0.0);
         super::types::NoiseCircuit {
-            z_f: re(v[R_FB]),
-            z_s: re(rs + v[R_IN]) + super::types::cap_z(v[C_IN], f),
-            z_p: re(common::parallel(hi, lo)),
+            z_f: z(v[R_FB]),
+            z_s: common::source_z(spec, f) + z(v[R_IN]) + super::types::cap_z(v[C_IN], f),
+            z_p: one / (one / z(hi) + one / z(lo)),
             h_out: common::high_pass(spec.load, v[C_OUT], f),
             resistors,
         }
@@ -477,7 +525,19 @@ impl SearchPlan for Inverting {
                 None => plans::gain_other_first(spec, form, floor, None),
             },
             (0, _) => match get(parts, R_IN) {
-                Some(r_in) => plans::gain_fb(spec, form, r_in.value, None),
+                Some(r_in) => {
+                    // The noise share of the pair falls with r_fb: its least over the walk's
+                    // window is at the window's top (every r_fb above it fails the gain).
+                    let plan = plans::gain_fb(spec, form, r_in.value, None);
+                    let top = plan.window.1;
+                    let floor = if top.is_finite() {
+                        let d = noise_density_parts(spec, r_in.value, top, 1.0, 1.0, false);
+                        crate::objective::noise::points(spec, d) * (1.0 - 1e-9)
+                    } else {
+                        0.0
+                    };
+                    plan.plus(floor)
+                }
                 None => WalkPlan::free(),
             },
             (1, k) => {
@@ -490,7 +550,37 @@ impl SearchPlan for Inverting {
                     },
                 };
                 let walked = if k == 0 { R_BIAS_HI } else { R_BIAS_LO };
-                plans::divider_walk(spec, walked == R_BIAS_HI, parts, R_BIAS_HI, R_BIAS_LO, ctx)
+                let plan = plans::divider_walk(
+                    spec,
+                    walked == R_BIAS_HI,
+                    parts,
+                    R_BIAS_HI,
+                    R_BIAS_LO,
+                    ctx,
+                );
+                // r_bias_lo with r_bias_hi and the gain pair chosen: the divider's noise share
+                // rises with it, its current's falls (each ≥ 0 on the other side).
+                match (k, get(parts, R_BIAS_HI), get(parts, R_IN), get(parts, R_FB)) {
+                    (1, Some(hi), Some(r_in), Some(r_fb)) => {
+                        let (hi, r_in, r_fb) = (hi.value, r_in.value, r_fb.value);
+                        let part = noise_density_parts(spec, r_in, r_fb, 1.0, 1.0, false);
+                        let noise = move |lo: f64| {
+                            // A walk's far end may be read at ∞: R_p is then r_bias_hi.
+                            let whole = noise_density(spec, r_in, r_fb, hi, lo.min(1e30));
+                            let d = crate::objective::noise::points(spec, whole)
+                                - crate::objective::noise::points(spec, part);
+                            d.max(0.0) * (1.0 - 1e-9)
+                        };
+                        let current = move |lo: f64| {
+                            crate::objective::divider_current::points(
+                                spec,
+                                common::divider_current(spec.supply, hi, lo),
+                            ) * (1.0 - 1e-9)
+                        };
+                        plan.plus_sides(noise, current)
+                    }
+                    _ => plan,
+                }
             }
             (2, _) => {
                 // Before r_in is chosen, the largest r_in the gain window lets an r_fb inside
@@ -581,10 +671,15 @@ impl SearchPlan for Inverting {
                 if !common::gain_window_ok(spec, lo, hi) {
                     return None;
                 }
-                Some(crate::objective::gain::points(
-                    spec,
-                    -r_fb.value / (spec.source_resistance + r_in.value),
-                ))
+                // The noise goal's share so far: the density without the divider (R_p = 0),
+                // a lower bound of the whole; the divider's group adds the rest.
+                let noise = noise_density_parts(spec, r_in.value, r_fb.value, 1.0, 1.0, false);
+                Some(
+                    crate::objective::gain::points(
+                        spec,
+                        -r_fb.value / (spec.source_resistance + r_in.value),
+                    ) + crate::objective::noise::points(spec, noise),
+                )
             }
             1 => {
                 let (r_in, r_fb) = (get(parts, R_IN)?, get(parts, R_FB)?);
@@ -598,7 +693,16 @@ impl SearchPlan for Inverting {
                     return None;
                 }
                 let err = common::offset_error(spec, hi.value, lo.value, r_fb.value);
-                Some(crate::objective::offset::points(spec, err))
+                let part = noise_density_parts(spec, r_in.value, r_fb.value, 1.0, 1.0, false);
+                let whole = noise_density(spec, r_in.value, r_fb.value, hi.value, lo.value);
+                let noise = crate::objective::noise::points(spec, whole)
+                    - crate::objective::noise::points(spec, part);
+                let current = common::divider_current(spec.supply, hi.value, lo.value);
+                Some(
+                    crate::objective::offset::points(spec, err)
+                        + noise.max(0.0)
+                        + crate::objective::divider_current::points(spec, current),
+                )
             }
             2 => {
                 let (r_in, c_in) = (get(parts, R_IN)?, get(parts, C_IN)?);

@@ -155,7 +155,34 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
         networks: networks(spec, v),
         cm_ratio: None,
         matched_gain: None,
+        noise: noise_density(spec, hi, lo, fb, v[R_G]),
     }
+}
+
+/// Mid-band input-referred noise power density, V²/Hz (capacitors shorted, ideal op-amp).
+/// With Z_p = R_s ∥ R_p at +, NG = 1 + R_fb/R_g and the gain NG·R_p/(R_s + R_p), the output
+/// sum of `analysis::noise` over the gain² is, with a = R_fb ∥ R_g and k = 1 + R_s/R_p:
+///   e² = (4kT·a + i_n²·a²)·k² + 4kT·R_s·k + e_n²·k² + i_n²·R_s²
+/// (R_fb and R_g together are the noise of their parallel value at the input; Z_p·k = R_s).
+/// Rising in R_fb and R_g, falling in each divider resistor; without a source resistance
+/// k = 1 and the divider drops out (the source shorts the + input at mid-band).
+fn noise_density<T: Num>(spec: &Spec, hi: T, lo: T, fb: T, g: T) -> T {
+    let rs = spec.source_resistance;
+    let four_kt = crate::objective::noise::four_kt();
+    let (en2, in2) = crate::objective::noise::amplifier_powers(spec);
+    T::monotone(
+        |[hi, lo, fb, g]| {
+            let a = fb * g / (fb + g);
+            let k = if rs > 0.0 {
+                1.0 + rs * (hi + lo) / (hi * lo)
+            } else {
+                1.0
+            };
+            (four_kt * a + in2 * a * a) * k * k + four_kt * rs * k + en2 * k * k + in2 * rs * rs
+        },
+        [hi, lo, fb, g],
+        [false, false, true, true],
+    )
 }
 
 /// The coupling networks of [`figures`]: c_in with the source and the divider, the gain leg
@@ -172,7 +199,13 @@ fn networks<T: Num>(spec: &Spec, v: &[T]) -> Networks<T> {
     };
     let ng = T::monotone(|[f, g]| 1.0 + f / g, [v[R_FB], v[R_G]], [true, false]);
     smallvec::smallvec![
-        network(T::c(spec.source_resistance) + rp, v[C_IN], true, C_IN, None),
+        network(
+            T::c(spec.source_resistance) + rp,
+            common::with_source_capacitance(spec, v[C_IN]),
+            true,
+            C_IN,
+            None,
+        ),
         network(v[R_G], v[C_G], false, C_G, Some(ng)),
         network(T::c(spec.load), v[C_OUT], true, C_OUT, None),
     ]
@@ -346,13 +379,15 @@ impl Circuit for NonInverting {
 
     /// V_out/V_s = H_in · (1/β) · 1/(1 + 1/(aβ)) · H_out, with H_in = R_p/(R_p + R_s + 1/(jωC_in))
     /// and β = Z_g/(Z_g + R_fb), Z_g = R_g + 1/(jωC_g) (feedback theory).
+    /// Each resistor carries the spec's stray capacitance across it (`common::resistor_z`),
+    /// and the source its own capacitance in series (`common::source_z`).
     fn response(&self, spec: &Spec, v: &[f64], opamp: &OpAmp, f: f64) -> Complex64 {
-        let w = 2.0 * PI * f;
-        let rp = Self::rp(v[R_BIAS_HI], v[R_BIAS_LO]);
-        let h_in = Complex64::new(rp, 0.0)
-            / Complex64::new(rp + spec.source_resistance, -1.0 / (w * v[C_IN]));
-        let zg = Complex64::new(v[R_G], -1.0 / (w * v[C_G]));
-        let beta = zg / (zg + v[R_FB]);
+        let z = |r: f64| common::resistor_z(spec, r, f);
+        let one = Complex64::new(1.0, 0.0);
+        let zp = one / (one / z(v[R_BIAS_HI]) + one / z(v[R_BIAS_LO]));
+        let h_in = zp / (zp + common::source_z(spec, f) + super::types::cap_z(v[C_IN], f));
+        let zg = z(v[R_G]) + super::types::cap_z(v[C_G], f);
+        let beta = zg / (zg + z(v[R_FB]));
         let h_amp = opamp.loop_factor(f, beta) / beta;
         h_in * h_amp * common::high_pass(spec.load, v[C_OUT], f)
     }
@@ -363,7 +398,7 @@ impl Circuit for NonInverting {
                 name: "input",
                 cap_slot: C_IN,
                 resistance: spec.source_resistance + Self::rp(v[R_BIAS_HI], v[R_BIAS_LO]),
-                capacitance: v[C_IN],
+                capacitance: common::with_source_capacitance(spec, v[C_IN]),
             },
             Network {
                 name: "gain leg",
@@ -463,20 +498,24 @@ impl Circuit for NonInverting {
         let mut resistors = Vec::new();
         // − input: R_fb to the output, R_g + c_g to ground. + input: the divider in
         // parallel with the input branch (c_in and the source's resistance).
+        // Each resistor with its stray capacitance: an impedance Z whose noise is 4kT·Re Z
+        // (`common::resistor_noise_r`); the source branch with its own capacitance.
         let (hi, lo) = (v[R_BIAS_HI], v[R_BIAS_LO]);
-        let branch = re(rs) + super::types::cap_z(v[C_IN], f);
+        let z = |r: f64| common::resistor_z(spec, r, f);
+        let noise_r = |r: f64| common::resistor_noise_r(spec, r, f);
+        let branch = common::source_z(spec, f) + super::types::cap_z(v[C_IN], f);
         let one = re(1.0);
-        let z_p = one / (one / hi + one / lo + one / branch);
-        resistors.push((name(R_BIAS_HI), hi, Place::Plus(re(hi))));
-        resistors.push((name(R_BIAS_LO), lo, Place::Plus(re(lo))));
+        let z_p = one / (one / z(hi) + one / z(lo) + one / branch);
+        resistors.push((name(R_BIAS_HI), noise_r(hi), Place::Plus(z(hi))));
+        resistors.push((name(R_BIAS_LO), noise_r(lo), Place::Plus(z(lo))));
         if rs > 0.0 {
             resistors.push(("source_resistance", rs, Place::Plus(branch)));
         }
-        resistors.push((name(R_FB), v[R_FB], Place::Feedback));
-        resistors.push((name(R_G), v[R_G], Place::Shunt));
+        resistors.push((name(R_FB), noise_r(v[R_FB]), Place::Feedback));
+        resistors.push((name(R_G), noise_r(v[R_G]), Place::Shunt));
         super::types::NoiseCircuit {
-            z_f: re(v[R_FB]),
-            z_s: re(v[R_G]) + super::types::cap_z(v[C_G], f),
+            z_f: z(v[R_FB]),
+            z_s: z(v[R_G]) + super::types::cap_z(v[C_G], f),
             z_p,
             h_out: common::high_pass(spec.load, v[C_OUT], f),
             resistors,
@@ -710,7 +749,25 @@ impl SearchPlan for NonInverting {
                     }
                 } else {
                     match get(parts, R_G) {
-                        Some(r_g) => plans::gain_fb(spec, form, r_g.value, comp),
+                        Some(r_g) => {
+                            // The noise share (the whole noise: without a source resistance
+                            // the pair alone makes it, with one the divider is chosen) rises
+                            // with r_fb: its least over the walk's window is at the bottom.
+                            let plan = plans::gain_fb(spec, form, r_g.value, comp);
+                            let (hi, lo) = match divider {
+                                Some((hi, lo)) if rs > 0.0 => (hi.value, lo.value),
+                                _ if rs > 0.0 => (f64::INFINITY, f64::INFINITY),
+                                _ => (1.0, 1.0),
+                            };
+                            let bottom = plan.window.0;
+                            let floor = if bottom > 0.0 && bottom.is_finite() && hi.is_finite() {
+                                let d = noise_density(spec, hi, lo, bottom, r_g.value);
+                                crate::objective::noise::points(spec, d) * (1.0 - 1e-9)
+                            } else {
+                                0.0
+                            };
+                            plan.plus(floor)
+                        }
                         None => WalkPlan::free(),
                     }
                 }
@@ -729,7 +786,28 @@ impl SearchPlan for NonInverting {
                     },
                 };
                 let walked = if k == 0 { R_BIAS_HI } else { R_BIAS_LO };
-                plans::divider_walk(spec, walked == R_BIAS_HI, parts, R_BIAS_HI, R_BIAS_LO, ctx)
+                let plan = plans::divider_walk(
+                    spec,
+                    walked == R_BIAS_HI,
+                    parts,
+                    R_BIAS_HI,
+                    R_BIAS_LO,
+                    ctx,
+                );
+                // r_bias_lo with r_bias_hi chosen: the divider current's share falls with it.
+                match (k, get(parts, R_BIAS_HI)) {
+                    (1, Some(hi)) => {
+                        let hi = hi.value;
+                        let current = move |lo: f64| {
+                            crate::objective::divider_current::points(
+                                spec,
+                                common::divider_current(spec.supply, hi, lo),
+                            ) * (1.0 - 1e-9)
+                        };
+                        plan.plus_sides(|_| 0.0, current)
+                    }
+                    _ => plan,
+                }
             }
             Which::CapIn => {
                 // Before the divider is chosen: R_p is at most half the largest resistor.
@@ -910,10 +988,12 @@ impl SearchPlan for NonInverting {
                     if !common::gain_window_ok(spec, lo, hi) {
                         return None;
                     }
-                    return Some(crate::objective::gain::points(
-                        spec,
-                        1.0 + r_fb.value / r_g.value,
-                    ));
+                    // Without a source resistance the noise needs the gain pair alone.
+                    let noise = noise_density(spec, 1.0, 1.0, r_fb.value, r_g.value);
+                    return Some(
+                        crate::objective::gain::points(spec, 1.0 + r_fb.value / r_g.value)
+                            + crate::objective::noise::points(spec, noise),
+                    );
                 }
                 // Decided after the divider: the whole gain, the swing at the highest gain,
                 // and the offset terms that need R_fb.
@@ -930,9 +1010,11 @@ impl SearchPlan for NonInverting {
                 let gain = (1.0 + r_fb.value / r_g.value) * rp / (rs + rp);
                 let comp = spec.amplifier.input_bias_current * (r_fb.value - rp).abs()
                     + spec.amplifier.input_offset_current / 2.0 * r_fb.value;
+                let noise = noise_density(spec, hi.value, lo.value, r_fb.value, r_g.value);
                 Some(
                     crate::objective::gain::points(spec, gain)
-                        + crate::objective::offset::points(spec, comp),
+                        + crate::objective::offset::points(spec, comp)
+                        + crate::objective::noise::points(spec, noise),
                 )
             }
             Which::Divider => {
@@ -948,13 +1030,17 @@ impl SearchPlan for NonInverting {
                 }
                 let (vmin, vmax) = common::divider_range(spec, hi, lo);
                 let swing = common::swing(spec, vmin, vmax);
+                let current = crate::objective::divider_current::points(
+                    spec,
+                    common::divider_current(spec.supply, hi.value, lo.value),
+                );
                 if rs > 0.0 {
                     // Decided first: the gain is not known yet, only its window's floor.
                     if !common::swing_ok(spec, swing, Self::gain_floor(spec)) {
                         return None;
                     }
                     let err = common::divider_error(spec, hi.value, lo.value);
-                    return Some(crate::objective::offset::points(spec, err));
+                    return Some(crate::objective::offset::points(spec, err) + current);
                 }
                 let (r_fb, r_g) = (get(parts, R_FB)?, get(parts, R_G)?);
                 let (_, g_hi) = Self::gain_range(spec, r_fb, r_g, Some((hi, lo)));
@@ -962,7 +1048,7 @@ impl SearchPlan for NonInverting {
                     return None;
                 }
                 let err = common::offset_error(spec, hi.value, lo.value, r_fb.value);
-                Some(crate::objective::offset::points(spec, err))
+                Some(crate::objective::offset::points(spec, err) + current)
             }
             Which::CapIn => {
                 let c_in = get(parts, C_IN)?;

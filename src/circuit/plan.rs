@@ -94,6 +94,42 @@ impl<'s> WalkPlan<'s> {
     }
 }
 
+impl<'s> WalkPlan<'s> {
+    /// The plan with a share's monotone terms added to its bound: `above(v)`, never
+    /// decreasing in v, for the candidates above the start, and `below(v)`, never increasing
+    /// in v, below it — each a lower bound of the terms there (the divider's noise rises with
+    /// r_bias_lo, its current falls). Read at the start clamped to its side, so the bound
+    /// still never decreases moving away from the start (the walk contract).
+    pub fn plus_sides(
+        self,
+        above: impl Fn(f64) -> f64 + 's,
+        below: impl Fn(f64) -> f64 + 's,
+    ) -> WalkPlan<'s> {
+        let inner = self.bound;
+        let t = self.target;
+        WalkPlan {
+            bound: Box::new(move |v, up| {
+                inner(v, up).map(|b| b + if up { above(v.max(t)) } else { below(v.min(t)) })
+            }),
+            ..self
+        }
+    }
+
+    /// The plan with `floor` added to every bound: a share that also holds a term whose least
+    /// value over the window is `floor` (the noise goal's share of the gain pair over the
+    /// feedback resistor's window). A constant keeps the bound's shape, so the contract holds.
+    pub fn plus(self, floor: f64) -> WalkPlan<'s> {
+        if floor <= 0.0 {
+            return self;
+        }
+        let inner = self.bound;
+        WalkPlan {
+            bound: Box::new(move |v, up| inner(v, up).map(|b| b + floor)),
+            ..self
+        }
+    }
+}
+
 impl WalkPlan<'static> {
     /// No preference: every candidate, cheapest first (a walk up from the bottom).
     pub fn free() -> WalkPlan<'static> {

@@ -182,6 +182,40 @@ impl DcStage {
         T::c(spec.source_dc) * self.gain(spec, v)
     }
 
+    /// Mid-band input-referred noise density, V²/Hz, for the `noise` goal (ideal op-amp,
+    /// uncorrelated sources summed in power: common practice). Inverting, R_i = R_s + R_in,
+    /// k = 1 + R_i/R_fb: 4kT·R_i + 4kT·R_i²/R_fb + (4kT·R₊ + e_n² + i_n²·R₊²)·k² + i_n²·R_i²
+    /// (rising in R_in and R₊, falling in R_fb). Non-inverting, R_∥ = R_fb ∥ R_g (the
+    /// feedback pair's noise over the gain): 4kT·R₊ + i_n²·R₊² + e_n² + 4kT·R_∥ + i_n²·R_∥²
+    /// (rising in every resistor).
+    fn noise_density<T: Num>(&self, spec: &Spec, v: &[T]) -> T {
+        let four_kt = crate::objective::noise::four_kt();
+        let (en2, in2) = crate::objective::noise::amplifier_powers(spec);
+        let (r1, rp) = (self.r1(spec, v), self.r_plus(spec, v));
+        if self.inverting {
+            T::monotone(
+                |[ri, fb, p]| {
+                    let k = 1.0 + ri / fb;
+                    four_kt * ri
+                        + four_kt * ri * ri / fb
+                        + (four_kt * p + en2 + in2 * p * p) * k * k
+                        + in2 * ri * ri
+                },
+                [r1, v[R_FB], rp],
+                [true, false, true],
+            )
+        } else {
+            T::monotone(
+                |[g, fb, p]| {
+                    let par = g * fb / (g + fb);
+                    four_kt * p + in2 * p * p + en2 + four_kt * par + in2 * par * par
+                },
+                [r1, v[R_FB], rp],
+                [true, true, true],
+            )
+        }
+    }
+
     fn figures<T: Num>(&self, spec: &Spec, v: &[T]) -> Figures<T> {
         let centre = DcErrors::centre(spec);
         Figures {
@@ -196,6 +230,7 @@ impl DcStage {
             dc_error: self.error_spread(spec, v),
             bias_current: None,
             networks: Networks::new(),
+            noise: self.noise_density(spec, v),
             cm_ratio: None,
             matched_gain: None,
         }

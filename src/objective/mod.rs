@@ -13,8 +13,10 @@
 
 pub mod capacitance;
 pub mod cost;
+pub mod divider_current;
 pub mod gain;
 pub mod lines;
+pub mod noise;
 pub mod offset;
 pub mod part_count;
 pub mod term;
@@ -34,6 +36,8 @@ pub const TERMS: &[&dyn Term] = &[
     &lines::BomLines,
     &capacitance::Capacitance,
     &cost::Cost,
+    &noise::Noise,
+    &divider_current::DividerCurrent,
 ];
 
 fn of_scope(scope: Scope) -> impl Iterator<Item = &'static dyn Term> {

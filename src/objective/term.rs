@@ -57,6 +57,10 @@ pub struct Figures<T> {
     /// inverting leg's gain, with A_d = A₁ + A_cm/2 (`circuit::difference`). The generic plan
     /// narrows the gain of every build that meets `cmrr_min` with it. `None` otherwise.
     pub matched_gain: Option<T>,
+    /// Mid-band input-referred noise power density, V²/Hz: the resistors' thermal noise and
+    /// the op-amp's e_n and i_n referred to the source EMF, capacitors shorted, ideal
+    /// op-amp (what the `noise` goal counts, `objective::noise`).
+    pub noise: T,
 }
 
 /// Where a term's points come from.

@@ -41,6 +41,8 @@ pub mod node {
     pub const IN: &str = "in";
     /// Far side of the source resistance, `in_rs` (only when it is not 0).
     pub const IN_RS: &str = "in_rs";
+    /// Far side of the source capacitance, `in_cs` (only when the spec gives one).
+    pub const IN_CS: &str = "in_cs";
     /// The op-amp's + pin, `inp`.
     pub const PLUS: &str = "inp";
     /// The + pin after the offset source, `inp_vos` (what the amplifier sees).
@@ -196,10 +198,15 @@ pub fn netlist(spec: &Spec, stage: &dyn Circuit, build: &Build) -> String {
     let amp = &spec.amplifier;
     let (lo, hi) = spec.output_limits();
     let split = spec.split();
-    let input = if spec.source_resistance > 0.0 {
+    let after_rs = if spec.source_resistance > 0.0 {
         node::IN_RS
     } else {
         node::IN
+    };
+    let input = if spec.source_capacitance.is_some() {
+        node::IN_CS
+    } else {
+        after_rs
     };
 
     // Header. The first line is the title of a standalone deck and a comment when the file
@@ -292,6 +299,18 @@ pub fn netlist(spec: &Spec, stage: &dyn Circuit, build: &Build) -> String {
             number(spec.source_resistance)
         );
     }
+    if let Some(c) = spec.source_capacitance {
+        let _ = writeln!(out, "* source_capacitance (the sensor's own, in series)");
+        let _ = writeln!(out, "C_S {after_rs} {} {}", node::IN_CS, number(c));
+        // Not a part: a DC path across it, so that the node between it and c_in sits at the
+        // source's DC level (as the analysis takes c_in's bias).
+        let _ = writeln!(
+            out,
+            "R_CS {after_rs} {} {}",
+            node::IN_CS,
+            number(BLEEDER_OHMS)
+        );
+    }
     let _ = writeln!(out, "* supply");
     let _ = writeln!(out, "V_CC {} 0 DC {}", node::SUPPLY, number(spec.supply));
     if split {
@@ -335,6 +354,19 @@ pub fn netlist(spec: &Spec, stage: &dyn Circuit, build: &Build) -> String {
                 ascii(slot.role)
             );
             let _ = writeln!(out, "{designator} {pa} {pb} {}", number(piece.value));
+        }
+        if part.kind == PartKind::Resistor && spec.stray_capacitance > 0.0 {
+            let _ = writeln!(
+                out,
+                "* {}: stray capacitance across the resistor (not a part)",
+                slot.name
+            );
+            let _ = writeln!(
+                out,
+                "C_STRAY_{} {a} {b} {}",
+                slot.name.to_uppercase(),
+                number(spec.stray_capacitance)
+            );
         }
         if part.arrangement == Arrangement::Series && part.kind == PartKind::Capacitor {
             n_bleed += 1;

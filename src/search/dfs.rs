@@ -76,6 +76,8 @@ struct Dfs<'a> {
     >,
     /// Every slot's range of candidates (for interval figures of a partial build).
     ranges: &'a [generic::SlotRange],
+    /// Every slot's `[range]` entry: a candidate outside it is skipped.
+    limits: Vec<Option<&'a crate::spec::SlotLimit>>,
     /// The plan the walks follow: the circuit's own or the generic one.
     plan: &'a dyn SearchPlan,
     tables: [Option<&'a Table>; 2],
@@ -114,7 +116,10 @@ thread_local! {
 }
 
 /// Tables kept for reuse: (kind, the ranking weights' bits) and the table.
-type TableCache = Vec<((usize, [u64; 6]), std::rc::Rc<Table>)>;
+type TableCache = Vec<(
+    (usize, [u64; crate::vocab::Goal::ALL.len()]),
+    std::rc::Rc<Table>,
+)>;
 
 /// Run `f` with the candidate tables of its searches kept and shared: every search of one
 /// pick (the search, then the diagnosis's few dozen relaxed searches) reads the same stock
@@ -242,13 +247,17 @@ fn search_tight(req: &Request, progress: &mut dyn FnMut(Progress)) -> Result<Out
     }
     // What every slot may be: its candidates' range (a locked slot: its part).
     let kind_ranges = [0, 1].map(|k| owned[k].as_deref().and_then(generic::SlotRange::of_table));
-    let ranges = (0..n)
-        .map(|i| match locked[i] {
+    // A slot's `[range]` entry narrows its kind's range (and its walk, `Dfs::descend`).
+    let limits = super::request::slot_limits(spec, stage);
+    let mut ranges = Vec::with_capacity(n);
+    for i in 0..n {
+        let range = match locked[i] {
             Some(p) => generic::SlotRange::of([p.slot_value()]),
-            None => kind_ranges[kind_index(slots[i].kind)],
-        })
-        .collect::<Option<Vec<_>>>()
-        .ok_or_else(|| no_candidates(req, 0))?;
+            None => kind_ranges[kind_index(slots[i].kind)]
+                .and_then(|r| limits[i].map_or(Some(r), |l| r.clipped(l.low, l.high))),
+        };
+        ranges.push(range.ok_or_else(|| no_candidates(req, i))?);
+    }
     // Every build lies in the box of those ranges: a requirement that fails on all of it
     // (the gain window against the resistors' range, a corner against the largest capacitor,
     // the swing against the op-amp's errors …) rules the stock out before any search.
@@ -399,6 +408,7 @@ fn explore<'a>(
         dc_level,
         dc_use: (0, 0),
         ranges,
+        limits: super::request::slot_limits(spec, stage),
         plan,
         tables,
         levels,
@@ -564,6 +574,9 @@ impl<'a> Dfs<'a> {
             }
             self.stats.nodes_by_level[level] += 1;
             let real = item.real;
+            if self.limits[lv.slot].is_some_and(|l| !l.admits(table.slot_value(&real).value)) {
+                continue;
+            }
             let (fits, new_lines) = self.take(ki, &real);
             if fits {
                 self.vals[lv.slot] = Some(table.slot_value(&real));

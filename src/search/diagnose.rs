@@ -153,6 +153,14 @@ const KNOBS: &[Knob] = &[
         set: |s, v| s.output_peak = v,
     },
     Knob {
+        key: "stage.input_noise_max",
+        checks: &["input_noise"],
+        unit: Unit::Volt,
+        larger_is_stricter: false,
+        get: |s| s.input_noise_max,
+        set: |s, v| s.input_noise_max = v,
+    },
+    Knob {
         key: "amplifier.slew_rate",
         checks: &["slew_rate"],
         unit: Unit::VoltPerSecond,

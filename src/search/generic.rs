@@ -73,6 +73,21 @@ impl SlotRange {
         })
     }
 
+    /// The part of the range with nominal values in `[low, high]` (a `[range]` entry), `None`
+    /// when nothing is left: each candidate's ends stay within its value·(1 ± tolerance).
+    pub fn clipped(self, low: f64, high: f64) -> Option<SlotRange> {
+        let lo = self.nominal.0.max(low * (1.0 - 1e-9));
+        let hi = self.nominal.1.min(high * (1.0 + 1e-9));
+        (lo <= hi).then(|| SlotRange {
+            nominal: (lo, hi),
+            ends: (
+                self.ends.0.max(lo * (1.0 - self.below)),
+                self.ends.1.min(hi * (1.0 + self.above)),
+            ),
+            ..self
+        })
+    }
+
     /// The range of a list of candidates (`None` when empty).
     pub fn of(values: impl IntoIterator<Item = SlotValue>) -> Option<SlotRange> {
         let mut r: Option<SlotRange> = None;

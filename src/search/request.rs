@@ -6,7 +6,7 @@
 use crate::analysis::Evaluation;
 use crate::build::{Build, Part};
 use crate::circuit::{Circuit, SearchPlan};
-use crate::spec::Spec;
+use crate::spec::{SlotLimit, Spec};
 use crate::stock::Stock;
 use crate::vocab::PartKind;
 use std::collections::HashMap;
@@ -259,16 +259,29 @@ impl Request<'_> {
     /// The circuit's own plan when this request may use it.
     pub fn own_plan(&self) -> Option<&dyn SearchPlan> {
         match self.plan {
+            // The hand-tuned plans' input-network relaxations take the source as a resistance;
+            // with a source capacitance the generic plan (the circuit's own equations) searches.
+            PlanChoice::Best if self.spec.source_capacitance.is_some() => None,
             PlanChoice::Best => self.stage.plan(),
             PlanChoice::Generic => None,
         }
     }
 }
 
-/// The candidates of every slot: the stock's realisations (one shared list per kind), or the
-/// locked part alone.
+/// The spec's `[range]` entry of every slot, in slot order (`None`: the stock's range alone).
+pub fn slot_limits<'s>(spec: &'s Spec, stage: &dyn Circuit) -> Vec<Option<&'s SlotLimit>> {
+    stage
+        .slots()
+        .iter()
+        .map(|d| spec.slot_limit(d.name))
+        .collect()
+}
+
+/// The candidates of every slot: the stock's realisations (one shared list per kind, or the
+/// slot's own when a `[range]` entry narrows it), or the locked part alone.
 pub fn slot_candidates(req: &Request) -> Result<Vec<Arc<Vec<Part>>>, SearchError> {
     let mut by_kind: HashMap<PartKind, Arc<Vec<Part>>> = HashMap::new();
+    let limits = slot_limits(req.spec, req.stage);
     req.stage
         .slots()
         .iter()
@@ -280,10 +293,19 @@ pub fn slot_candidates(req: &Request) -> Result<Vec<Arc<Vec<Part>>>, SearchError
             if !by_kind.contains_key(&slot.kind) {
                 too_many(req, slot.kind)?;
             }
-            let parts = by_kind
+            let mut parts = by_kind
                 .entry(slot.kind)
                 .or_insert_with(|| Arc::new(req.stock.candidates(slot.kind)))
                 .clone();
+            if let Some(limit) = limits[i] {
+                parts = Arc::new(
+                    parts
+                        .iter()
+                        .filter(|p| limit.admits(p.value))
+                        .cloned()
+                        .collect(),
+                );
+            }
             if parts.is_empty() {
                 return Err(no_candidates(req, i));
             }
@@ -420,8 +442,14 @@ impl TopN {
 pub fn ranking_spec(spec: &Spec, stage: &dyn Circuit) -> Spec {
     let mut r = spec.clone();
     for goal in crate::vocab::Goal::ALL {
-        let w = spec.goals.weight(goal) + TIE_BREAK * goal.default_weight();
-        r.goals.set(goal, w);
+        // Not the noise and divider-current goals: their shares are not in the divider's
+        // walk bounds, so as tie-breakers they would make a spec that weighs neither read
+        // every divider a gain pair allows (a gain-only spec took 60× as long).
+        let tie = match goal {
+            crate::vocab::Goal::Noise | crate::vocab::Goal::DividerCurrent => 0.0,
+            _ => TIE_BREAK * goal.default_weight(),
+        };
+        r.goals.set(goal, spec.goals.weight(goal) + tie);
     }
     r.derived = crate::spec::Derived {
         gain_max: stage.gain_limit(spec),
@@ -577,7 +605,10 @@ pub(crate) fn too_many(req: &Request, kind: PartKind) -> Result<(), SearchError>
 
 pub(crate) fn no_candidates(req: &Request, slot: usize) -> SearchError {
     let def = req.stage.slots()[slot];
-    let (lo, hi) = req.stock.range(def.kind);
+    let (mut lo, mut hi) = req.stock.range(def.kind);
+    if let Some(limit) = req.spec.slot_limit(def.name) {
+        (lo, hi) = (lo.max(limit.low), hi.min(limit.high));
+    }
     let unit = parts_unit(def.kind);
     SearchError::NoCandidates {
         slot: def.name.to_string(),

@@ -67,6 +67,15 @@ pub fn case_strategy(
         .prop_map(
             move |(inv, supply, g, gtol, rin, (load, f_lo, f_hi), (loss, corner), (h1, h2, peak), (ib, ios, vos, gbw), (res, caps), (lock, top, rs, imax, out_peak))| {
                 let kind = if inv { "inverting" } else { "non-inverting" };
+                // The noise goal's weight (none, the default, heavy) and the op-amp's noise
+                // follow from the drawn supply's digits, not from the random stream, so the
+                // cases drawn stay those the stream gave before the goal existed.
+                let digits = (supply * 1e4) as u64;
+                let noise_w = [0.0, 0.1, 1.0][(digits % 3) as usize];
+                let amp_noise = (digits / 3 % 2 == 0).then_some((
+                    1e-9 + (digits % 29) as f64 * 1e-9,
+                    (digits % 5) as f64 * 1e-12,
+                ));
                 let gain = if inv { -g } else { g };
                 let mut t = format!(
                     "[stage]\nkind = \"{kind}\"\nsupply = {supply}\ngain = {gain}\nload = {}\nband = [{f_lo}, {}]\nheadroom = [{h1}, {h2}]\n",
@@ -105,6 +114,9 @@ pub fn case_strategy(
                 if let Some(gbw) = gbw {
                     t += &format!("gbw = {gbw}\n");
                 }
+                if let Some((en, in_)) = amp_noise {
+                    t += &format!("noise_voltage = {en}\nnoise_current = {in_}\n");
+                }
                 t += &format!(
                     "[stock]\nresistor_range = [1, 1e8]\ncapacitor_range = [1e-12, 0.01]\ncombine = \"{combine}\"\n"
                 );
@@ -114,6 +126,7 @@ pub fn case_strategy(
                 // zero weights — gain error alone, or some goals off — where the ranking
                 // rests on the tie-break weights and the bounds must still prune (issue 13).
                 t += GOALS[(supply * 1e3) as usize % GOALS.len()];
+                t += &format!("noise = {noise_w}\n");
                 let tols = ["1%", "5%", "0.1%"];
                 let mut csv = String::from("kind,value,tolerance,qty,voltage,polarized,unit_cost\n");
                 for (m, e, q, tt) in &res {
