@@ -579,6 +579,38 @@ impl SearchPlan for Inverting {
                         };
                         plan.plus_sides(noise, current)
                     }
+                    // r_bias_hi = h with the gain pair chosen, r_bias_lo open: every passing
+                    // divider has its nominal ratio x = R_lo/(R_hi + R_lo) inside the swing's
+                    // window [x_lo, x_hi] (`plans::ratio_window`, the least worst-case gain's
+                    // swing), so R_p = h·x ≥ h·x_lo (the noise share rises with R_p, so with
+                    // h) and R_hi + R_lo = h/(1 − x) ≤ h/(1 − x_hi) (the current's share
+                    // falls with the sum, so with h).
+                    (0, None, Some(r_in), Some(r_fb)) if get(parts, R_BIAS_LO).is_none() => {
+                        let (r_in, r_fb) = (r_in.value, r_fb.value);
+                        let (x_lo, x_hi) =
+                            plans::ratio_window(spec, plans::swing_needed(spec, ctx.gain));
+                        let (x_lo, x_hi) = (x_lo.max(0.0), x_hi.min(1.0));
+                        if !(x_lo <= x_hi && x_hi < 1.0) {
+                            return plan;
+                        }
+                        let part = noise_density_parts(spec, r_in, r_fb, 1.0, 1.0, false);
+                        let noise = move |h: f64| {
+                            let rp = (h * x_lo).min(1e30);
+                            // R_hi = R_lo = 2·R_p gives that R_p.
+                            let whole = noise_density(spec, r_in, r_fb, 2.0 * rp, 2.0 * rp);
+                            let d = crate::objective::noise::points(spec, whole)
+                                - crate::objective::noise::points(spec, part);
+                            d.max(0.0) * (1.0 - 1e-9)
+                        };
+                        let current = move |h: f64| {
+                            let sum = h / (1.0 - x_hi);
+                            crate::objective::divider_current::points(
+                                spec,
+                                common::divider_current(spec.supply, sum, 0.0),
+                            ) * (1.0 - 1e-9)
+                        };
+                        plan.plus_sides(noise, current)
+                    }
                     _ => plan,
                 }
             }

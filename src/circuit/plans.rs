@@ -23,7 +23,7 @@ pub fn swing_needed(spec: &Spec, gain: f64) -> f64 {
 }
 
 /// The divider ratio window x = V_div/V_s that leaves `swing` to each rail at nominal.
-fn ratio_window(spec: &Spec, swing: f64) -> (f64, f64) {
+pub fn ratio_window(spec: &Spec, swing: f64) -> (f64, f64) {
     (
         (spec.headroom.0 + swing) / spec.supply,
         (spec.supply - spec.headroom.1 - swing) / spec.supply,
