@@ -29,6 +29,17 @@ pub enum ToleranceMode {
     Nominal,
 }
 
+/// How a capacitor's voltage rating is judged (`[stock] rating_rule`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum RatingRule {
+    /// At least the full rail it can see (at power-up, or with the output latched to a rail)
+    /// and the worst-case DC over the derating (default; see `analysis::rating`).
+    Supply,
+    /// The worst-case quiescent DC over the derating alone.
+    Bias,
+}
+
 /// Where the parts of one kind come from.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub enum SourceSpec {
@@ -113,6 +124,11 @@ pub struct StockSpec {
     pub combine: Combine,
     /// How Monte Carlo draws a part inside its tolerance.
     pub distribution: crate::vocab::Distribution,
+    /// How capacitor voltage ratings are judged (`rating_rule`; default the full supply).
+    pub rating_rule: RatingRule,
+    /// Whether class-2 ceramics (X7R, Y5V, …) may sit in the signal path
+    /// (`class2_in_signal_path`; default no).
+    pub class2_in_signal_path: bool,
 }
 
 impl StockSpec {
@@ -333,6 +349,8 @@ const STOCK_KEYS: &[&str] = &[
     "capacitor_tolerance",
     "combine",
     "distribution",
+    "rating_rule",
+    "class2_in_signal_path",
 ];
 const GOAL_KEYS: [&str; Goal::ALL.len()] = {
     let mut keys = [""; Goal::ALL.len()];
@@ -571,6 +589,22 @@ impl Reader {
                     format!("found {}, expected a quoted string", found(other)),
                 );
                 None
+            }
+        }
+    }
+
+    /// A `true`/`false` key, false when absent.
+    fn flag(&mut self, section: &str, table: &toml::Table, key: &str) -> bool {
+        match table.get(key) {
+            None => false,
+            Some(Value::Boolean(b)) => *b,
+            Some(other) => {
+                self.error(
+                    section,
+                    Some(key),
+                    format!("found {}, expected true or false", found(other)),
+                );
+                false
             }
         }
     }
@@ -1338,6 +1372,19 @@ impl Spec {
                 crate::vocab::Distribution::Uniform
             }
         };
+        let rating_rule = match r.text(st, stock_t, "rating_rule").as_deref() {
+            None | Some("supply") => RatingRule::Supply,
+            Some("bias") => RatingRule::Bias,
+            Some(other) => {
+                r.error(
+                    st,
+                    Some("rating_rule"),
+                    format!("found {other:?}, expected \"supply\" (the default: a capacitor's rating covers the rail it can see) or \"bias\" (the worst-case DC over the derating)"),
+                );
+                RatingRule::Supply
+            }
+        };
+        let class2_in_signal_path = r.flag(st, stock_t, "class2_in_signal_path");
         let combine = match r.text(st, stock_t, "combine") {
             None => Combine::Single,
             Some(c) => Combine::parse(&c).unwrap_or_else(|| {
@@ -1503,6 +1550,8 @@ impl Spec {
                 capacitor_tolerance,
                 combine,
                 distribution,
+                rating_rule,
+                class2_in_signal_path,
             },
             goals,
             locks,

@@ -5,7 +5,7 @@
 //! tolerance (all 2^n corners of the tolerance box) and each figure takes its worst corner;
 //! the op-amp's bias current, offset current and offset voltage take both signs.
 
-use super::check::{Bound, Check, CAP_DERATING, RESISTOR_DERATING};
+use super::check::{Bound, Check, RESISTOR_DERATING};
 use super::{budget, noise, response, yield_mc};
 use crate::build::{Build, Part};
 use crate::circuit::{common, Circuit, DcErrors, OpAmp};
@@ -49,7 +49,8 @@ pub struct CapReport {
     pub polarized: bool,
     /// Voltage the realisation can stand, V; `None` when a piece has no rating.
     pub rating: Option<f64>,
-    /// Smallest rating that meets the derating: |V|max / 0.8.
+    /// Smallest rating the rule allows: |V|max / 0.8, and under the default rule at least the
+    /// rail the capacitor can see (`analysis::rating`).
     pub rating_needed: f64,
 }
 
@@ -454,7 +455,12 @@ fn evaluate_with(
                 negative_side: neg.to_string(),
                 polarized: part.polarized(),
                 rating: part.voltage_rating(),
-                rating_needed: lo.abs().max(hi.abs()) / CAP_DERATING,
+                rating_needed: super::rating::rating_needed(
+                    spec,
+                    stage,
+                    b.slot,
+                    lo.abs().max(hi.abs()),
+                ),
             }
         })
         .collect();
@@ -504,6 +510,7 @@ fn evaluate_with(
         networks,
     };
     let mut checks = checks(spec, &metrics, &caps, &power, stock.map(|s| s.fits(&parts)));
+    checks.extend(super::rating::dielectric_checks(spec, stage, build));
     // The corner checks' verdicts: the band's edge at most 3 dB down at every vertex (the
     // corner lies past the edge exactly then, `response::low_corner` guards it), so that the
     // verdict needs no corner and `judge` gives the same as `evaluate`.
@@ -691,7 +698,7 @@ fn checks(
         if let Some(rating) = c.rating {
             out.push(Check::new(
                 &format!("rating_{}", c.slot),
-                format!("{} voltage rating vs {worst} DC / 0.8", c.slot),
+                super::rating::rating_label(spec, &c.slot, worst),
                 rating,
                 Bound::Min,
                 c.rating_needed,

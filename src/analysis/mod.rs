@@ -9,6 +9,7 @@ pub mod budget;
 pub mod check;
 pub mod evaluate;
 pub mod noise;
+pub mod rating;
 pub mod response;
 #[cfg(test)]
 mod textbook_checks;

@@ -217,7 +217,14 @@ fn judges(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Vec<(String, Judge
         // The rating of the nominal pieces: the share of a series pair moves little with
         // tolerance, and in practice leakage, not capacitance, splits DC across series parts.
         if let Some(rating) = part.voltage_rating() {
-            out.push((format!("rating_{name}"), Judge::Rating(i, rating)));
+            // The rail the part can see does not move with tolerance: judged once.
+            let rail = super::rating::rating_needed(spec, stage, b.slot, 0.0);
+            let judge = if rating < rail * (1.0 - 1e-12) {
+                Judge::Fixed(false)
+            } else {
+                Judge::Rating(i, rating)
+            };
+            out.push((format!("rating_{name}"), judge));
         }
         if part.polarized() {
             out.push((
@@ -233,6 +240,9 @@ fn judges(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Vec<(String, Judge
                 Judge::Power(slot, rating * RESISTOR_DERATING),
             ));
         }
+    }
+    for c in super::rating::dielectric_checks(spec, stage, build) {
+        out.push((c.name, Judge::Fixed(c.pass)));
     }
     out
 }

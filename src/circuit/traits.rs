@@ -79,6 +79,13 @@ pub trait Circuit: Send + Sync {
         None
     }
 
+    /// Capacitor slots outside the signal path (a bias bypass to ground), where a class-2
+    /// ceramic does no harm to the signal (`analysis::rating`). Default: none, every
+    /// capacitor carries the signal.
+    fn off_signal_path(&self) -> &'static [usize] {
+        &[]
+    }
+
     /// How the circuit is drawn: netlist wiring and schematic.
     fn drawing(&self) -> &dyn Drawing;
 

@@ -392,7 +392,7 @@ pub fn report(
 
     let Some(best) = ranked.first() else {
         out.push_str("<h2>Builds</h2>\n<p>No build from this stock meets the spec.</p>\n");
-        cautions(&mut out);
+        cautions(&mut out, &[]);
         out.push_str("</body>\n</html>\n");
         return Ok(out);
     };
@@ -434,7 +434,8 @@ pub fn report(
     let rows = bom::rows(stage, &best.build, stock);
     bom_table(&mut out, &rows);
 
-    cautions(&mut out);
+    let extra = crate::analysis::rating::build_cautions(spec, stage, &best.build);
+    cautions(&mut out, &extra);
     let _ = writeln!(
         out,
         "<footer>Written by stockfit {}. Values are nominal unless marked worst case.</footer>\n</body>\n</html>",
@@ -443,9 +444,14 @@ pub fn report(
     Ok(out)
 }
 
-fn cautions(out: &mut String) {
+/// The usual cautions, then the build's own (`analysis::rating::build_cautions`).
+fn cautions(out: &mut String, extra: &[String]) {
     out.push_str("<h2>Cautions</h2>\n<ul class=\"cautions\">\n");
-    for c in table::CAUTIONS {
+    for c in table::CAUTIONS
+        .iter()
+        .copied()
+        .chain(extra.iter().map(String::as_str))
+    {
         let _ = writeln!(out, "<li>{}</li>", escape(c));
     }
     out.push_str("</ul>\n");

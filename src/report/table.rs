@@ -567,6 +567,9 @@ fn detail_lines(spec: &Spec, stage: &dyn Circuit, ranked: &Ranked, style: Style)
     out.push_str(&capacitors(spec, &ranked.evaluation, &ranked.build, stage));
     out.push('\n');
     out.push_str(&cautions());
+    for c in crate::analysis::rating::build_cautions(spec, stage, &ranked.build) {
+        let _ = writeln!(out, "  ! {c}");
+    }
     out
 }
 
