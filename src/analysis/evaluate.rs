@@ -126,6 +126,13 @@ pub struct Metrics {
     pub cost: Option<f64>,
     /// Each coupling network's corner.
     pub networks: Vec<NetworkReport>,
+    /// Highest output current at the peak (load and feedback network), A; only with
+    /// `output_current_max` (`analysis::amplifier`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub output_current_peak_a: Option<f64>,
+    /// Lowest and highest voltage at either input, V; only with `input_common_mode`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub input_voltage_range_v: Option<(f64, f64)>,
 }
 
 /// Everything known about one build.
@@ -465,6 +472,11 @@ fn evaluate_with(
         })
         .collect();
 
+    let (output_current, input_voltage_range) = {
+        let points: Vec<(&Vec<f64>, crate::circuit::DcPoint)> =
+            dc_points.iter().map(|(x, p)| (*x, *p)).collect();
+        super::amplifier::worst(spec, stage, &points, gain_mag_max, swing)
+    };
     let out_peak = spec.required_output_peak().unwrap_or(swing.max(0.0));
     let power: Vec<PowerReport> = stage
         .resistor_power(spec, &v, &dc, out_peak)
@@ -508,9 +520,16 @@ fn evaluate_with(
         bom_lines: build.bom_lines(),
         cost: build.cost(),
         networks,
+        output_current_peak_a: output_current,
+        input_voltage_range_v: input_voltage_range,
     };
     let mut checks = checks(spec, &metrics, &caps, &power, stock.map(|s| s.fits(&parts)));
     checks.extend(super::rating::dielectric_checks(spec, stage, build));
+    checks.extend(super::amplifier::checks(
+        spec,
+        metrics.output_current_peak_a,
+        metrics.input_voltage_range_v,
+    ));
     // The corner checks' verdicts: the band's edge at most 3 dB down at every vertex (the
     // corner lies past the edge exactly then, `response::low_corner` guards it), so that the
     // verdict needs no corner and `judge` gives the same as `evaluate`.

@@ -5,6 +5,7 @@
 //! This file only declares and re-exports; the files depend on each other one way
 //! (check, response → noise, budget, yield_mc → evaluate).
 
+pub mod amplifier;
 pub mod budget;
 pub mod check;
 pub mod evaluate;

@@ -162,6 +162,12 @@ enum Judge {
     Polarity(usize, bool),
     /// Slot of the resistor and its power limit (50 % of the rating).
     Power(usize, f64),
+    /// The output current's limit (`analysis::amplifier`).
+    OutputCurrent(f64),
+    /// The lowest input voltage's limit.
+    InputLow(f64),
+    /// The highest input voltage's limit.
+    InputHigh(f64),
 }
 
 /// The judges in `analysis::checks` order, with their check names.
@@ -243,6 +249,16 @@ fn judges(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Vec<(String, Judge
     }
     for c in super::rating::dielectric_checks(spec, stage, build) {
         out.push((c.name, Judge::Fixed(c.pass)));
+    }
+    if let Some(max) = spec.amplifier.output_current_max {
+        out.push(("output_current".into(), Judge::OutputCurrent(max)));
+    }
+    if let Some((lo, hi)) = spec.amplifier.input_common_mode {
+        out.push(("input_common_mode_low".into(), Judge::InputLow(lo)));
+        out.push((
+            "input_common_mode_high".into(),
+            Judge::InputHigh(spec.supply - hi),
+        ));
     }
     out
 }
@@ -385,6 +401,21 @@ pub fn monte_carlo(
                         -caps[i].volts
                     };
                     passes(least, Bound::Min, 0.0)
+                }
+                Judge::OutputCurrent(max) => {
+                    let peak = super::amplifier::output_peak(spec, gain, swing);
+                    let i = super::amplifier::output_current(spec, stage, &x, peak);
+                    passes(i, Bound::Max, max)
+                }
+                Judge::InputLow(min) => {
+                    let peak = super::amplifier::output_peak(spec, gain, swing);
+                    let (lo, _) = super::amplifier::input_range(spec, stage, &x, &dc, peak);
+                    passes(lo, Bound::Min, min)
+                }
+                Judge::InputHigh(max) => {
+                    let peak = super::amplifier::output_peak(spec, gain, swing);
+                    let (_, hi) = super::amplifier::input_range(spec, stage, &x, &dc, peak);
+                    passes(hi, Bound::Max, max)
                 }
                 Judge::Power(slot, limit) => power
                     .iter()

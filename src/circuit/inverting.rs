@@ -220,6 +220,16 @@ impl Circuit for Inverting {
         ]
     }
 
+    /// The − input is a virtual ground: the output drives r_fb alone, and the inputs carry no
+    /// signal (feedback theory, ideal op-amp).
+    fn feedback_load(&self, _spec: &Spec, v: &[f64]) -> f64 {
+        v[R_FB]
+    }
+
+    fn input_signal_per_output(&self, _spec: &Spec, _v: &[f64]) -> f64 {
+        0.0
+    }
+
     fn resistor_power(
         &self,
         spec: &Spec,

@@ -398,6 +398,11 @@ impl Circuit for NonInverting {
         ]
     }
 
+    /// Mid-band (c_g shorted) the output drives r_fb and r_g in series to ground.
+    fn feedback_load(&self, _spec: &Spec, v: &[f64]) -> f64 {
+        v[R_FB] + v[R_G]
+    }
+
     fn resistor_power(
         &self,
         _spec: &Spec,

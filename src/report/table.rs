@@ -437,6 +437,21 @@ pub fn figures(spec: &Spec, evaluation: &Evaluation) -> String {
         format(m.swing_peak_v, Unit::Volt),
         format(m.input_range_peak_v, Unit::Volt)
     );
+    if let Some(i) = m.output_current_peak_a {
+        let _ = writeln!(
+            out,
+            "  output current {} at the peak (load and feedback network, worst case)",
+            format(i, Unit::Ampere)
+        );
+    }
+    if let Some((lo, hi)) = m.input_voltage_range_v {
+        let _ = writeln!(
+            out,
+            "  op-amp inputs between {} and {} (DC and signal, worst case)",
+            format_sig(lo, Unit::Volt, 3),
+            format_sig(hi, Unit::Volt, 3)
+        );
+    }
     if let Some(n) = &evaluation.noise {
         let snr = n.snr_db.map_or(String::new(), |s| {
             format!(", SNR {s:.1} dB at the required peak")

@@ -143,6 +143,14 @@ const KNOBS: &[Knob] = &[
         set: |s, v| s.amplifier.slew_rate = v,
     },
     Knob {
+        key: "amplifier.output_current_max",
+        checks: &["output_current"],
+        unit: Unit::Ampere,
+        larger_is_stricter: false,
+        get: |s| s.amplifier.output_current_max,
+        set: |s, v| s.amplifier.output_current_max = v,
+    },
+    Knob {
         key: "amplifier.gbw",
         checks: &["band_high_loss", "high_corner"],
         unit: Unit::Hertz,
