@@ -133,6 +133,13 @@ pub struct Metrics {
     /// Lowest and highest voltage at either input, V; only with `input_common_mode`.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub input_voltage_range_v: Option<(f64, f64)>,
+    /// Supply ripple at the load, V rms (nominal); only with `supply_ripple`
+    /// (`analysis::ripple`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub ripple_out_v: Option<f64>,
+    /// Highest supply ripple at the load over the tolerance corners, V rms.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub ripple_out_worst_v: Option<f64>,
 }
 
 /// Everything known about one build.
@@ -472,6 +479,7 @@ fn evaluate_with(
         })
         .collect();
 
+    let ripple = super::ripple::figures(spec, stage, &v, &vertices);
     let (output_current, input_voltage_range) = {
         let points: Vec<(&Vec<f64>, crate::circuit::DcPoint)> =
             dc_points.iter().map(|(x, p)| (*x, *p)).collect();
@@ -522,9 +530,17 @@ fn evaluate_with(
         networks,
         output_current_peak_a: output_current,
         input_voltage_range_v: input_voltage_range,
+        ripple_out_v: ripple.0,
+        ripple_out_worst_v: ripple.1,
     };
     let mut checks = checks(spec, &metrics, &caps, &power, stock.map(|s| s.fits(&parts)));
     checks.extend(super::rating::dielectric_checks(spec, stage, build));
+    checks.extend(super::ripple::checks(
+        spec,
+        stage,
+        metrics.ripple_out_worst_v,
+        &metrics.networks,
+    ));
     checks.extend(super::amplifier::checks(
         spec,
         metrics.output_current_peak_a,

@@ -12,6 +12,7 @@ pub mod evaluate;
 pub mod noise;
 pub mod rating;
 pub mod response;
+pub mod ripple;
 #[cfg(test)]
 mod textbook_checks;
 pub mod yield_mc;

@@ -168,6 +168,8 @@ enum Judge {
     InputLow(f64),
     /// The highest input voltage's limit.
     InputHigh(f64),
+    /// The ripple's limit at the load, and the supply ripple (`analysis::ripple`).
+    Ripple(f64, f64),
 }
 
 /// The judges in `analysis::checks` order, with their check names.
@@ -249,6 +251,22 @@ fn judges(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Vec<(String, Judge
     }
     for c in super::rating::dielectric_checks(spec, stage, build) {
         out.push((c.name, Judge::Fixed(c.pass)));
+    }
+    if let (Some(max), Some(v_r)) = (spec.ripple_out_max, spec.supply_ripple) {
+        out.push(("ripple_out".into(), Judge::Ripple(max, v_r)));
+    }
+    {
+        // The bypasses' corners (`analysis::ripple`), by network index.
+        let slots = stage.slots();
+        let off = stage.off_signal_path();
+        for (i, n) in stage.networks(spec, &v).iter().enumerate() {
+            if off.contains(&n.cap_slot) {
+                out.push((
+                    format!("bypass_{}", slots[n.cap_slot].name),
+                    Judge::Corner(i, spec.band.0),
+                ));
+            }
+        }
     }
     if let Some(max) = spec.amplifier.output_current_max {
         out.push(("output_current".into(), Judge::OutputCurrent(max)));
@@ -402,6 +420,11 @@ pub fn monte_carlo(
                     };
                     passes(least, Bound::Min, 0.0)
                 }
+                Judge::Ripple(max, v_r) => passes(
+                    super::ripple::ripple_out(spec, stage, &x, v_r),
+                    Bound::Max,
+                    max,
+                ),
                 Judge::OutputCurrent(max) => {
                     let peak = super::amplifier::output_peak(spec, gain, swing);
                     let i = super::amplifier::output_current(spec, stage, &x, peak);

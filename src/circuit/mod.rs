@@ -8,8 +8,10 @@
 
 pub mod common;
 pub mod inverting;
+pub mod inverting_decoupled;
 pub mod layout;
 pub mod non_inverting;
+pub mod non_inverting_decoupled;
 pub mod plan;
 pub(crate) mod plans;
 pub mod traits;
@@ -27,6 +29,28 @@ pub fn circuit_for(kind: StageKind) -> &'static dyn Circuit {
         StageKind::Inverting => &inverting::Inverting,
         StageKind::NonInverting => &non_inverting::NonInverting,
     }
+}
+
+/// The circuit a spec asks for: its stage with its bias network (`[stage] bias`).
+pub fn circuit_of(spec: &crate::spec::Spec) -> &'static dyn Circuit {
+    use crate::spec::BiasNetwork;
+    match (spec.stage, spec.bias) {
+        (StageKind::Inverting, BiasNetwork::Decoupled) => &inverting_decoupled::InvertingDecoupled,
+        (StageKind::NonInverting, BiasNetwork::Decoupled) => {
+            &non_inverting_decoupled::NonInvertingDecoupled
+        }
+        (kind, BiasNetwork::Divider) => circuit_for(kind),
+    }
+}
+
+/// Every circuit, for the tests that hold each to its drawing.
+pub fn all() -> [&'static dyn Circuit; 4] {
+    [
+        &inverting::Inverting,
+        &non_inverting::NonInverting,
+        &inverting_decoupled::InvertingDecoupled,
+        &non_inverting_decoupled::NonInvertingDecoupled,
+    ]
 }
 
 /// Index of a slot by name.

@@ -45,7 +45,7 @@ pub const C_G: usize = 5;
 /// Slot index of `c_out`, the output coupling capacitor.
 pub const C_OUT: usize = 6;
 
-const SLOTS: &[SlotDef] = &[
+pub(crate) const SLOTS: &[SlotDef] = &[
     SlotDef {
         name: "c_in",
         kind: PartKind::Capacitor,

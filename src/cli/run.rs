@@ -162,7 +162,7 @@ fn pick(
     top: usize,
     output: &Output,
 ) -> Result<i32, Failure> {
-    let circuit = circuit::circuit_for(spec.stage);
+    let circuit = circuit::circuit_of(spec);
     let Resolved { stock, description } = resolve_stock(spec, base, stock_over)?;
     // Every input is read now: no output may be one of them (nor another output).
     output::check(output)?;
@@ -264,7 +264,7 @@ fn check(
     set: &[String],
     output: &Output,
 ) -> Result<i32, Failure> {
-    let circuit = circuit::circuit_for(spec.stage);
+    let circuit = circuit::circuit_of(spec);
     let Resolved { stock, description } = resolve_stock(spec, base, stock_over)?;
     output::check(output)?;
     let entries = split_entries(set, "--set")?;

@@ -437,6 +437,18 @@ pub fn figures(spec: &Spec, evaluation: &Evaluation) -> String {
         format(m.swing_peak_v, Unit::Volt),
         format(m.input_range_peak_v, Unit::Volt)
     );
+    if let (Some(r), Some(w), Some(v_r)) =
+        (m.ripple_out_v, m.ripple_out_worst_v, spec.supply_ripple)
+    {
+        let _ = writeln!(
+            out,
+            "  supply ripple {} rms at {} gives {} rms at the output (worst {})",
+            format(v_r, Unit::Volt),
+            format(spec.ripple_frequency, Unit::Hertz),
+            format(r, Unit::Volt),
+            format(w, Unit::Volt)
+        );
+    }
     if let Some(i) = m.output_current_peak_a {
         let _ = writeln!(
             out,
