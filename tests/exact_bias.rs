@@ -1,6 +1,6 @@
 //! Exactness with the decoupled bias network and the new requirements (issue 12, parts 3, 5
 //! and 6): on random specs with `bias = "decoupled"` (the inverting stage's hand-tuned plan
-//! extended by c_bias, the non-inverting stage's generic plan over its nine slots), supply
+//! extended by c_bias, the non-inverting decoupled stage's own plan over its nine slots), supply
 //! ripple with `ripple_out_max` and a PSRR, `output_current_max` and `input_common_mode`,
 //! the search returns the same top scores as brute force judged by the exact analysis.
 //!

@@ -21,11 +21,14 @@
 
 use super::common;
 use super::non_inverting::{self, C_G, C_IN, C_OUT, R_BIAS_HI, R_BIAS_LO, R_FB, R_G};
-use super::traits::{Circuit, Drawing};
+use super::plan::{Coord, WalkPlan};
+use super::plans::{self, DividerContext, GainForm};
+use super::traits::{Circuit, Drawing, SearchPlan};
 use super::types::{
     cap_z, CapBias, DcErrors, DcPoint, Network, NoiseCircuit, NoisePlace, OpAmp, SlotDef,
     SpiceElement,
 };
+use crate::build::SlotValue;
 use crate::interval::{Iv, Num};
 use crate::objective::{Figures, NetworkFigure, Networks};
 use crate::spec::Spec;
@@ -373,6 +376,338 @@ impl Circuit for NonInvertingDecoupled {
 
     fn drawing(&self) -> &dyn Drawing {
         self
+    }
+
+    fn plan(&self) -> Option<&dyn SearchPlan> {
+        Some(self)
+    }
+}
+
+/// The groups: without a source resistance the gain pair (the gain is 1 + R_fb/R_g alone),
+/// then the divider with r_bias_in (the offset share needs all three and R_fb); with one,
+/// r_bias_in first (it attenuates the gain), then the gain pair and the divider. The
+/// capacitors last, one each, the bypass first (it bounds what the input network can give
+/// back at the band's low edge, `input_credit_db`).
+const GROUPS: &[&[usize]] = &[
+    &[R_G, R_FB],
+    &[R_BIAS_HI, R_BIAS_LO, R_BIAS_IN],
+    &[C_BIAS],
+    &[C_G],
+    &[C_OUT],
+    &[C_IN],
+];
+const GROUPS_RS: &[&[usize]] = &[
+    &[R_BIAS_IN],
+    &[R_G, R_FB],
+    &[R_BIAS_HI, R_BIAS_LO],
+    &[C_BIAS],
+    &[C_G],
+    &[C_OUT],
+    &[C_IN],
+];
+
+fn get(parts: &[Option<SlotValue>], i: usize) -> Option<&SlotValue> {
+    parts.get(i).and_then(Option::as_ref)
+}
+
+impl NonInvertingDecoupled {
+    fn static_groups(spec: &Spec) -> &'static [&'static [usize]] {
+        if spec.source_resistance > 0.0 {
+            GROUPS_RS
+        } else {
+            GROUPS
+        }
+    }
+
+    /// R_in/(R_s + R_in) at the nominal r_bias_in (1 without a source resistance).
+    fn att(spec: &Spec, parts: &[Option<SlotValue>]) -> f64 {
+        let rs = spec.source_resistance;
+        match get(parts, R_BIAS_IN) {
+            Some(r) if rs > 0.0 => r.value / (rs + r.value),
+            _ => 1.0,
+        }
+    }
+
+    /// The offset share with the divider, r_bias_in and r_fb chosen (nominal values).
+    fn offset_points(spec: &Spec, parts: &[Option<SlotValue>]) -> Option<f64> {
+        let (hi, lo, r_in, fb) = (
+            get(parts, R_BIAS_HI)?.value,
+            get(parts, R_BIAS_LO)?.value,
+            get(parts, R_BIAS_IN)?.value,
+            get(parts, R_FB)?.value,
+        );
+        let (th_hi, th_lo) = thevenin(hi, lo, r_in);
+        Some(crate::objective::offset::points(
+            spec,
+            common::offset_error(spec, th_hi, th_lo, fb),
+        ))
+    }
+
+    /// The most the input network can raise the gain at the band's low edge, dB: |Z_in| is
+    /// at most R_in + |Z_b| there, |Z_b| = R_p/√(1 + (ωR_pC_bias)²) (largest at the largest
+    /// R_p and the smallest C_bias), and |Z_in + R_s + Z_cin| ≥ R_in + R_s (every real part
+    /// is positive), so |H_in|/H_mid ≤ 1 + |Z_b|/R_in: credit for the other networks' loss.
+    fn input_credit_db(spec: &Spec, parts: &[Option<SlotValue>]) -> Option<f64> {
+        let (hi, lo, r_in, cb) = (
+            get(parts, R_BIAS_HI)?,
+            get(parts, R_BIAS_LO)?,
+            get(parts, R_BIAS_IN)?,
+            get(parts, C_BIAS)?,
+        );
+        let (h, l) = (common::end(spec, hi, true), common::end(spec, lo, true));
+        let rp = h * l / (h + l);
+        let x = 2.0 * PI * spec.band.0 * rp * common::end(spec, cb, false);
+        let zb = rp / (1.0 + x * x).sqrt();
+        Some(20.0 * (1.0 + zb / common::end(spec, r_in, false)).log10() * (1.0 + 1e-9) + 1e-9)
+    }
+
+    /// The gain leg's worst loss at the band's low edge over its parts' tolerance corners, dB:
+    /// |G_mid/G(f)| with G(f) = 1 + R_fb/(R_g + 1/(jωC_g)) (never below 0: the shelf falls).
+    fn gain_leg_loss(spec: &Spec, parts: &[Option<SlotValue>]) -> Option<f64> {
+        let (fb, rg, cg) = (get(parts, R_FB)?, get(parts, R_G)?, get(parts, C_G)?);
+        let w = 2.0 * PI * spec.band.0;
+        Some(
+            common::value_vertices(spec, &[fb, rg, cg])
+                .iter()
+                .map(|v| {
+                    let zg = Complex64::new(v[1], -1.0 / (w * v[2]));
+                    let g = Complex64::new(1.0, 0.0) + Complex64::new(v[0], 0.0) / zg;
+                    20.0 * ((1.0 + v[0] / v[1]) / g.norm()).log10()
+                })
+                .fold(f64::NEG_INFINITY, f64::max),
+        )
+    }
+}
+
+/// A plan of exact shares (the gain points with the gain pair, the offset points with the
+/// divider and r_bias_in) and relaxed checks, the capacitors at no share: each network's own
+/// corner, the output network's loss within the budget plus the most the input network can
+/// give back (`input_credit_db`), the bypass's corner within the band, ratings at the nominal
+/// DC. `tests/exact_bias.rs` holds it to brute force.
+impl SearchPlan for NonInvertingDecoupled {
+    fn groups(&self, spec: &Spec) -> Vec<Vec<usize>> {
+        Self::static_groups(spec)
+            .iter()
+            .map(|g| g.to_vec())
+            .collect()
+    }
+
+    fn group_partial(&self, spec: &Spec, g: usize, parts: &[Option<SlotValue>]) -> Option<f64> {
+        let first = Self::static_groups(spec)[g][0];
+        let rs = spec.source_resistance;
+        let v_div = || {
+            let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+            Some(spec.supply * lo.value / (hi.value + lo.value))
+        };
+        let corner_ok = |r: f64, c: &SlotValue| {
+            let corner = 1.0 / (2.0 * PI * r * common::end(spec, c, false));
+            spec.corner_low_max
+                .is_none_or(|m| corner <= m * (1.0 + common::SLACK))
+        };
+        match first {
+            R_BIAS_IN => {
+                let r = get(parts, R_BIAS_IN)?;
+                let ok = spec
+                    .input_resistance_min
+                    .is_none_or(|m| common::end(spec, r, false) >= m * (1.0 - common::SLACK));
+                ok.then_some(0.0)
+            }
+            R_G => {
+                let (fb, rg) = (get(parts, R_FB)?, get(parts, R_G)?);
+                let amp_lo = 1.0 + common::end(spec, fb, false) / common::end(spec, rg, true);
+                let amp_hi = 1.0 + common::end(spec, fb, true) / common::end(spec, rg, false);
+                let (a_lo, a_hi) = match get(parts, R_BIAS_IN) {
+                    Some(r) if rs > 0.0 => {
+                        let (l, h) = (common::end(spec, r, false), common::end(spec, r, true));
+                        (l / (rs + l), h / (rs + h))
+                    }
+                    _ => (1.0, 1.0),
+                };
+                if !common::gain_window_ok(spec, amp_lo * a_lo, amp_hi * a_hi) {
+                    return None;
+                }
+                let gain = (1.0 + fb.value / rg.value) * Self::att(spec, parts);
+                Some(crate::objective::gain::points(spec, gain))
+            }
+            R_BIAS_HI => {
+                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+                if !common::divider_current_ok(spec, hi, lo) {
+                    return None;
+                }
+                let (fb, rg) = (get(parts, R_FB)?, get(parts, R_G)?);
+                // At most the worst-case highest gain: the amplifier's highest with r_bias_in
+                // at the low end of its tolerance (the attenuation rises with it).
+                let att_lo = match get(parts, R_BIAS_IN) {
+                    Some(r) if rs > 0.0 => {
+                        let l = common::end(spec, r, false);
+                        l / (rs + l)
+                    }
+                    _ => 1.0,
+                };
+                let g_hi =
+                    (1.0 + common::end(spec, fb, true) / common::end(spec, rg, false)) * att_lo;
+                let (vmin, vmax) = common::divider_range(spec, hi, lo);
+                if !common::swing_ok(spec, common::swing(spec, vmin, vmax), g_hi) {
+                    return None;
+                }
+                Self::offset_points(spec, parts)
+            }
+            C_IN => {
+                let (c, r_in) = (get(parts, C_IN)?, get(parts, R_BIAS_IN)?);
+                if !corner_ok(rs + common::end(spec, r_in, true), c) {
+                    return None;
+                }
+                common::cap_ok(c, v_div()? - spec.source_dc).then_some(0.0)
+            }
+            C_G => {
+                let (c, rg) = (get(parts, C_G)?, get(parts, R_G)?);
+                if !corner_ok(common::end(spec, rg, true), c) {
+                    return None;
+                }
+                if let Some(budget) = common::loss_budget(spec) {
+                    let credit = Self::input_credit_db(spec, parts)?;
+                    let loss = Self::gain_leg_loss(spec, parts)?;
+                    if loss > budget * (1.0 + common::SLACK) + common::SLACK + credit {
+                        return None;
+                    }
+                }
+                common::cap_ok(c, v_div()?).then_some(0.0)
+            }
+            C_OUT => {
+                let c = get(parts, C_OUT)?;
+                if !corner_ok(spec.load, c) {
+                    return None;
+                }
+                if let Some(budget) = common::loss_budget(spec) {
+                    let loss = common::high_pass_loss_db(
+                        spec.load,
+                        common::end(spec, c, false),
+                        spec.band.0,
+                    );
+                    // Buffered sections: the losses add (dB), the gain leg's never below 0.
+                    let credit = Self::input_credit_db(spec, parts)?;
+                    let g_loss = Self::gain_leg_loss(spec, parts)?.max(0.0);
+                    if loss + g_loss > budget * (1.0 + common::SLACK) + common::SLACK + credit {
+                        return None;
+                    }
+                }
+                common::cap_ok(c, v_div()?).then_some(0.0)
+            }
+            _ => {
+                let c = get(parts, C_BIAS)?;
+                let (hi, lo) = (get(parts, R_BIAS_HI)?, get(parts, R_BIAS_LO)?);
+                let (h, l) = (common::end(spec, hi, true), common::end(spec, lo, true));
+                let rp = h * l / (h + l);
+                let corner = 1.0 / (2.0 * PI * rp * common::end(spec, c, false));
+                if corner > spec.band.0 * (1.0 + common::SLACK) || !corner_ok(rp, c) {
+                    return None;
+                }
+                common::cap_ok(c, v_div()?).then_some(0.0)
+            }
+        }
+    }
+
+    fn walk<'s>(
+        &'s self,
+        spec: &'s Spec,
+        g: usize,
+        k: usize,
+        parts: &[Option<SlotValue>],
+    ) -> WalkPlan<'s> {
+        let slot = Self::static_groups(spec)[g][k];
+        let form = GainForm {
+            att: Self::att(spec, parts),
+            plus: 1.0,
+            offset: 0.0,
+        };
+        match slot {
+            R_BIAS_IN => match (
+                get(parts, R_BIAS_HI),
+                get(parts, R_BIAS_LO),
+                get(parts, R_FB),
+            ) {
+                // In the divider's group: the offset share exactly, as a function of R_in it is
+                // |V_div − t| + c·(R_p + R_in) + b·|R_fb − R_p − R_in| + c·R_fb, convex with its
+                // least at R_in = R_fb − R_p when b > c (else at the smallest R_in).
+                (Some(hi), Some(lo), Some(fb)) if spec.source_resistance == 0.0 => {
+                    let (hi, lo, fb) = (hi.value, lo.value, fb.value);
+                    let rp = hi * lo / (hi + lo);
+                    let b = spec.amplifier.input_bias_current;
+                    let c = spec.amplifier.input_offset_current / 2.0;
+                    let target = if b > c && fb > rp { fb - rp } else { 0.0 };
+                    let floor = spec
+                        .input_resistance_min
+                        .map_or(0.0, |m| m * (1.0 - common::SLACK));
+                    let target = target.max(floor);
+                    WalkPlan {
+                        at_least: None,
+                        window: super::plan::ANY,
+                        coord: Coord::Value,
+                        target,
+                        bound: Box::new(move |r_in: f64, up: bool| {
+                            // Below the input resistance floor the low end of the tolerance
+                            // (at most the nominal value) fails, and so does every smaller one.
+                            if !up && r_in < floor {
+                                return None;
+                            }
+                            let (th_hi, th_lo) = thevenin(hi, lo, r_in);
+                            Some(crate::objective::offset::points(
+                                spec,
+                                common::offset_error(spec, th_hi, th_lo, fb),
+                            ))
+                        }),
+                    }
+                }
+                _ => match spec.input_resistance_min {
+                    Some(m) => WalkPlan::at_least(Coord::low_end(spec), m),
+                    None => WalkPlan::free(),
+                },
+            },
+            R_G => match get(parts, R_FB) {
+                Some(fb) => plans::gain_other_given_fb(spec, form, fb.value, 0.0, None),
+                None => plans::gain_other_first(spec, form, 0.0, None),
+            },
+            R_FB => match get(parts, R_G) {
+                Some(rg) => plans::gain_fb(spec, form, rg.value, None),
+                None => WalkPlan::free(),
+            },
+            R_BIAS_HI | R_BIAS_LO => {
+                let gain = match (get(parts, R_FB), get(parts, R_G)) {
+                    (Some(f), Some(g)) => (1.0 + f.value / g.value) * form.att,
+                    _ => 0.0,
+                };
+                let ctx = DividerContext {
+                    r_fb: None,
+                    rp_min: None,
+                    gain,
+                };
+                plans::divider_walk(spec, slot == R_BIAS_HI, parts, R_BIAS_HI, R_BIAS_LO, ctx)
+            }
+            C_BIAS => {
+                let need = match (get(parts, R_BIAS_HI), get(parts, R_BIAS_LO)) {
+                    (Some(hi), Some(lo)) => {
+                        let (h, l) = (common::end(spec, hi, true), common::end(spec, lo, true));
+                        1.0 / (2.0 * PI * (h * l / (h + l)) * spec.band.0)
+                    }
+                    _ => 0.0,
+                };
+                WalkPlan::at_least(Coord::low_end(spec), need)
+            }
+            C_OUT => {
+                let spent = match (
+                    Self::input_credit_db(spec, parts),
+                    Self::gain_leg_loss(spec, parts),
+                ) {
+                    (Some(credit), Some(g)) => Some(g.max(0.0) - credit),
+                    _ => None,
+                };
+                let need = spent
+                    .and_then(|s| common::needed_capacitance_after(spec, spec.load, s))
+                    .unwrap_or(0.0);
+                WalkPlan::at_least(Coord::low_end(spec), need)
+            }
+            _ => WalkPlan::at_least(Coord::low_end(spec), 0.0),
+        }
     }
 }
 

@@ -135,6 +135,14 @@ const KNOBS: &[Knob] = &[
         set: |s, v| s.output_peak = v,
     },
     Knob {
+        key: "stage.ripple_out_max",
+        checks: &["ripple_out"],
+        unit: Unit::Volt,
+        larger_is_stricter: false,
+        get: |s| s.ripple_out_max,
+        set: |s, v| s.ripple_out_max = v,
+    },
+    Knob {
         key: "amplifier.slew_rate",
         checks: &["slew_rate"],
         unit: Unit::VoltPerSecond,
