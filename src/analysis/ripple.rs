@@ -94,7 +94,7 @@ pub fn checks(
         let n = &networks[i];
         out.push(Check::new(
             &format!("bypass_{}", n.cap_slot),
-            format!("{worst} {} corner ({}) vs the band", n.name, n.cap_slot),
+            format!("{worst} {} bypass corner vs the band", n.cap_slot),
             n.corner_worst_hz,
             Bound::Max,
             spec.band.0,
