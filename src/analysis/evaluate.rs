@@ -535,11 +535,16 @@ fn evaluate_with(
     };
     let mut checks = checks(spec, &metrics, &caps, &power, stock.map(|s| s.fits(&parts)));
     checks.extend(super::rating::dielectric_checks(spec, stage, build));
+    let corners: Vec<super::ripple::NetworkCorner> = metrics
+        .networks
+        .iter()
+        .map(|n| (n.name.as_str(), n.cap_slot.as_str(), n.corner_worst_hz))
+        .collect();
     checks.extend(super::ripple::checks(
         spec,
         stage,
         metrics.ripple_out_worst_v,
-        &metrics.networks,
+        &corners,
     ));
     checks.extend(super::amplifier::checks(
         spec,

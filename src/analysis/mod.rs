@@ -3,7 +3,7 @@
 //! Monte Carlo yield on the same checks.
 //!
 //! This file only declares and re-exports; the files depend on each other one way
-//! (check, response → noise, budget, yield_mc → evaluate).
+//! (check, response → noise, budget, rating, amplifier, ripple → yield_mc → evaluate).
 
 pub mod amplifier;
 pub mod budget;

@@ -17,7 +17,6 @@
 //! band (common practice): check `bypass_<slot>`.
 
 use super::check::{Bound, Check};
-use super::evaluate::NetworkReport;
 use crate::circuit::{Circuit, NoisePlace, OpAmp};
 use crate::spec::Spec;
 use crate::value::Unit;
@@ -67,12 +66,16 @@ pub fn figures(
     (Some(ripple_out(spec, stage, v, v_r)), Some(worst))
 }
 
+/// One network as the checks read it: its name, its capacitor's slot name, its worst corner, Hz
+/// (`analysis::NetworkReport`'s fields; this file comes before the one that defines it).
+pub type NetworkCorner<'a> = (&'a str, &'a str, f64);
+
 /// The checks: `ripple_out` (with `ripple_out_max`) and `bypass_<slot>` for each bypass.
 pub fn checks(
     spec: &Spec,
     stage: &dyn Circuit,
     ripple_worst: Option<f64>,
-    networks: &[NetworkReport],
+    networks: &[NetworkCorner],
 ) -> Vec<Check> {
     let worst = if spec.worst_case() {
         "worst-case"
@@ -91,11 +94,11 @@ pub fn checks(
         ));
     }
     for i in bypass_networks(stage, networks) {
-        let n = &networks[i];
+        let (_, slot, corner) = networks[i];
         out.push(Check::new(
-            &format!("bypass_{}", n.cap_slot),
-            format!("{worst} {} bypass corner vs the band", n.cap_slot),
-            n.corner_worst_hz,
+            &format!("bypass_{slot}"),
+            format!("{worst} {slot} bypass corner vs the band"),
+            corner,
             Bound::Max,
             spec.band.0,
             Unit::Hertz,
@@ -105,13 +108,13 @@ pub fn checks(
 }
 
 /// Indices of the networks whose capacitor is off the signal path.
-pub fn bypass_networks(stage: &dyn Circuit, networks: &[NetworkReport]) -> Vec<usize> {
+pub fn bypass_networks(stage: &dyn Circuit, networks: &[NetworkCorner]) -> Vec<usize> {
     let slots = stage.slots();
     let off = stage.off_signal_path();
     networks
         .iter()
         .enumerate()
-        .filter(|(_, n)| off.iter().any(|&s| slots[s].name == n.cap_slot))
+        .filter(|(_, n)| off.iter().any(|&s| slots[s].name == n.1))
         .map(|(i, _)| i)
         .collect()
 }
