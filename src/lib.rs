@@ -41,7 +41,7 @@
 //! // Both kinds come from a series, so no inventory file is asked for.
 //! let stock = pick::resolve_stock(&spec, None, &mut |path| Err(format!("no file {path}")))
 //!     .unwrap();
-//! let circuit = stockfit::circuit::circuit_for(spec.stage);
+//! let circuit = stockfit::circuit::circuit_of(&spec);
 //! let locks = pick::resolve_locks(&spec, circuit, &stock.stock, &[]).unwrap();
 //! let picked = pick::pick(&spec, &stock.stock, &locks, &Options::default(), &mut |_| {}).unwrap();
 //!

@@ -21,7 +21,7 @@
 //! );
 //! let stock =
 //!     pick::resolve_stock::<()>(&spec, None, &mut |_path| Ok(drawer.clone())).unwrap();
-//! let circuit = stockfit::circuit::circuit_for(spec.stage);
+//! let circuit = stockfit::circuit::circuit_of(&spec);
 //! let locks = pick::resolve_locks(&spec, circuit, &stock.stock, &[]).unwrap();
 //! let picked = pick::pick(&spec, &stock.stock, &locks, &Options::default(), &mut |_| {}).unwrap();
 //! let best = &picked.builds[0];
@@ -356,7 +356,7 @@ pub fn pick(
     options: &Options,
     progress: &mut dyn FnMut(Progress),
 ) -> Result<Picked, Error> {
-    let circuit = circuit::circuit_for(spec.stage);
+    let circuit = circuit::circuit_of(spec);
     let distinct = distinct_slots(circuit, &options.distinct)?;
     let req = Request {
         spec,
@@ -409,7 +409,7 @@ pub fn check(
     entries: &[SlotEntry],
     yield_options: Option<&YieldOptions>,
 ) -> Result<Ranked, Error> {
-    let circuit = circuit::circuit_for(spec.stage);
+    let circuit = circuit::circuit_of(spec);
     let given = flag_parts(circuit, stock, entries, "--set")?;
     let missing: Vec<&str> = circuit
         .slots()
@@ -538,7 +538,7 @@ mod tests {
 
     fn lock_errors(table: &str) -> Vec<SpecError> {
         let spec = Spec::from_toml(&format!("{SPEC}[lock]\n{table}")).unwrap();
-        match resolve_locks(&spec, circuit::circuit_for(spec.stage), &e24(), &[]) {
+        match resolve_locks(&spec, circuit::circuit_of(&spec), &e24(), &[]) {
             Err(Error::Spec(e)) => e.0,
             other => panic!("expected spec errors, got {other:?}"),
         }
@@ -563,7 +563,7 @@ mod tests {
     #[test]
     fn flags_replace_spec_locks_and_a_slot_twice_is_refused() {
         let spec = Spec::from_toml(&format!("{SPEC}[lock]\nr_in = \"33k\"\n")).unwrap();
-        let c = circuit::circuit_for(spec.stage);
+        let c = circuit::circuit_of(&spec);
         let flag = |s: &str| SlotEntry::parse(s).unwrap();
         let locks = resolve_locks(&spec, c, &e24(), &[flag("r_in=47k/5%")]).unwrap();
         assert_eq!(locks.len(), 1);

@@ -29,6 +29,40 @@ pub enum ToleranceMode {
     Nominal,
 }
 
+/// How a capacitor's voltage rating is judged (`[stock] rating_rule`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum RatingRule {
+    /// At least the full rail it can see (at power-up, or with the output latched to a rail)
+    /// and the worst-case DC over the derating (default; see `analysis::rating`).
+    Supply,
+    /// The worst-case quiescent DC over the derating alone.
+    Bias,
+}
+
+/// How the + input is biased (`[stage] bias`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum BiasNetwork {
+    /// The divider drives the bias node directly (default).
+    Divider,
+    /// The divider with a bypass capacitor to ground and, in the non-inverting stage, a series
+    /// resistor into the + input (`circuit::decoupled`).
+    Decoupled,
+}
+
+/// An `amplifier = "FILE#NAME"` reference to an entry of a file of op-amps, resolved by the
+/// caller that reads files ([`Spec::resolve_amplifier`]).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct AmplifierFile {
+    /// The file's path as written (relative to the spec's folder).
+    pub path: String,
+    /// The entry's name (a table of the file).
+    pub name: String,
+    /// 1-based line of the `amplifier` key in the spec.
+    pub line: Option<usize>,
+}
+
 /// Where the parts of one kind come from.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub enum SourceSpec {
@@ -66,6 +100,14 @@ pub struct Amplifier {
     pub noise_voltage: Option<f64>,
     /// Input current noise density, A/√Hz (white).
     pub noise_current: Option<f64>,
+    /// Power-supply rejection ratio, dB (a positive number): supply ripple referred to the
+    /// input is the ripple divided by 10^(PSRR/20). `None`: perfect rejection.
+    pub psrr: Option<f64>,
+    /// Most output current the amplifier may deliver, A (peak): load and feedback network at the
+    /// worst-case peak swing (`analysis::amplifier`).
+    pub output_current_max: Option<f64>,
+    /// How close each input may come to the (low, high) rail, V (`analysis::amplifier`).
+    pub input_common_mode: Option<(f64, f64)>,
 }
 
 /// Weights of the ranking terms (points), one per [`Goal`]. See README "Goals".
@@ -113,6 +155,11 @@ pub struct StockSpec {
     pub combine: Combine,
     /// How Monte Carlo draws a part inside its tolerance.
     pub distribution: crate::vocab::Distribution,
+    /// How capacitor voltage ratings are judged (`rating_rule`; default the full supply).
+    pub rating_rule: RatingRule,
+    /// Whether class-2 ceramics (X7R, Y5V, …) may sit in the signal path
+    /// (`class2_in_signal_path`; default no).
+    pub class2_in_signal_path: bool,
 }
 
 impl StockSpec {
@@ -231,6 +278,17 @@ pub struct Spec {
     pub source_capacitance: Option<f64>,
     /// The op-amp's datasheet figures.
     pub amplifier: Amplifier,
+    /// Where the figures come from when the spec names an entry of an op-amp file
+    /// (`amplifier = "FILE#NAME"`); `amplifier` holds them once resolved.
+    pub amplifier_file: Option<AmplifierFile>,
+    /// How the + input is biased (`bias`).
+    pub bias: BiasNetwork,
+    /// Supply ripple, V rms at `ripple_frequency` (`supply_ripple`).
+    pub supply_ripple: Option<f64>,
+    /// Frequency of the supply ripple, Hz (default 100 Hz: full-wave rectified 50 Hz mains).
+    pub ripple_frequency: f64,
+    /// Most worst-case ripple at the load, V rms (`ripple_out_max`).
+    pub ripple_out_max: Option<f64>,
     /// Where the parts come from and what may be taken.
     pub stock: StockSpec,
     /// Weights of the ranking terms.
@@ -403,6 +461,10 @@ const STAGE_KEYS: &[&str] = &[
     "input_noise_max",
     "stray_capacitance",
     "source_capacitance",
+    "bias",
+    "supply_ripple",
+    "ripple_frequency",
+    "ripple_out_max",
 ];
 const AMPLIFIER_KEYS: &[&str] = &[
     "gbw",
@@ -412,6 +474,9 @@ const AMPLIFIER_KEYS: &[&str] = &[
     "slew_rate",
     "noise_voltage",
     "noise_current",
+    "psrr",
+    "output_current_max",
+    "input_common_mode",
 ];
 const STOCK_KEYS: &[&str] = &[
     "resistors",
@@ -422,6 +487,8 @@ const STOCK_KEYS: &[&str] = &[
     "capacitor_tolerance",
     "combine",
     "distribution",
+    "rating_rule",
+    "class2_in_signal_path",
 ];
 const GOAL_KEYS: [&str; Goal::ALL.len()] = {
     let mut keys = [""; Goal::ALL.len()];
@@ -681,6 +748,22 @@ impl Reader {
                     format!("found {}, expected a quoted string", found(other)),
                 );
                 None
+            }
+        }
+    }
+
+    /// A `true`/`false` key, false when absent.
+    fn flag(&mut self, section: &str, table: &toml::Table, key: &str) -> bool {
+        match table.get(key) {
+            None => false,
+            Some(Value::Boolean(b)) => *b,
+            Some(other) => {
+                self.error(
+                    section,
+                    Some(key),
+                    format!("found {}, expected true or false", found(other)),
+                );
+                false
             }
         }
     }
@@ -1047,6 +1130,49 @@ fn levenshtein(a: &str, b: &str) -> usize {
     d[a.len()][b.len()]
 }
 
+/// The `[amplifier]` keys of `amp_t` (a spec's section, or an entry of an op-amp file read
+/// under the name `amplifier`).
+fn read_amplifier(r: &mut Reader, amp_t: &toml::Table) -> Amplifier {
+    let a = "amplifier";
+    Amplifier {
+        gbw: r.positive(a, amp_t, "gbw", Unit::Hertz),
+        input_bias_current: r
+            .quantity(a, amp_t, "input_bias_current", Unit::Ampere)
+            .map(f64::abs)
+            .unwrap_or(0.0),
+        input_offset_current: r
+            .quantity(a, amp_t, "input_offset_current", Unit::Ampere)
+            .map(f64::abs)
+            .unwrap_or(0.0),
+        input_offset_voltage: r
+            .quantity(a, amp_t, "input_offset_voltage", Unit::Volt)
+            .map(f64::abs)
+            .unwrap_or(0.0),
+        slew_rate: r.positive(a, amp_t, "slew_rate", Unit::VoltPerSecond),
+        noise_voltage: r
+            .quantity(a, amp_t, "noise_voltage", Unit::VoltPerRootHz)
+            .map(f64::abs),
+        noise_current: r
+            .quantity(a, amp_t, "noise_current", Unit::AmpPerRootHz)
+            .map(f64::abs),
+        psrr: r.positive(a, amp_t, "psrr", Unit::Decibel),
+        output_current_max: r.positive(a, amp_t, "output_current_max", Unit::Ampere),
+        input_common_mode: r
+            .pair(a, amp_t, "input_common_mode", Unit::Volt, true)
+            .filter(|&(lo, hi)| {
+                let ok = lo >= 0.0 && hi >= 0.0;
+                if !ok {
+                    r.error(
+                        a,
+                        Some("input_common_mode"),
+                        "how close each input may come to each rail cannot be negative".into(),
+                    );
+                }
+                ok
+            }),
+    }
+}
+
 fn section<'t>(root: &'t toml::Table, name: &str, r: &mut Reader) -> Option<&'t toml::Table> {
     match root.get(name) {
         None => None,
@@ -1206,7 +1332,35 @@ impl Spec {
             }
         };
         r.check_keys("stage", stage_t, STAGE_KEYS);
-        let amp_t = section(&root, "amplifier", &mut r).unwrap_or(&empty);
+        // `amplifier = "FILE#NAME"` names an entry of a file of op-amps instead of a section.
+        let amplifier_file = match root.get("amplifier") {
+            Some(Value::String(t)) => {
+                let line = r.line_of("amplifier", None);
+                match t.rsplit_once('#') {
+                    Some((path, name)) if !path.trim().is_empty() && !name.trim().is_empty() => {
+                        Some(AmplifierFile {
+                            path: path.trim().to_string(),
+                            name: name.trim().to_string(),
+                            line,
+                        })
+                    }
+                    _ => {
+                        r.error(
+                            "amplifier",
+                            None,
+                            format!("found {t:?}, expected \"FILE#NAME\" (an entry of a file of op-amps, e.g. \"opamps.toml#quiet-cmos\") or an `[amplifier]` section"),
+                        );
+                        None
+                    }
+                }
+            }
+            _ => None,
+        };
+        let amp_t = if matches!(root.get("amplifier"), Some(Value::String(_))) {
+            &empty
+        } else {
+            section(&root, "amplifier", &mut r).unwrap_or(&empty)
+        };
         r.check_keys("amplifier", amp_t, AMPLIFIER_KEYS);
         let stock_t = section(&root, "stock", &mut r).unwrap_or(&empty);
         r.check_keys("stock", stock_t, STOCK_KEYS);
@@ -1399,6 +1553,30 @@ impl Spec {
             );
         }
         let source_capacitance = r.positive(s, stage_t, "source_capacitance", Unit::Farad);
+        let bias = match r.text(s, stage_t, "bias").as_deref() {
+            None | Some("divider") => BiasNetwork::Divider,
+            Some("decoupled") => BiasNetwork::Decoupled,
+            Some(other) => {
+                r.error(
+                    s,
+                    Some("bias"),
+                    format!("found {other:?}, expected \"divider\" (the default) or \"decoupled\" (the divider bypassed to ground, with a series resistor into the + input of a non-inverting stage)"),
+                );
+                BiasNetwork::Divider
+            }
+        };
+        let supply_ripple = r.positive(s, stage_t, "supply_ripple", Unit::Volt);
+        let ripple_frequency = r
+            .positive(s, stage_t, "ripple_frequency", Unit::Hertz)
+            .unwrap_or(DEFAULT_RIPPLE_FREQUENCY);
+        let ripple_out_max = r.positive(s, stage_t, "ripple_out_max", Unit::Volt);
+        if ripple_out_max.is_some() && supply_ripple.is_none() {
+            r.error(
+                s,
+                Some("ripple_out_max"),
+                "needs `supply_ripple` (the ripple on the supply, V rms) to judge the ripple at the output".into(),
+            );
+        }
         let tolerance_mode = match r.text(s, stage_t, "tolerance_mode").as_deref() {
             None => ToleranceMode::Worst,
             Some("worst") | Some("worst-case") | Some("worst_case") => ToleranceMode::Worst,
@@ -1413,29 +1591,7 @@ impl Spec {
             }
         };
 
-        let a = "amplifier";
-        let amplifier = Amplifier {
-            gbw: r.positive(a, amp_t, "gbw", Unit::Hertz),
-            input_bias_current: r
-                .quantity(a, amp_t, "input_bias_current", Unit::Ampere)
-                .map(f64::abs)
-                .unwrap_or(0.0),
-            input_offset_current: r
-                .quantity(a, amp_t, "input_offset_current", Unit::Ampere)
-                .map(f64::abs)
-                .unwrap_or(0.0),
-            input_offset_voltage: r
-                .quantity(a, amp_t, "input_offset_voltage", Unit::Volt)
-                .map(f64::abs)
-                .unwrap_or(0.0),
-            slew_rate: r.positive(a, amp_t, "slew_rate", Unit::VoltPerSecond),
-            noise_voltage: r
-                .quantity(a, amp_t, "noise_voltage", Unit::VoltPerRootHz)
-                .map(f64::abs),
-            noise_current: r
-                .quantity(a, amp_t, "noise_current", Unit::AmpPerRootHz)
-                .map(f64::abs),
-        };
+        let amplifier = read_amplifier(&mut r, amp_t);
 
         let st = "stock";
         let mut source = |key: &str, default: Series| -> SourceSpec {
@@ -1511,6 +1667,19 @@ impl Spec {
                 crate::vocab::Distribution::Uniform
             }
         };
+        let rating_rule = match r.text(st, stock_t, "rating_rule").as_deref() {
+            None | Some("supply") => RatingRule::Supply,
+            Some("bias") => RatingRule::Bias,
+            Some(other) => {
+                r.error(
+                    st,
+                    Some("rating_rule"),
+                    format!("found {other:?}, expected \"supply\" (the default: a capacitor's rating covers the rail it can see) or \"bias\" (the worst-case DC over the derating)"),
+                );
+                RatingRule::Supply
+            }
+        };
+        let class2_in_signal_path = r.flag(st, stock_t, "class2_in_signal_path");
         let combine = match r.text(st, stock_t, "combine") {
             None => Combine::Single,
             Some(c) => Combine::parse(&c).unwrap_or_else(|| {
@@ -1774,6 +1943,11 @@ impl Spec {
             stray_capacitance,
             source_capacitance,
             amplifier,
+            amplifier_file,
+            bias,
+            supply_ripple,
+            ripple_frequency,
+            ripple_out_max,
             stock: StockSpec {
                 resistors,
                 capacitors,
@@ -1783,6 +1957,8 @@ impl Spec {
                 capacitor_tolerance,
                 combine,
                 distribution,
+                rating_rule,
+                class2_in_signal_path,
             },
             goals,
             locks,
@@ -1919,6 +2095,103 @@ fn resolve_kind(
 /// Largest spec file read (1 MiB): a hand-written spec is a few hundred bytes, so anything
 /// near this is the wrong file, and refusing it early keeps memory bounded.
 pub const MAX_SPEC_BYTES: usize = 1 << 20;
+
+/// Default ripple frequency: 100 Hz, a full-wave rectifier on 50 Hz mains (common practice).
+pub const DEFAULT_RIPPLE_FREQUENCY: f64 = 100.0;
+
+/// The figures of entry `name` of a file of op-amps: TOML with one table per amplifier, each
+/// with the keys of `[amplifier]`, under the same rules. Errors name the entry and key
+/// (`quiet.gbw`) and the line in the file; a missing entry lists the names the file has.
+pub fn amplifier_from_file(text: &str, name: &str) -> Result<Amplifier, SpecErrors> {
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    if text.len() > MAX_SPEC_BYTES {
+        return Err(SpecErrors::one(SpecError {
+            key: "file".into(),
+            line: None,
+            message: format!(
+                "the file is more than the {MAX_SPEC_BYTES} bytes an op-amp file may have"
+            ),
+        }));
+    }
+    let lines = LineIndex::lf(text.as_bytes());
+    let doc = toml_edit::ImDocument::parse(text).map_err(|e| {
+        SpecErrors::one(SpecError {
+            key: "toml".into(),
+            line: e.span().map(|s| lines.line_of(s.start)),
+            message: format!("not valid TOML: {}", e.message().trim_end()),
+        })
+    })?;
+    let mut positions = Positions::new(&doc, lines);
+    let root = toml::Table::deserialize(toml_edit::de::Deserializer::from(doc)).map_err(|e| {
+        SpecErrors::one(SpecError {
+            key: "toml".into(),
+            line: None,
+            message: format!("not valid TOML: {}", e.message().trim_end()),
+        })
+    })?;
+    let names: Vec<&str> = root
+        .iter()
+        .filter(|(_, v)| v.is_table())
+        .map(|(k, _)| k.as_str())
+        .collect();
+    let Some(entry) = root.get(name) else {
+        let list = if names.is_empty() {
+            "the file has no amplifier tables".to_string()
+        } else {
+            format!("the file has {}", names.join(", "))
+        };
+        let hint = nearest(name, &names)
+            .map(|n| format!("did you mean `{n}`? "))
+            .unwrap_or_default();
+        return Err(SpecErrors::one(SpecError {
+            key: name.to_string(),
+            line: None,
+            message: format!("no amplifier named {name:?}; {hint}{list}"),
+        }));
+    };
+    let Value::Table(t) = entry else {
+        return Err(SpecErrors::one(SpecError {
+            key: name.to_string(),
+            line: positions.line_of(name, None),
+            message: format!(
+                "found {}, expected a table `[{name}]` of amplifier figures",
+                found(entry)
+            ),
+        }));
+    };
+    // Read under the section name `amplifier`, so the figures are judged as in a spec, then
+    // name the entry in the errors.
+    if let Some(at) = positions.sections.get(name).cloned() {
+        positions.sections.insert("amplifier".into(), at);
+    }
+    let mut r = Reader {
+        positions,
+        errors: Vec::new(),
+        more: 0,
+    };
+    r.check_keys("amplifier", t, AMPLIFIER_KEYS);
+    let amplifier = read_amplifier(&mut r, t);
+    if r.errors.is_empty() && r.more == 0 {
+        return Ok(amplifier);
+    }
+    for e in &mut r.errors {
+        if let Some(rest) = e.key.strip_prefix("amplifier") {
+            e.key = format!("{name}{rest}");
+        }
+    }
+    Err(SpecErrors(r.errors, r.more))
+}
+
+impl Spec {
+    /// Fill `amplifier` from the text of the op-amp file `amplifier_file` names (the caller
+    /// reads the file); nothing to do without one.
+    pub fn resolve_amplifier(&mut self, text: &str) -> Result<(), SpecErrors> {
+        if let Some(f) = &self.amplifier_file {
+            self.amplifier = amplifier_from_file(text, &f.name)?;
+        }
+        Ok(())
+    }
+}
 
 /// Default resistor range: below ~100 Ω the feedback network loads the op-amp output, above
 /// 10 MΩ leakage and bias currents dominate (common practice).

@@ -5,7 +5,7 @@
 //! tolerance (all 2^n corners of the tolerance box) and each figure takes its worst corner;
 //! the op-amp's bias current, offset current and offset voltage take both signs.
 
-use super::check::{Bound, Check, CAP_DERATING, RESISTOR_DERATING};
+use super::check::{Bound, Check, RESISTOR_DERATING};
 use super::{budget, noise, response, yield_mc};
 use crate::build::{Build, Part};
 use crate::circuit::{common, Circuit, DcErrors, OpAmp};
@@ -49,7 +49,8 @@ pub struct CapReport {
     pub polarized: bool,
     /// Voltage the realisation can stand, V; `None` when a piece has no rating.
     pub rating: Option<f64>,
-    /// Smallest rating that meets the derating: |V|max / 0.8.
+    /// Smallest rating the rule allows: |V|max / 0.8, and under the default rule at least the
+    /// rail the capacitor can see (`analysis::rating`).
     pub rating_needed: f64,
 }
 
@@ -178,6 +179,20 @@ pub struct Metrics {
     /// band integral at every vertex is too slow otherwise).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub input_noise_worst_v: Option<f64>,
+    /// Highest output current at the peak (load and feedback network), A; only with
+    /// `output_current_max` (`analysis::amplifier`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub output_current_peak_a: Option<f64>,
+    /// Lowest and highest voltage at either input, V; only with `input_common_mode`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub input_voltage_range_v: Option<(f64, f64)>,
+    /// Supply ripple at the load, V rms (nominal); only with `supply_ripple`
+    /// (`analysis::ripple`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub ripple_out_v: Option<f64>,
+    /// Highest supply ripple at the load over the tolerance corners, V rms.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub ripple_out_worst_v: Option<f64>,
 }
 
 /// Everything known about one build.
@@ -579,11 +594,22 @@ fn evaluate_with(
                 negative_side: neg.to_string(),
                 polarized: part.polarized(),
                 rating: part.voltage_rating(),
-                rating_needed: lo.abs().max(hi.abs()) / CAP_DERATING,
+                rating_needed: super::rating::rating_needed(
+                    spec,
+                    stage,
+                    b.slot,
+                    lo.abs().max(hi.abs()),
+                ),
             }
         })
         .collect();
 
+    let ripple = super::ripple::figures(spec, stage, &v, &vertices);
+    let (output_current, input_voltage_range) = {
+        let points: Vec<(&Vec<f64>, crate::circuit::DcPoint)> =
+            dc_points.iter().map(|(x, p)| (*x, *p)).collect();
+        super::amplifier::worst(spec, stage, &points, gain_mag_max, swing)
+    };
     let out_peak = spec.required_output_peak().unwrap_or(swing.max(0.0));
     let power: Vec<PowerReport> = stage
         .resistor_power(spec, &v, &dc, out_peak)
@@ -632,8 +658,29 @@ fn evaluate_with(
         input_noise_worst_v: spec
             .input_noise_max
             .map(|max| worst_input_noise(spec, stage, &v, &vertices, max)),
+        output_current_peak_a: output_current,
+        input_voltage_range_v: input_voltage_range,
+        ripple_out_v: ripple.0,
+        ripple_out_worst_v: ripple.1,
     };
     let mut checks = checks(spec, &metrics, &caps, &power, stock.map(|s| s.fits(&parts)));
+    checks.extend(super::rating::dielectric_checks(spec, stage, build));
+    let corners: Vec<super::ripple::NetworkCorner> = metrics
+        .networks
+        .iter()
+        .map(|n| (n.name.as_str(), n.cap_slot.as_str(), n.corner_worst_hz))
+        .collect();
+    checks.extend(super::ripple::checks(
+        spec,
+        stage,
+        metrics.ripple_out_worst_v,
+        &corners,
+    ));
+    checks.extend(super::amplifier::checks(
+        spec,
+        metrics.output_current_peak_a,
+        metrics.input_voltage_range_v,
+    ));
     // The corner checks' verdicts: the band's edge at most 3 dB down at every vertex (the
     // corner lies past the edge exactly then, `response::low_corner` guards it), so that the
     // verdict needs no corner and `judge` gives the same as `evaluate`.
@@ -915,16 +962,7 @@ fn checks(
         if let Some(rating) = c.rating {
             out.push(Check::new(
                 &format!("rating_{}", c.slot),
-                format!(
-                    "{} voltage rating ({} DC ≤ {:.0} % of it)",
-                    c.slot,
-                    if spec.worst_case() {
-                        "worst"
-                    } else {
-                        "nominal"
-                    },
-                    100.0 * CAP_DERATING
-                ),
+                super::rating::rating_label(spec, &c.slot, worst),
                 rating,
                 Bound::Min,
                 c.rating_needed,

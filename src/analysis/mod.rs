@@ -3,13 +3,16 @@
 //! Monte Carlo yield on the same checks.
 //!
 //! This file only declares and re-exports; the files depend on each other one way
-//! (check, response → noise, budget, yield_mc → evaluate).
+//! (check, response → noise, budget, rating, amplifier, ripple → yield_mc → evaluate).
 
+pub mod amplifier;
 pub mod budget;
 pub mod check;
 pub mod evaluate;
 pub mod noise;
+pub mod rating;
 pub mod response;
+pub mod ripple;
 #[cfg(test)]
 mod textbook_checks;
 pub mod yield_mc;

@@ -174,6 +174,14 @@ enum Judge {
     CommonModeLow(f64),
     /// The most input-referred noise over the band, V rms.
     InputNoise(f64),
+    /// The output current's limit (`analysis::amplifier`).
+    OutputCurrent(f64),
+    /// The lowest input voltage's limit.
+    InputLow(f64),
+    /// The highest input voltage's limit.
+    InputHigh(f64),
+    /// The ripple's limit at the load, and the supply ripple (`analysis::ripple`).
+    Ripple(f64, f64),
 }
 
 /// The judges in `analysis::checks` order, with their check names.
@@ -238,7 +246,14 @@ fn judges(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Vec<(String, Judge
         // The rating of the nominal pieces: the share of a series pair moves little with
         // tolerance, and in practice leakage, not capacitance, splits DC across series parts.
         if let Some(rating) = part.voltage_rating() {
-            out.push((format!("rating_{name}"), Judge::Rating(i, rating)));
+            // The rail the part can see does not move with tolerance: judged once.
+            let rail = super::rating::rating_needed(spec, stage, b.slot, 0.0);
+            let judge = if rating < rail * (1.0 - 1e-12) {
+                Judge::Fixed(false)
+            } else {
+                Judge::Rating(i, rating)
+            };
+            out.push((format!("rating_{name}"), judge));
         }
         if part.polarized() {
             out.push((
@@ -281,6 +296,35 @@ fn judges(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Vec<(String, Judge
     }
     if let Some(max) = spec.input_noise_max {
         out.push(("input_noise".into(), Judge::InputNoise(max)));
+    }
+    for c in super::rating::dielectric_checks(spec, stage, build) {
+        out.push((c.name, Judge::Fixed(c.pass)));
+    }
+    if let (Some(max), Some(v_r)) = (spec.ripple_out_max, spec.supply_ripple) {
+        out.push(("ripple_out".into(), Judge::Ripple(max, v_r)));
+    }
+    {
+        // The bypasses' corners (`analysis::ripple`), by network index.
+        let slots = stage.slots();
+        let off = stage.off_signal_path();
+        for (i, n) in stage.networks(spec, &v).iter().enumerate() {
+            if off.contains(&n.cap_slot) {
+                out.push((
+                    format!("bypass_{}", slots[n.cap_slot].name),
+                    Judge::Corner(i, spec.band.0),
+                ));
+            }
+        }
+    }
+    if let Some(max) = spec.amplifier.output_current_max {
+        out.push(("output_current".into(), Judge::OutputCurrent(max)));
+    }
+    if let Some((lo, hi)) = spec.amplifier.input_common_mode {
+        out.push(("input_common_mode_low".into(), Judge::InputLow(lo)));
+        out.push((
+            "input_common_mode_high".into(),
+            Judge::InputHigh(spec.supply - hi),
+        ));
     }
     out
 }
@@ -428,6 +472,26 @@ pub fn monte_carlo(
                         -caps[i].volts
                     };
                     passes(least, Bound::Min, 0.0)
+                }
+                Judge::Ripple(max, v_r) => passes(
+                    super::ripple::ripple_out(spec, stage, &x, v_r),
+                    Bound::Max,
+                    max,
+                ),
+                Judge::OutputCurrent(max) => {
+                    let peak = super::amplifier::output_peak(spec, gain, swing);
+                    let i = super::amplifier::output_current(spec, stage, &x, peak);
+                    passes(i, Bound::Max, max)
+                }
+                Judge::InputLow(min) => {
+                    let peak = super::amplifier::output_peak(spec, gain, swing);
+                    let (lo, _) = super::amplifier::input_range(spec, stage, &x, &dc, peak);
+                    passes(lo, Bound::Min, min)
+                }
+                Judge::InputHigh(max) => {
+                    let peak = super::amplifier::output_peak(spec, gain, swing);
+                    let (_, hi) = super::amplifier::input_range(spec, stage, &x, &dc, peak);
+                    passes(hi, Bound::Max, max)
                 }
                 Judge::Power(slot, limit) => power
                     .iter()

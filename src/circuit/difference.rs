@@ -215,10 +215,26 @@ impl Circuit for Difference {
     /// V_out = L·(A₂·V₊ − A₁·V₋) with L = 1/(1 + 1/(aβ)), β = R₁/(R₁ + R_2): the + input
     /// is a plain divider, the rest an inverting stage (feedback theory), so the differential
     /// response is A_d·L.
+    /// The differential gain with each resistor's stray capacitance across it
+    /// (`common::resistor_z`) and the source's impedance in each leg: A_d = (Z_2/Z₁ + Z_4/(Z₃ +
+    /// Z_4)·(1 + Z_2/Z₁))/2, times the loop factor with β = Z₁/(Z₁ + Z_2) (a single-pole
+    /// op-amp: the output is (1/β)·V₊ − ((1 − β)/β)·V₋ times Aβ/(1 + Aβ)).
     fn response(&self, spec: &Spec, v: &[f64], opamp: &OpAmp, f: f64) -> Complex64 {
-        let (r1, r2, _, _) = legs(spec, v);
-        let beta = Complex64::new(r1 / (r1 + r2), 0.0);
-        Complex64::new(self.mid_gain(spec, v), 0.0) * opamp.loop_factor(f, beta)
+        use super::common::{resistor_z, source_z};
+        let zs = source_z(spec, f);
+        let (z1, z2) = (
+            zs + resistor_z(spec, v[R_1], f),
+            resistor_z(spec, v[R_2], f),
+        );
+        let (z3, z4) = (
+            zs + resistor_z(spec, v[R_3], f),
+            resistor_z(spec, v[R_4], f),
+        );
+        let one = Complex64::new(1.0, 0.0);
+        let a1 = z2 / z1;
+        let a2 = z4 / (z3 + z4) * (one + a1);
+        let beta = z1 / (z1 + z2);
+        (a1 + a2) / 2.0 * opamp.loop_factor(f, beta)
     }
 
     fn networks(&self, _spec: &Spec, _v: &[f64]) -> Vec<Network> {

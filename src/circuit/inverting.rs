@@ -45,7 +45,7 @@ pub const C_IN: usize = 4;
 /// Slot index of `c_out`, the output coupling capacitor.
 pub const C_OUT: usize = 5;
 
-const SLOTS: &[SlotDef] = &[
+pub(crate) const SLOTS: &[SlotDef] = &[
     SlotDef {
         name: "r_in",
         kind: PartKind::Resistor,
@@ -273,6 +273,16 @@ impl Circuit for Inverting {
         ]
     }
 
+    /// The − input is a virtual ground: the output drives r_fb alone, and the inputs carry no
+    /// signal (feedback theory, ideal op-amp).
+    fn feedback_load(&self, _spec: &Spec, v: &[f64]) -> f64 {
+        v[R_FB]
+    }
+
+    fn input_signal_per_output(&self, _spec: &Spec, _v: &[f64]) -> f64 {
+        0.0
+    }
+
     fn resistor_power(
         &self,
         spec: &Spec,
@@ -427,74 +437,6 @@ impl Drawing for Inverting {
     /// The drawing of the module docs: the input chain along the top, r_fb above the op-amp,
     /// the divider below on the + input, c_out to the load on the right.
     fn schematic_layout(&self) -> &'static super::layout::Layout {
-        use super::layout::{opamp_pins, Layout, Placed, Side, P};
-        const U: P = P(460, 200);
-        const PINS: super::layout::OpAmpPins = opamp_pins(U);
-        const LAYOUT: Layout = Layout {
-            size: (900, 510),
-            opamp: U,
-            plus_on_top: false,
-            source: P(60, 200),
-            load: P(780, 220),
-            supplies: &[P(300, 270)],
-            grounds: &[P(300, 470)],
-            wires: &[
-                &[P(60, 200), P(90, 200)],
-                &[P(190, 200), P(240, 200)],
-                &[P(340, 200), PINS.upper],
-                &[P(400, 200), P(400, 90), P(450, 90)],
-                &[P(550, 90), P(620, 90), P(620, 220)],
-                &[PINS.out, P(640, 220)],
-                &[P(740, 220), P(780, 220)],
-                &[PINS.lower, P(430, 240), P(430, 370), P(300, 370)],
-            ],
-            dots: &[P(400, 200), P(620, 220), P(300, 370)],
-            parts: &[
-                Placed {
-                    slot: R_IN,
-                    from: P(240, 200),
-                    to: P(340, 200),
-                    label: Side::Above,
-                    from_side: None,
-                },
-                Placed {
-                    slot: R_FB,
-                    from: P(450, 90),
-                    to: P(550, 90),
-                    label: Side::Above,
-                    from_side: None,
-                },
-                Placed {
-                    slot: R_BIAS_HI,
-                    from: P(300, 270),
-                    to: P(300, 370),
-                    label: Side::Left,
-                    from_side: None,
-                },
-                Placed {
-                    slot: R_BIAS_LO,
-                    from: P(300, 370),
-                    to: P(300, 470),
-                    label: Side::Left,
-                    from_side: None,
-                },
-                Placed {
-                    slot: C_IN,
-                    from: P(90, 200),
-                    to: P(190, 200),
-                    label: Side::Above,
-                    from_side: Some("source side"),
-                },
-                Placed {
-                    slot: C_OUT,
-                    from: P(640, 220),
-                    to: P(740, 220),
-                    label: Side::Above,
-                    from_side: Some("op-amp side"),
-                },
-            ],
-            minus_source: None,
-        };
         &LAYOUT
     }
 }
@@ -760,3 +702,73 @@ impl SearchPlan for Inverting {
         }
     }
 }
+
+use super::layout::{opamp_pins, Layout, Placed, Side, P};
+const U: P = P(460, 200);
+const PINS: super::layout::OpAmpPins = opamp_pins(U);
+/// The drawing (`Drawing::schematic_layout`), shared with the decoupled variant.
+pub(crate) const LAYOUT: Layout = Layout {
+    size: (900, 510),
+    opamp: U,
+    plus_on_top: false,
+    source: P(60, 200),
+    load: P(780, 220),
+    supplies: &[P(300, 270)],
+    grounds: &[P(300, 470)],
+    wires: &[
+        &[P(60, 200), P(90, 200)],
+        &[P(190, 200), P(240, 200)],
+        &[P(340, 200), PINS.upper],
+        &[P(400, 200), P(400, 90), P(450, 90)],
+        &[P(550, 90), P(620, 90), P(620, 220)],
+        &[PINS.out, P(640, 220)],
+        &[P(740, 220), P(780, 220)],
+        &[PINS.lower, P(430, 240), P(430, 370), P(300, 370)],
+    ],
+    dots: &[P(400, 200), P(620, 220), P(300, 370)],
+    parts: &[
+        Placed {
+            slot: R_IN,
+            from: P(240, 200),
+            to: P(340, 200),
+            label: Side::Above,
+            from_side: None,
+        },
+        Placed {
+            slot: R_FB,
+            from: P(450, 90),
+            to: P(550, 90),
+            label: Side::Above,
+            from_side: None,
+        },
+        Placed {
+            slot: R_BIAS_HI,
+            from: P(300, 270),
+            to: P(300, 370),
+            label: Side::Left,
+            from_side: None,
+        },
+        Placed {
+            slot: R_BIAS_LO,
+            from: P(300, 370),
+            to: P(300, 470),
+            label: Side::Left,
+            from_side: None,
+        },
+        Placed {
+            slot: C_IN,
+            from: P(90, 200),
+            to: P(190, 200),
+            label: Side::Above,
+            from_side: Some("source side"),
+        },
+        Placed {
+            slot: C_OUT,
+            from: P(640, 220),
+            to: P(740, 220),
+            label: Side::Above,
+            from_side: Some("op-amp side"),
+        },
+    ],
+    minus_source: None,
+};

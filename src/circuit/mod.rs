@@ -9,8 +9,10 @@
 pub mod common;
 pub mod difference;
 pub mod inverting;
+pub mod inverting_decoupled;
 pub mod layout;
 pub mod non_inverting;
+pub mod non_inverting_decoupled;
 pub mod plan;
 pub(crate) mod plans;
 pub mod split_supply;
@@ -34,6 +36,35 @@ pub fn circuit_for(kind: StageKind) -> &'static dyn Circuit {
         StageKind::NonInvertingDcCompensated => &split_supply::NON_INVERTING_COMPENSATED,
         StageKind::Difference => &difference::Difference,
     }
+}
+
+/// The circuit a spec asks for: its stage with its bias network (`[stage] bias`).
+pub fn circuit_of(spec: &crate::spec::Spec) -> &'static dyn Circuit {
+    use crate::spec::BiasNetwork;
+    match (spec.stage, spec.bias) {
+        (StageKind::Inverting, BiasNetwork::Decoupled) => &inverting_decoupled::InvertingDecoupled,
+        (StageKind::NonInverting, BiasNetwork::Decoupled) => {
+            &non_inverting_decoupled::NonInvertingDecoupled
+        }
+        // The DC-coupled and difference stages have no bias network to decouple (the spec
+        // refuses `bias = "decoupled"` there).
+        (kind, _) => circuit_for(kind),
+    }
+}
+
+/// Every circuit, for the tests that hold each to its drawing.
+pub fn all() -> [&'static dyn Circuit; 9] {
+    [
+        &inverting::Inverting,
+        &non_inverting::NonInverting,
+        &inverting_decoupled::InvertingDecoupled,
+        &non_inverting_decoupled::NonInvertingDecoupled,
+        &split_supply::INVERTING,
+        &split_supply::INVERTING_COMPENSATED,
+        &split_supply::NON_INVERTING,
+        &split_supply::NON_INVERTING_COMPENSATED,
+        &difference::Difference,
+    ]
 }
 
 /// Index of a slot by name.

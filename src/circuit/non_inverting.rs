@@ -52,7 +52,7 @@ pub const C_G: usize = 5;
 /// Slot index of `c_out`, the output coupling capacitor.
 pub const C_OUT: usize = 6;
 
-const SLOTS: &[SlotDef] = &[
+pub(crate) const SLOTS: &[SlotDef] = &[
     SlotDef {
         name: "c_in",
         kind: PartKind::Capacitor,
@@ -166,7 +166,7 @@ fn figures<T: Num>(spec: &Spec, v: &[T]) -> Figures<T> {
 /// (R_fb and R_g together are the noise of their parallel value at the input; Z_p·k = R_s).
 /// Rising in R_fb and R_g, falling in each divider resistor; without a source resistance
 /// k = 1 and the divider drops out (the source shorts the + input at mid-band).
-fn noise_density<T: Num>(spec: &Spec, hi: T, lo: T, fb: T, g: T) -> T {
+pub(crate) fn noise_density<T: Num>(spec: &Spec, hi: T, lo: T, fb: T, g: T) -> T {
     let rs = spec.source_resistance;
     let four_kt = crate::objective::noise::four_kt();
     let (en2, in2) = crate::objective::noise::amplifier_powers(spec);
@@ -445,6 +445,11 @@ impl Circuit for NonInverting {
                 b_node: "load side",
             },
         ]
+    }
+
+    /// Mid-band (c_g shorted) the output drives r_fb and r_g in series to ground.
+    fn feedback_load(&self, _spec: &Spec, v: &[f64]) -> f64 {
+        v[R_FB] + v[R_G]
     }
 
     fn resistor_power(

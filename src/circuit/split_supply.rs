@@ -283,10 +283,25 @@ impl Circuit for DcStage {
 
     /// Inverting: −(R_f/R₁)·L; non-inverting: (1 + R_f/R₁)·L, with L = 1/(1 + 1/(aβ)) and
     /// β = R₁/(R₁ + R_f) (feedback theory, any op-amp text). No coupling networks.
+    /// Each resistor with its stray capacitance across it (`common::resistor_z`), the source's
+    /// impedance in the inverting leg: H = −Z_f/Z₁ or 1 + Z_f/Z₁ times the loop factor with
+    /// β = Z₁/(Z₁ + Z_f) (a single-pole op-amp, any feedback text). r_comp carries no
+    /// signal current (the + input draws none), so its stray does not enter.
     fn response(&self, spec: &Spec, v: &[f64], opamp: &OpAmp, f: f64) -> Complex64 {
-        let (r1, rf) = (self.r1(spec, v), v[R_FB]);
-        let beta = Complex64::new(r1 / (r1 + rf), 0.0);
-        Complex64::new(self.gain(spec, v), 0.0) * opamp.loop_factor(f, beta)
+        let leg = super::common::resistor_z(spec, v[R_LEG], f);
+        let z1 = if self.inverting {
+            super::common::source_z(spec, f) + leg
+        } else {
+            leg
+        };
+        let zf = super::common::resistor_z(spec, v[R_FB], f);
+        let beta = z1 / (z1 + zf);
+        let ideal = if self.inverting {
+            -(zf / z1)
+        } else {
+            Complex64::new(1.0, 0.0) + zf / z1
+        };
+        ideal * opamp.loop_factor(f, beta)
     }
 
     fn networks(&self, _spec: &Spec, _v: &[f64]) -> Vec<Network> {

@@ -108,6 +108,29 @@ pub trait Circuit: Send + Sync {
         None
     }
 
+    /// The resistance the feedback network presents to the op-amp's output at mid-band, Ω
+    /// (with the load, what the output must drive: `analysis::amplifier`). Default: |Z_f| at
+    /// the band's centre, exact when the − input is a virtual ground and otherwise an
+    /// underestimate (so the current is overestimated, the safe side).
+    fn feedback_load(&self, spec: &Spec, v: &[f64]) -> f64 {
+        let centre = (spec.band.0 * spec.band.1).sqrt();
+        self.noise_circuit(spec, v, centre).z_f.norm()
+    }
+
+    /// The signal at the op-amp's inputs per volt of output signal at mid-band, with an ideal
+    /// op-amp (the inputs' common-mode swing, `analysis::amplifier`). Default 1/(noise gain):
+    /// exact for a non-inverting stage, and above the inverting stage's (virtual ground) 0.
+    fn input_signal_per_output(&self, spec: &Spec, v: &[f64]) -> f64 {
+        1.0 / self.noise_gain(spec, v)
+    }
+
+    /// Capacitor slots outside the signal path (a bias bypass to ground), where a class-2
+    /// ceramic does no harm to the signal (`analysis::rating`). Default: none, every
+    /// capacitor carries the signal.
+    fn off_signal_path(&self) -> &'static [usize] {
+        &[]
+    }
+
     /// How the circuit is drawn: netlist wiring and schematic.
     fn drawing(&self) -> &dyn Drawing;
 

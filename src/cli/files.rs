@@ -164,8 +164,40 @@ pub fn load_inventory(path: &Path) -> Result<Inventory, Failure> {
 /// Loads a spec, bounded in size, and the folder its relative paths start from.
 pub fn load_spec(path: &Path) -> Result<(Spec, PathBuf), Failure> {
     let bytes = read_bounded(path, spec::MAX_SPEC_BYTES, "spec")?;
-    let spec = Spec::from_bytes(&bytes).with_context(|| format!("in {}", path.display()))?;
+    let mut spec = Spec::from_bytes(&bytes).with_context(|| format!("in {}", path.display()))?;
     let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
+    if let Some(f) = spec.amplifier_file.clone() {
+        // `amplifier = "FILE#NAME"`: the file relative to the spec's folder, read here.
+        let file = base.join(&f.path);
+        let named_by = match f.line {
+            Some(line) => format!("named by {} line {line}, `amplifier`", path.display()),
+            None => format!("named by {}, `amplifier`", path.display()),
+        };
+        let bytes = read_bounded(&file, spec::MAX_SPEC_BYTES, "op-amp file")
+            .map_err(|e| Failure::input(e.error.context(named_by.clone())))?;
+        let text = String::from_utf8(bytes).map_err(|_| {
+            Failure::input(anyhow::anyhow!(
+                "{}: not UTF-8 text ({named_by})",
+                file.display()
+            ))
+        })?;
+        spec.resolve_amplifier(&text).map_err(|e| {
+            let n = e.0.len() + e.1;
+            let mut text = format!(
+                "{n} problem{} in the op-amp file:",
+                if n == 1 { "" } else { "s" }
+            );
+            for p in &e.0 {
+                text.push_str(&format!("\n  {p}"));
+            }
+            if e.1 > 0 {
+                text.push_str(&format!("\n  and {} more", e.1));
+            }
+            Failure::input(
+                anyhow::anyhow!(text).context(format!("in {} ({named_by})", file.display())),
+            )
+        })?;
+    }
     Ok((spec, base))
 }
 

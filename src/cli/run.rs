@@ -226,7 +226,7 @@ fn pick(
     output: &Output,
 ) -> Result<i32, Failure> {
     let (top, chosen) = (ranking.top, ranking.chosen);
-    let circuit = circuit::circuit_for(spec.stage);
+    let circuit = circuit::circuit_of(spec);
     let Resolved { stock, description } = resolve_stock(spec, spec_path, stock_over)?;
     // Every input is read now: no output may be one of them (nor another output).
     output::check(output)?;
@@ -354,7 +354,7 @@ fn check(
     set: &[String],
     output: &Output,
 ) -> Result<i32, Failure> {
-    let circuit = circuit::circuit_for(spec.stage);
+    let circuit = circuit::circuit_of(spec);
     let Resolved { stock, description } = resolve_stock(spec, spec_path, stock_over)?;
     output::check(output)?;
     let entries = split_entries(set, "--set")?;

@@ -73,7 +73,7 @@ pub fn take(args: &TakeArgs) -> Result<i32, Failure> {
         inventory::parse_bytes(&original).with_context(|| format!("in {}", path.display()))?,
     );
 
-    let stage = circuit::circuit_for(spec.stage);
+    let stage = circuit::circuit_of(&spec);
     // Both kinds come from the one inventory the pieces are taken off.
     let stock = Stock::new(
         Source::Inventory(inv.clone()),

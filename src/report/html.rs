@@ -474,7 +474,13 @@ pub fn report_for(
     let rows = bom::rows(stage, &best.build, stock);
     bom_table(&mut out, &rows);
 
-    cautions(&mut out, &super::common::build_cautions(&best.evaluation));
+    let mut own = super::common::build_cautions(&best.evaluation);
+    own.extend(crate::analysis::rating::build_cautions(
+        spec,
+        stage,
+        &best.build,
+    ));
+    cautions(&mut out, &own);
     let _ = writeln!(
         out,
         "<footer>Written by stockfit {}. Values are nominal unless marked worst case.</footer>\n</body>\n</html>",

@@ -37,6 +37,10 @@ struct BuildJson<'a> {
     noise: Option<&'a crate::analysis::noise::NoiseReport>,
     #[serde(skip_serializing_if = "Option::is_none")]
     dc_budget: Option<&'a crate::analysis::budget::DcBudget>,
+    /// The build's own cautions (a class-2 ceramic allowed into the signal path), beside the
+    /// document's usual ones.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    cautions: Vec<String>,
 }
 
 /// Yield with the per-check fractions as an object keyed by check name.
@@ -105,6 +109,7 @@ pub fn builds(spec: &Spec, stage: &dyn Circuit, ranked: &[Ranked], proven: bool)
             }),
             noise: r.evaluation.noise.as_ref(),
             dc_budget: r.evaluation.dc_budget.as_ref(),
+            cautions: crate::analysis::rating::build_cautions(spec, stage, &r.build),
         })
         .collect();
     let doc = Document {

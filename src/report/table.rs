@@ -556,6 +556,33 @@ pub fn figures(spec: &Spec, evaluation: &Evaluation) -> String {
         format(m.swing_peak_v, Unit::Volt),
         format(m.input_range_peak_v, Unit::Volt)
     );
+    if let (Some(r), Some(w), Some(v_r)) =
+        (m.ripple_out_v, m.ripple_out_worst_v, spec.supply_ripple)
+    {
+        let _ = writeln!(
+            out,
+            "  supply ripple {} rms at {} gives {} rms at the output (worst {})",
+            format(v_r, Unit::Volt),
+            format(spec.ripple_frequency, Unit::Hertz),
+            format(r, Unit::Volt),
+            format(w, Unit::Volt)
+        );
+    }
+    if let Some(i) = m.output_current_peak_a {
+        let _ = writeln!(
+            out,
+            "  output current {} at the peak (load and feedback network, worst case)",
+            format(i, Unit::Ampere)
+        );
+    }
+    if let Some((lo, hi)) = m.input_voltage_range_v {
+        let _ = writeln!(
+            out,
+            "  op-amp inputs between {} and {} (DC and signal, worst case)",
+            format_sig(lo, Unit::Volt, 3),
+            format_sig(hi, Unit::Volt, 3)
+        );
+    }
     if let Some(n) = &evaluation.noise {
         let snr = n.snr_db.map_or(String::new(), |s| {
             format!(", SNR {s:.1} dB at the required peak")
@@ -685,9 +712,13 @@ fn detail_lines(spec: &Spec, stage: &dyn Circuit, ranked: &Ranked, style: Style)
     out.push('\n');
     out.push_str(&capacitors(spec, &ranked.evaluation, &ranked.build, stage));
     out.push('\n');
-    out.push_str(&cautions_for(&super::common::build_cautions(
-        &ranked.evaluation,
-    )));
+    let mut own = super::common::build_cautions(&ranked.evaluation);
+    own.extend(crate::analysis::rating::build_cautions(
+        spec,
+        stage,
+        &ranked.build,
+    ));
+    out.push_str(&cautions_for(&own));
     out
 }
 

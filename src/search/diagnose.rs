@@ -161,12 +161,28 @@ const KNOBS: &[Knob] = &[
         set: |s, v| s.input_noise_max = v,
     },
     Knob {
+        key: "stage.ripple_out_max",
+        checks: &["ripple_out"],
+        unit: Unit::Volt,
+        larger_is_stricter: false,
+        get: |s| s.ripple_out_max,
+        set: |s, v| s.ripple_out_max = v,
+    },
+    Knob {
         key: "amplifier.slew_rate",
         checks: &["slew_rate"],
         unit: Unit::VoltPerSecond,
         larger_is_stricter: false,
         get: |s| s.amplifier.slew_rate,
         set: |s, v| s.amplifier.slew_rate = v,
+    },
+    Knob {
+        key: "amplifier.output_current_max",
+        checks: &["output_current"],
+        unit: Unit::Ampere,
+        larger_is_stricter: false,
+        get: |s| s.amplifier.output_current_max,
+        set: |s, v| s.amplifier.output_current_max = v,
     },
     Knob {
         key: "amplifier.gbw",

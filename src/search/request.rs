@@ -514,6 +514,7 @@ pub fn ruled_out(spec: &Spec) -> bool {
         (None, None) => Some(0.0),
     };
     need.is_some_and(|n| room < n * (1.0 - SLACK) - SLACK)
+        || crate::analysis::amplifier::ruled_out(spec)
 }
 
 /// The scores of ranked builds under the spec's own weights (their order is kept: it is the

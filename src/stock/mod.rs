@@ -5,6 +5,7 @@
 //! way a slot's candidates are realisations: one piece, or (with `combine`) two pieces in
 //! series or in parallel.
 
+pub mod dielectric;
 pub mod edit;
 pub mod inventory;
 pub mod pool;

@@ -155,7 +155,7 @@ pub struct Prepared {
 pub fn prepare(case: &Case) -> Result<Prepared, TestCaseError> {
     let spec = Spec::from_toml(&case.spec_toml)
         .map_err(|e| TestCaseError::fail(format!("{e}\n{}", case.spec_toml)))?;
-    let stage: &'static dyn Circuit = circuit::circuit_for(spec.stage);
+    let stage: &'static dyn Circuit = circuit::circuit_of(&spec);
     let inv =
         Arc::new(Inventory::parse_str(&case.csv).map_err(|e| TestCaseError::fail(e.to_string()))?);
     let stock = Stock::new(
