@@ -636,31 +636,25 @@ impl<'a> Dfs<'a> {
             .plan
             .walk(self.req.spec, next.group, next.k, &self.vals)
             .inside_window();
-        let rest = self.rest_static[level + 2] + self.lines_lb(level + 2, Some(ki));
-        let limit = self.bound() - score - rest;
-        let floor = Walk::floor(
-            table,
-            &plan,
-            &self.used[ki],
-            limit,
-            &mut self.hints[level + 1],
-        );
-        if !self.admits(score + floor + rest) {
-            return None;
-        }
-        let tight = self.rest_lb(level + 2, Some(ki)).max(rest);
-        if tight > rest {
-            let limit = self.bound() - score - tight;
+        // Whether the next slot's cheapest candidate still leads with `rest` after it.
+        let leads = |dfs: &mut Self, rest: f64| {
+            let limit = dfs.bound() - score - rest;
             let floor = Walk::floor(
                 table,
                 &plan,
-                &self.used[ki],
+                &dfs.used[ki],
                 limit,
-                &mut self.hints[level + 1],
+                &mut dfs.hints[level + 1],
             );
-            if !self.admits(score + floor + tight) {
-                return None;
-            }
+            dfs.admits(score + floor + rest)
+        };
+        let rest = self.rest_static[level + 2] + self.lines_lb(level + 2, Some(ki));
+        if !leads(self, rest) {
+            return None;
+        }
+        let tight = self.rest_lb(level + 2, Some(ki)).max(rest);
+        if tight > rest && !leads(self, tight) {
+            return None;
         }
         Some(Some((plan, tight)))
     }
