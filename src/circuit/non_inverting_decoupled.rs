@@ -561,7 +561,22 @@ impl SearchPlan for NonInvertingDecoupled {
                 if !common::swing_ok(spec, common::swing(spec, vmin, vmax), g_hi) {
                     return None;
                 }
-                Self::offset_points(spec, parts)
+                // The noise and divider-current goals, exact here (the gain pair and r_bias_in
+                // are chosen before the divider): the circuit terms of `figures` sum to the
+                // groups' shares.
+                let r_in = get(parts, R_BIAS_IN)?.value;
+                let noise = super::non_inverting::noise_density(
+                    spec,
+                    2.0 * r_in,
+                    2.0 * r_in,
+                    fb.value,
+                    rg.value,
+                );
+                let current = common::divider_current(spec.supply, hi.value, lo.value);
+                Self::offset_points(spec, parts).map(|o| {
+                    o + crate::objective::noise::points(spec, noise)
+                        + crate::objective::divider_current::points(spec, current)
+                })
             }
             C_IN => {
                 let (c, r_in) = (get(parts, C_IN)?, get(parts, R_BIAS_IN)?);
