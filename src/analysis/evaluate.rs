@@ -301,10 +301,25 @@ pub fn quick_fail(spec: &Spec, stage: &dyn Circuit, build: &Build) -> bool {
 /// as `quick_failure` would give it for every completion of these resistors.
 pub fn dc_failure(spec: &Spec, stage: &dyn Circuit, parts: &[&Part]) -> Option<&'static str> {
     debug_assert!(stage.dc_from_resistors());
+    let resistors = common::vertices_where(spec, parts, |p| p.kind == PartKind::Resistor);
+    resistor_failure(spec, stage, &resistors, &resistors)
+}
+
+/// The checks of [`quick_failure`] before the coupling networks: the gain window and the input
+/// resistance at each of `vertices`, the slew rate at their highest |gain|, the swing around the
+/// DC range over `dc_vertices` (the resistors' corners) and the op-amp's error signs, and the
+/// divider current. One function for [`quick_failure`] (every part's corners) and
+/// [`dc_failure`] (the resistors' alone), so the two never judge differently.
+fn resistor_failure(
+    spec: &Spec,
+    stage: &dyn Circuit,
+    vertices: &[Vec<f64>],
+    dc_vertices: &[Vec<f64>],
+) -> Option<&'static str> {
     const REL: f64 = 1e-9;
-    let vertices = common::vertices_where(spec, parts, |p| p.kind == PartKind::Resistor);
+    // The gain window and the input resistance, at every vertex.
     let mut gain_max: f64 = 0.0;
-    for x in &vertices {
+    for x in vertices {
         let g = stage.mid_gain(spec, x).abs();
         gain_max = gain_max.max(g);
         if let Some(t) = spec.gain_tolerance {
@@ -319,18 +334,20 @@ pub fn dc_failure(spec: &Spec, stage: &dyn Circuit, parts: &[&Part]) -> Option<&
             }
         }
     }
-    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.required_output_peak()) {
+    // At the worst-case highest |gain| (the vertices' largest), as `checks` judges it.
+    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.output_peak_at(gain_max)) {
         if sr / (2.0 * std::f64::consts::PI * peak) < spec.band.1 * (1.0 - REL) {
             return Some("slew_rate");
         }
     }
+    // The swing around the DC range, as `evaluate` finds it.
     let error_corners = if spec.worst_case() {
         DcErrors::corners(spec)
     } else {
         vec![DcErrors::nominal(spec)]
     };
     let (mut dc_min, mut dc_max, mut current) = (f64::INFINITY, f64::NEG_INFINITY, 0.0f64);
-    for x in &vertices {
+    for x in dc_vertices {
         for e in &error_corners {
             let p = stage.dc(spec, x, e);
             dc_min = dc_min.min(p.v_out);
@@ -364,60 +381,9 @@ pub fn quick_failure(spec: &Spec, stage: &dyn Circuit, build: &Build) -> Option<
     let parts: Vec<&Part> = build.parts.iter().collect();
     let vertices = common::vertices(spec, &parts);
     let (f_lo, f_hi) = spec.band;
-    // The gain window and the input resistance, at every vertex.
-    let mut gain_max: f64 = 0.0;
-    for x in &vertices {
-        let g = stage.mid_gain(spec, x).abs();
-        gain_max = gain_max.max(g);
-        if let Some(t) = spec.gain_tolerance {
-            let target = spec.gain.abs();
-            if g < target * (1.0 - t) * (1.0 - REL) || g > target * (1.0 + t) * (1.0 + REL) {
-                return Some("gain");
-            }
-        }
-        if let Some(min) = spec.input_resistance_min {
-            if stage.input_resistance(spec, x) < min * (1.0 - REL) {
-                return Some("input_resistance");
-            }
-        }
-    }
-    // At the worst-case highest |gain| (the vertices' largest), as `checks` judges it.
-    if let (Some(sr), Some(peak)) = (spec.amplifier.slew_rate, spec.output_peak_at(gain_max)) {
-        if sr / (2.0 * std::f64::consts::PI * peak) < spec.band.1 * (1.0 - REL) {
-            return Some("slew_rate");
-        }
-    }
-    // The swing around the DC range, as `evaluate` finds it.
-    let error_corners = if spec.worst_case() {
-        DcErrors::corners(spec)
-    } else {
-        vec![DcErrors::nominal(spec)]
-    };
     let dc_vertices = common::vertices_where(spec, &parts, |p| p.kind == PartKind::Resistor);
-    let (mut dc_min, mut dc_max, mut current) = (f64::INFINITY, f64::NEG_INFINITY, 0.0f64);
-    for x in &dc_vertices {
-        for e in &error_corners {
-            let p = stage.dc(spec, x, e);
-            dc_min = dc_min.min(p.v_out);
-            dc_max = dc_max.max(p.v_out);
-            current = current.max(p.divider_current);
-        }
-    }
-    let swing = common::swing(spec, dc_min, dc_max);
-    let short = |value: f64, limit: f64| value < limit - REL * limit.abs().max(1e-12);
-    let fails_swing = match (spec.output_peak, spec.input_peak) {
-        (_, Some(inp)) => short(swing / gain_max, inp),
-        (Some(out), None) => short(swing, out),
-        (None, None) => short(swing, 0.0),
-    };
-    if fails_swing {
-        return Some("swing");
-    }
-    if spec
-        .bias_current_max
-        .is_some_and(|max| current > max * (1.0 + REL))
-    {
-        return Some("divider_current");
+    if let Some(check) = resistor_failure(spec, stage, &vertices, &dc_vertices) {
+        return Some(check);
     }
     // Coupling-network corners (each network's own 1/(2πRC)) and the band edges' losses.
     let opamp = OpAmp::of(spec);
